@@ -1,0 +1,68 @@
+"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE]``.
+
+Exit codes: 0 success, 2 bad input (one line ``error: <field path>: <problem>``
+on stderr, never a traceback).
+"""
+
+from __future__ import annotations
+
+import argparse
+import json
+import sys
+import warnings
+
+from .compare import RANKINGS, evaluate
+from .demo import DEMO
+from .design import design_to_dict, load_design
+from .errors import DesignError, ExplorerWarning
+
+
+class _Parser(argparse.ArgumentParser):
+    def error(self, message):  # one line, exit code 2
+        sys.stderr.write(f"error: {message}\n")
+        raise SystemExit(2)
+
+
+def _parser() -> argparse.ArgumentParser:
+    p = _Parser(prog="python -m explorer",
+                description="Compare floating supplies for high-side gate drivers of a bridge leg.")
+    sub = p.add_subparsers(dest="command", required=True, parser_class=_Parser)
+    d = sub.add_parser("demo", help="print the built-in demo design (an invented scenario) as a design file")
+    d.add_argument("--evaluate", action="store_true", help="print the demo comparison instead")
+    e = sub.add_parser("evaluate", help="evaluate a design file and compare its options")
+    e.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
+    e.add_argument("--json", action="store_true", help="print the comparison as explorer-result JSON")
+    e.add_argument("--rank", default="overhead", choices=sorted(RANKINGS), help="ranking rule")
+    return p
+
+
+def main(argv=None) -> int:
+    args = _parser().parse_args(argv)
+    try:
+        with warnings.catch_warnings(record=True) as caught:
+            warnings.simplefilter("always", ExplorerWarning)
+            if args.command == "demo":
+                if args.evaluate:
+                    sys.stdout.write(evaluate(DEMO).to_text() + "\n")
+                else:
+                    sys.stdout.write(json.dumps(design_to_dict(load_design(DEMO)), indent=2,
+                                                ensure_ascii=False) + "\n")
+                return 0
+            src = sys.stdin.read() if args.file == "-" else args.file
+            if args.file == "-" and not src.lstrip().startswith("{"):
+                raise DesignError("", "standard input does not hold a JSON object")
+            result = evaluate(load_design(src), rank=args.rank)
+            if args.json:
+                sys.stdout.write(result.to_json(indent=2) + "\n")
+            else:
+                sys.stdout.write(result.to_text() + "\n")
+        for w in caught:
+            sys.stderr.write(f"warning: {w.message}\n")
+        return 0
+    except DesignError as e:
+        sys.stderr.write(f"error: {e}\n")
+        return 2
+
+
+if __name__ == "__main__":
+    raise SystemExit(main())

@@ -1,0 +1,250 @@
+"""Result objects shared by every supply model and by the comparison.
+
+All results are frozen dataclasses in SI units with a ``to_dict()`` that gives
+the JSON contract of ``explorer-result`` (``None`` where a figure does not
+apply or is unbounded). Arrays (waveforms) are kept on the objects for
+panels and plots but left out of ``to_dict()`` unless asked for.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass, field, fields
+
+import numpy as np
+
+__all__ = ["RailStats", "Startup", "DutyLimits", "CapacitorStress", "Check", "OptionResult",
+           "clean", "verdict_from"]
+
+
+def clean(x):
+    """JSON-ready copy: numpy scalars to float, non-finite to None, arrays to lists."""
+    if isinstance(x, dict):
+        return {k: clean(v) for k, v in x.items()}
+    if isinstance(x, (list, tuple)):
+        return [clean(v) for v in x]
+    if isinstance(x, np.ndarray):
+        return [clean(v) for v in x.tolist()]
+    if isinstance(x, (bool, np.bool_)):
+        return bool(x)
+    if isinstance(x, (int, np.integer)):
+        return int(x)
+    if isinstance(x, (float, np.floating)):
+        x = float(x)
+        return x if math.isfinite(x) else None
+    if hasattr(x, "to_dict"):
+        return x.to_dict()
+    return x
+
+
+class _Dict:
+    """Mixin: ``to_dict()`` of the scalar fields; waveform arrays only on request."""
+
+    _arrays: tuple = ()
+
+    def to_dict(self, waveforms: bool = False) -> dict:
+        out = {}
+        for f in fields(self):
+            if f.name in self._arrays and not waveforms:
+                continue
+            v = getattr(self, f.name)
+            if isinstance(v, _Dict):
+                out[f.name] = v.to_dict(waveforms)
+            elif isinstance(v, tuple) and v and isinstance(v[0], _Dict):
+                out[f.name] = [x.to_dict(waveforms) for x in v]
+            else:
+                out[f.name] = clean(v)
+        return out
+
+
+@dataclass(frozen=True)
+class RailStats(_Dict):
+    """Steady-state floating-rail voltage V_B − V_S over the analysis period [V]."""
+
+    min: float
+    max: float
+    mean: float
+
+
+@dataclass(frozen=True)
+class Startup(_Dict):
+    """Start-up from a dead rail.
+
+    Attributes
+    ----------
+    t_uvlo : float or None [s]
+        Time until the rail first reaches the UVLO rising threshold (None: never).
+    cycles_uvlo : int or None [-]
+        Switching periods (pump cycles for a charge pump) until then.
+    i_peak : float or None [A]
+        Peak inrush current into the floating supply.
+    v_dd_dip : float or None [V]
+        Dip of the aux rail while the supply fills from its decoupling.
+    t, v : ndarray [s], [V]
+        Rail waveform (for plots; not in ``to_dict()`` by default).
+    """
+
+    t_uvlo: float | None
+    cycles_uvlo: int | None
+    i_peak: float | None
+    v_dd_dip: float | None = None
+    t: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
+    v: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
+    _arrays = ("t", "v")
+
+
+@dataclass(frozen=True)
+class DutyLimits(_Dict):
+    """Feasible HS duty range at this switching frequency.
+
+    Attributes
+    ----------
+    min, max : float or None [-]
+        Feasible HS duty range (None where unbounded or none is feasible).
+    hold_up : float or None [s]
+        Time the rail stays above the requirement at 100 % duty, starting from
+        its steady-state maximum (None: indefinitely).
+    t_ls_min : float or None [s]
+        Shortest LS on-time that still refreshes the rail (None: not needed).
+    topology : dict
+        The same limits in the topology's own terms (e.g. ``v_out_max`` for a buck).
+    """
+
+    min: float | None
+    max: float | None
+    hold_up: float | None
+    t_ls_min: float | None = None
+    topology: dict = field(default_factory=dict)
+
+
+@dataclass(frozen=True)
+class CapacitorStress(_Dict):
+    """Stress on one capacitor of a supply option."""
+
+    name: str
+    c_eff: float      #: effective capacitance at the nominal corner and its DC bias [F]
+    v_max: float      #: highest voltage across it [V]
+    v_rating: float | None  #: rated voltage [V]
+    ripple: float     #: peak-to-peak voltage ripple in steady state [V]
+    i_rms: float      #: RMS current in steady state [A]
+    i_peak: float     #: peak current (steady state or start-up, the larger) [A]
+
+
+@dataclass(frozen=True)
+class Check(_Dict):
+    """One pass/fail check with its margin.
+
+    ``sense="min"`` means value must be ≥ limit; ``"max"`` means ≤ limit.
+    ``margin`` is positive when the check passes, in the check's unit.
+    """
+
+    name: str
+    value: float
+    limit: float
+    sense: str
+    unit: str
+    text: str  #: plain-words statement of what is checked
+
+    @property
+    def margin(self) -> float:
+        return self.value - self.limit if self.sense == "min" else self.limit - self.value
+
+    @property
+    def ok(self) -> bool:
+        return bool(self.margin >= 0)
+
+    def to_dict(self, waveforms: bool = False) -> dict:
+        d = super().to_dict(waveforms)
+        d["margin"] = clean(self.margin)
+        d["ok"] = self.ok
+        return d
+
+
+def verdict_from(checks, warnings=()) -> tuple[bool, str]:
+    """Feasibility and a plain-words verdict from a list of checks."""
+    failed = [c for c in checks if not c.ok]
+    if failed:
+        return False, "does not hold: " + "; ".join(c.text for c in failed)
+    if warnings:
+        return True, f"holds, with {len(warnings)} warning{'s' if len(warnings) > 1 else ''}"
+    return True, "holds over the operating point with margin"
+
+
+@dataclass(frozen=True)
+class OptionResult(_Dict):
+    """Everything computed for one supply option.
+
+    The fields named in the ``explorer-result`` contract are ``label``,
+    ``kind``, ``feasible``, ``verdict``, ``warnings``, ``v_rail``,
+    ``efficiency``, ``p_delivered``, ``p_drawn``, ``startup``, ``duty``,
+    ``r_out`` and ``capacitors``; the rest are additions.
+
+    Attributes
+    ----------
+    efficiency : float or None [-]
+        p_delivered / p_drawn.
+    p_delivered : float [W]
+        Power delivered into the floating rail's load (gate drive, driver
+        quiescent, pull-down).
+    p_drawn : float [W]
+        Power drawn from the aux rail and the bus together.
+    p_drawn_aux, p_drawn_bus : float [W]
+        The two parts of ``p_drawn``.
+    losses : dict [W]
+        Split of the overhead by mechanism.
+    checks : tuple of Check
+        Every pass/fail check with its margin.
+    error : str or None
+        Set when the option could not be evaluated (then the figures are None).
+    t, v : ndarray [s], [V]
+        Steady-state rail waveform over the analysis period.
+    """
+
+    label: str
+    kind: str
+    feasible: bool
+    verdict: str
+    warnings: tuple
+    v_rail: RailStats | None
+    efficiency: float | None
+    p_delivered: float | None
+    p_drawn: float | None
+    startup: Startup | None
+    duty: DutyLimits | None
+    r_out: float | None
+    capacitors: tuple
+    p_drawn_aux: float | None = None
+    p_drawn_bus: float | None = None
+    losses: dict = field(default_factory=dict)
+    checks: tuple = ()
+    extra: dict = field(default_factory=dict)
+    error: str | None = None
+    t: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
+    v: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
+    _arrays = ("t", "v")
+
+    @property
+    def overhead(self) -> float | None:
+        """p_drawn − p_delivered [W]."""
+        if self.p_drawn is None or self.p_delivered is None:
+            return None
+        return self.p_drawn - self.p_delivered
+
+    @property
+    def worst_margin(self) -> Check | None:
+        """The check with the smallest margin relative to its limit."""
+        if not self.checks:
+            return None
+        return min(self.checks, key=lambda c: c.margin / (abs(c.limit) or 1.0))
+
+    def to_dict(self, waveforms: bool = False) -> dict:
+        d = super().to_dict(waveforms)
+        d["overhead"] = clean(self.overhead)
+        return d
+
+    @classmethod
+    def failed(cls, label: str, kind: str, message: str) -> "OptionResult":
+        """A result for an option that could not be evaluated: no made-up numbers."""
+        return cls(label=label, kind=kind, feasible=False, verdict=f"not evaluated: {message}",
+                   warnings=(), v_rail=None, efficiency=None, p_delivered=None, p_drawn=None,
+                   startup=None, duty=None, r_out=None, capacitors=(), error=message)

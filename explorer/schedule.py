@@ -1,0 +1,307 @@
+"""Switching schedules of one bridge leg, as flat numpy arrays.
+
+A schedule is a list of intervals. Each interval has a duration, the level of
+the switch node (SW) during it, and whether the high-side (HS) gate is on;
+the edge events at interval starts (HS turn-on, SW rising, SW falling) are
+derived from those. Supply models integrate the arrays directly, so no
+per-cycle Python objects exist.
+
+Each switching period is built from four slots, in this order::
+
+    [HS on] [dead time after HS turn-off] [LS on] [dead time before HS turn-on]
+
+and zero-length slots are dropped. Conventions (DOMAIN.md's topology table):
+
+* ``sync_buck`` CCM: HS on D·T with D = V_out/(η·V_in) (Erickson & Maksimović,
+  *Fundamentals of Power Electronics*, 3rd ed., 2020, eq. 2.22; η = 1 is the
+  ideal, loss-free duty), LS on (1 − D)·T − 2·t_dead. The load current flows out
+  of SW, so in both dead times the LS body diode conducts and SW sits at
+  −v_undershoot.
+* ``sync_buck`` light load: HS on D·T, dead time, LS on for ``ls_pulse`` (the
+  inductor current reaches zero), then both switches off and SW rests at V_out
+  for the rest of the period and ``skip_cycles`` whole skipped periods.
+* ``sync_boost`` CCM: the LS is the main switch, on D·T with D = 1 − η·V_in/V_out
+  (same source, eq. 2.39 rearranged); the HS is the synchronous rectifier, on
+  (1 − D)·T − 2·t_dead. The current flows into SW, so in dead time the HS body
+  diode holds SW at the bus.
+* ``half_bridge`` and ``line_leg``: HS on d·T − t_dead, LS on (1 − d)·T − t_dead
+  (d = 0.5 gives DOMAIN's 0.5 − t_dead/T). Zero-voltage switching: SW falls in the
+  dead time after HS turn-off and rises in the dead time before HS turn-on.
+  ``line_leg`` switches once per line period.
+* ``full_bridge`` (one leg) and ``three_phase``: HS on d·T − t_dead (turn-on
+  delayed by the dead time). Sine PWM, regular-sampled at the start of each
+  switching period: d_k = ½(1 + m·sin θ_k), θ_k = 2πk/N, N = round(f_sw/f_o)
+  (Mohan, Undeland & Robbins, *Power Electronics*, 3rd ed., 2003, §8-6); with
+  third-harmonic injection the reference is m·(sin θ + sin 3θ / 6)
+  (Holmes & Lipo, *Pulse Width Modulation for Power Converters*, 2003, §5.4).
+  Over-modulation clips d to [0, 1]. The dead-time level follows the sign of
+  the load current sin(θ − φ). Standstill (f_o = 0) holds the worst angle, the
+  highest duty, for ever: one switching period is analysed.
+
+A duty whose LS slot vanishes keeps the HS on for the whole period (no dead
+times); an HS pulse shorter than the driver's ``t_on_min`` is dropped.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+from .design import Bridge, Design, Driver
+from .errors import DesignError
+
+__all__ = ["Schedule", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period"]
+
+
+@dataclass(frozen=True)
+class Schedule:
+    """Intervals of a switching schedule (all arrays have one entry per interval).
+
+    Attributes
+    ----------
+    dt : ndarray of float [s]
+        Interval durations.
+    v_sw : ndarray of float [V]
+        Switch-node level during the interval (referred to the power return).
+    hs_on : ndarray of bool
+        High-side gate on during the interval.
+    hs_turn_on : ndarray of bool
+        The HS turns on at the start of the interval.
+    sw_rise, sw_fall : ndarray of bool
+        SW rises to (falls from) the bus at the start of the interval.
+    cycle : ndarray of int
+        Index of the switching period (line period for ``line_leg``) each
+        interval belongs to.
+    duty : ndarray of float [-]
+        HS on-time / period of each switching period.
+    t_switch : float [s]
+        One switching period (one line period for ``line_leg``).
+    v_bus : float [V]
+        Bus voltage, the high level of SW.
+    periodic : bool
+        True for a steady-state analysis period (the last interval precedes the
+        first); False for start-up (SW low and HS off before the first).
+    """
+
+    dt: np.ndarray
+    v_sw: np.ndarray
+    hs_on: np.ndarray
+    hs_turn_on: np.ndarray
+    sw_rise: np.ndarray
+    sw_fall: np.ndarray
+    cycle: np.ndarray
+    duty: np.ndarray
+    t_switch: float
+    v_bus: float
+    periodic: bool
+
+    @property
+    def period(self) -> float:
+        """Total duration [s]."""
+        return float(self.dt.sum())
+
+    @property
+    def t_start(self) -> np.ndarray:
+        """Start time of each interval [s]."""
+        return np.concatenate(([0.0], np.cumsum(self.dt)[:-1]))
+
+    @property
+    def n_cycles(self) -> int:
+        """Number of switching periods covered."""
+        return int(self.duty.size)
+
+    @property
+    def sw_high(self) -> np.ndarray:
+        """SW at the bus (above half of it) during the interval."""
+        return self.v_sw > 0.5 * self.v_bus
+
+    def __len__(self) -> int:
+        return int(self.dt.size)
+
+
+# --------------------------------------------------------------------------- duty
+
+def nominal_duty(bridge: Bridge) -> float:
+    """HS duty command of the operating point (before dead time) [-].
+
+    For three_phase this is the highest duty over the fundamental.
+    """
+    t = bridge.topology
+    if t == "sync_buck":
+        return bridge.v_out / (bridge.eta * bridge.v_bus)
+    if t == "sync_boost":
+        return bridge.eta * bridge.v_in / bridge.v_bus  # HS (rectifier) share 1 − D
+    if t in ("half_bridge", "line_leg"):
+        return 0.5 if bridge.duty is None else bridge.duty
+    if t == "full_bridge":
+        return bridge.duty
+    u = _modulation(bridge, np.array([np.pi / 3 if bridge.third_harmonic else np.pi / 2]), 1.0)
+    return float(np.clip(0.5 * (1 + u[0]), 0.0, 1.0))
+
+
+def _modulation(bridge: Bridge, theta: np.ndarray, ramp) -> np.ndarray:
+    u = np.sin(theta)
+    if bridge.third_harmonic:
+        u = u + np.sin(3 * theta) / 6.0
+    return bridge.m * ramp * u
+
+
+def _n_per_fundamental(bridge: Bridge) -> int:
+    if not bridge.f_o:
+        return 1
+    return max(1, int(round(bridge.f_sw / bridge.f_o)))
+
+
+def hs_duty_per_period(bridge: Bridge, k: np.ndarray, ramp: np.ndarray):
+    """Per-period HS command, slot times and dead-time SW levels.
+
+    Parameters
+    ----------
+    bridge : Bridge
+    k : ndarray of int
+        Switching-period indices (angle index for three_phase).
+    ramp : ndarray of float
+        Soft-start factor 0…1 per period.
+
+    Returns
+    -------
+    t_hs, t_ls : ndarray [s]
+        Raw HS and LS slot durations (may be ≤ 0; see :func:`_assemble`).
+    lvl_a, lvl_b : ndarray [V]
+        SW level in the dead time after HS turn-off and before HS turn-on.
+    """
+    t = bridge.topology
+    T = 1.0 / (bridge.f_line if t == "line_leg" else bridge.f_sw)
+    td = bridge.dead_time
+    low = -bridge.v_undershoot
+    high = bridge.v_bus
+    ones = np.ones(k.shape)
+    if t == "sync_buck":
+        t_hs = nominal_duty(bridge) * ramp * T
+        t_ls = T - t_hs - 2 * td
+        return t_hs, t_ls, low * ones, low * ones
+    if t == "sync_boost":
+        d_main = (1.0 - nominal_duty(bridge)) * ramp
+        t_ls = d_main * T
+        t_hs = T - t_ls - 2 * td
+        return t_hs, t_ls, high * ones, high * ones
+    if t in ("half_bridge", "line_leg"):
+        d = nominal_duty(bridge) * ones
+        lvl_a = low * ones if t == "half_bridge" else bridge.v_sw_low * ones
+        lvl_b = high * ones if t == "half_bridge" else bridge.v_sw_low * ones
+        return d * T - td, (1 - d) * T - td, lvl_a, lvl_b
+    if t == "full_bridge":
+        d = bridge.duty * ramp
+        return d * T - td, (1 - d) * T - td, low * ones, low * ones
+    # three_phase
+    n = _n_per_fundamental(bridge)
+    if bridge.f_o:
+        theta = 2 * np.pi * k / n
+    else:  # standstill: the angle of the highest duty
+        theta = (np.pi / 3 if bridge.third_harmonic else np.pi / 2) * ones
+    d = np.clip(0.5 * (1 + _modulation(bridge, theta, ramp)), 0.0, 1.0)
+    i_pos = np.sin(theta - bridge.phi) >= 0
+    lvl = np.where(i_pos, low, high)
+    return d * T - td, (1 - d) * T - td, lvl, lvl
+
+
+# --------------------------------------------------------------------------- assembly
+
+def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic: bool,
+              pre: float = 0.0) -> Schedule:
+    """Build the interval arrays from per-period slot times (vectorised)."""
+    t = bridge.topology
+    T = 1.0 / (bridge.f_line if t == "line_leg" else bridge.f_sw)
+    td = bridge.dead_time
+    K = t_hs.size
+    full_on = t_ls <= 0.0
+    dropped = (t_hs <= 0.0) | (t_hs < driver.t_on_min)
+    dt = np.empty((K, 4))
+    dt[:, 0] = t_hs
+    dt[:, 1] = td
+    dt[:, 2] = t_ls
+    dt[:, 3] = td
+    v = np.empty((K, 4))
+    v[:, 0] = bridge.v_bus
+    v[:, 1] = lvl_a
+    v[:, 2] = bridge.v_sw_low
+    v[:, 3] = lvl_b
+    if t == "sync_buck" and bridge.mode == "light_load":
+        if bridge.ls_pulse > t_ls.max(initial=0.0):
+            raise DesignError("bridge.ls_pulse", f"must be shorter than the low-side slot "
+                              f"{t_ls.max(initial=0.0):.4g} s", bridge.ls_pulse)
+        span = T * (1 + bridge.skip_cycles)
+        dt[:, 2] = bridge.ls_pulse
+        dt[:, 3] = span - dt[:, 0] - dt[:, 1] - dt[:, 2]
+        v[:, 3] = bridge.v_out
+        full_on = np.zeros(K, dtype=bool)
+    # whole-period HS on (LS slot vanished) or HS pulse dropped (too short)
+    dt[full_on] = (T, 0.0, 0.0, 0.0)
+    dt[dropped & ~full_on] = (0.0, 0.0, T, 0.0)
+    hs = np.zeros((K, 4), dtype=bool)
+    hs[:, 0] = True
+    cyc = np.repeat(np.arange(K), 4).reshape(K, 4)
+    duty = dt[:, 0] / dt.sum(axis=1)
+    dt, v, hs, cyc = dt.ravel(), v.ravel(), hs.ravel(), cyc.ravel()
+    if pre > 0.0:  # low-side pre-charge pulse before the first period
+        dt = np.concatenate(([pre], dt))
+        v = np.concatenate(([bridge.v_sw_low], v))
+        hs = np.concatenate(([False], hs))
+        cyc = np.concatenate(([-1], cyc))
+    keep = dt > 0.0
+    dt, v, hs, cyc = dt[keep], v[keep], hs[keep], cyc[keep]
+    high = v > 0.5 * bridge.v_bus
+    if periodic:
+        prev_high, prev_hs = np.roll(high, 1), np.roll(hs, 1)
+    else:
+        prev_high = np.concatenate(([False], high[:-1]))
+        prev_hs = np.concatenate(([False], hs[:-1]))
+    return Schedule(dt=dt, v_sw=v, hs_on=hs, hs_turn_on=hs & ~prev_hs, sw_rise=high & ~prev_high,
+                    sw_fall=~high & prev_high, cycle=cyc, duty=duty,
+                    t_switch=T * (1 + (bridge.skip_cycles if t == "sync_buck" and bridge.mode == "light_load" else 0)),
+                    v_bus=bridge.v_bus, periodic=periodic)
+
+
+def period_schedule(design: Design, bridge: Bridge | None = None) -> Schedule:
+    """The steady-state analysis period of the leg.
+
+    One switching period, except: three_phase covers a whole fundamental
+    period (N = round(f_sw/f_o) switching periods; one period at standstill);
+    line_leg covers one line period; a light-load buck covers one pulse and
+    its skipped periods.
+
+    Examples
+    --------
+    >>> from explorer import demo_design
+    >>> s = period_schedule(demo_design())
+    >>> round(s.period * demo_design().bridge.f_sw, 12)
+    1.0
+    """
+    b = bridge or design.bridge
+    n = _n_per_fundamental(b) if b.topology == "three_phase" else 1
+    k = np.arange(n)
+    t_hs, t_ls, la, lb = hs_duty_per_period(b, k, np.ones(n))
+    return _assemble(b, design.driver, t_hs, t_ls, la, lb, periodic=True)
+
+
+def startup_schedule(design: Design, bridge: Bridge | None = None, n_cycles: int | None = None) -> Schedule:
+    """Start-up from a dead rail: optional LS pre-charge, then the soft-start ramp.
+
+    The duty command rises linearly from 0 over ``soft_start`` (a buck's HS
+    duty, a boost's main-switch duty, a full bridge's command, a three-phase
+    leg's modulation index; a half bridge and a line leg keep their duty).
+    ``n_cycles`` (default ``bridge.startup_cycles``) switching periods are
+    covered after the pre-charge. Whether an HS pulse is really delivered
+    depends on the rail reaching UVLO, which the supply model decides.
+    """
+    b = bridge or design.bridge
+    n = b.startup_cycles if n_cycles is None else int(n_cycles)
+    T = 1.0 / (b.f_line if b.topology == "line_leg" else b.f_sw)
+    k = np.arange(n)
+    if b.soft_start > 0 and b.topology not in ("half_bridge", "line_leg"):
+        ramp = np.minimum(1.0, (k * T) / b.soft_start)
+    else:
+        ramp = np.ones(n)
+    t_hs, t_ls, la, lb = hs_duty_per_period(b, k, ramp)
+    return _assemble(b, design.driver, t_hs, t_ls, la, lb, periodic=False, pre=b.precharge)

@@ -1,0 +1,25 @@
+"""Shared test fixtures."""
+
+import os
+
+import pytest
+
+from explorer import demo_design
+from explorer.spice import ngspice_path
+
+
+@pytest.fixture
+def demo():
+    """The built-in demo design (an invented scenario)."""
+    return demo_design()
+
+
+@pytest.fixture
+def ngspice():
+    """Path of ngspice. In CI (CI set) a missing ngspice fails the test instead of skipping it."""
+    path = ngspice_path()
+    if path is None:
+        if os.environ.get("CI"):
+            pytest.fail("ngspice is required in CI (the test command installs it with apt-get)")
+        pytest.skip("ngspice not installed; run the README's test command, which installs it")
+    return path
