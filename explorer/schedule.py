@@ -12,16 +12,16 @@ Each switching period is built from four slots, in this order::
 
 and zero-length slots are dropped. Conventions (DOMAIN.md's topology table):
 
-* ``sync_buck`` CCM: HS on D·T with D = V_out/(η·V_in) (Erickson & Maksimović,
-  *Fundamentals of Power Electronics*, 3rd ed., 2020, eq. 2.22; η = 1 is the
-  ideal, loss-free duty), LS on (1 − D)·T − 2·t_dead. The load current flows out
+* ``sync_buck`` CCM: HS on D·T with D = V_out/(η·V_in) (volt-second balance,
+  Erickson & Maksimović, *Fundamentals of Power Electronics*, 3rd ed., 2020,
+  ch. 2; η = 1 is the ideal, loss-free duty), LS on (1 − D)·T − 2·t_dead. The load current flows out
   of SW, so in both dead times the LS body diode conducts and SW sits at
   −v_undershoot.
 * ``sync_buck`` light load: HS on D·T, dead time, LS on for ``ls_pulse`` (the
   inductor current reaches zero), then both switches off and SW rests at V_out
   for the rest of the period and ``skip_cycles`` whole skipped periods.
 * ``sync_boost`` CCM: the LS is the main switch, on D·T with D = 1 − η·V_in/V_out
-  (same source, eq. 2.39 rearranged); the HS is the synchronous rectifier, on
+  (same source, ch. 2); the HS is the synchronous rectifier, on
   (1 − D)·T − 2·t_dead. The current flows into SW, so in dead time the HS body
   diode holds SW at the bus.
 * ``half_bridge`` and ``line_leg``: HS on d·T − t_dead, LS on (1 − d)·T − t_dead
@@ -31,9 +31,9 @@ and zero-length slots are dropped. Conventions (DOMAIN.md's topology table):
 * ``full_bridge`` (one leg) and ``three_phase``: HS on d·T − t_dead (turn-on
   delayed by the dead time). Sine PWM, regular-sampled at the start of each
   switching period: d_k = ½(1 + m·sin θ_k), θ_k = 2πk/N, N = round(f_sw/f_o)
-  (Mohan, Undeland & Robbins, *Power Electronics*, 3rd ed., 2003, §8-6); with
+  (Mohan, Undeland & Robbins, *Power Electronics*, 3rd ed., 2003, ch. 8); with
   third-harmonic injection the reference is m·(sin θ + sin 3θ / 6)
-  (Holmes & Lipo, *Pulse Width Modulation for Power Converters*, 2003, §5.4).
+  (Holmes & Lipo, *Pulse Width Modulation for Power Converters*, IEEE Press/Wiley, 2003).
   Over-modulation clips d to [0, 1]. The dead-time level follows the sign of
   the load current sin(θ − φ). Standstill (f_o = 0) holds the worst angle, the
   highest duty, for ever: one switching period is analysed.
