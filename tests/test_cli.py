@@ -1,0 +1,76 @@
+"""The command line: demo, evaluate, JSON contract, bad input (exit 2, one line, no traceback)."""
+
+import json
+import subprocess
+import sys
+
+import pytest
+
+from explorer import DEMO
+
+
+def run(*args, stdin=None):
+    return subprocess.run([sys.executable, "-m", "explorer", *args], capture_output=True, text=True,
+                          input=stdin, timeout=120)
+
+
+def test_demo_prints_a_loadable_design(tmp_path):
+    r = run("demo")
+    assert r.returncode == 0, r.stderr
+    d = json.loads(r.stdout)
+    assert d["format"] == "explorer-design" and "invented" in d["title"]
+    p = tmp_path / "demo.json"
+    p.write_text(r.stdout)
+    r2 = run("evaluate", str(p), "--json")
+    assert r2.returncode == 0, r2.stderr
+    res = json.loads(r2.stdout)
+    assert res["format"] == "explorer-result" and res["version"] == 1
+    assert [o["label"] for o in res["options"]] == [o["label"] for o in DEMO["options"]]
+    for o in res["options"]:
+        for key in ("label", "kind", "feasible", "verdict", "warnings", "v_rail", "efficiency",
+                    "p_delivered", "p_drawn", "startup", "duty", "r_out", "capacitors"):
+            assert key in o, key
+
+
+def test_text_table(tmp_path):
+    p = tmp_path / "demo.json"
+    p.write_text(json.dumps(DEMO))
+    r = run("evaluate", str(p))
+    assert r.returncode == 0, r.stderr
+    assert "rail min / max" in r.stdout and "Caution" in r.stdout
+
+
+@pytest.mark.parametrize("mutate, needle", [
+    (lambda d: d["gate"].update(q_g="forty"), "error: gate.q_g: expected a number"),
+    (lambda d: d["options"][1].update(c_fly=-1), "error: options[1].c_fly.c: expected a number > 0"),
+    (lambda d: d.update(version=9), "error: version: this file was written by a newer explorer"),
+    (lambda d: d["driver"].update(uvlo_off=99), "error: driver.uvlo_off: must be below uvlo_on"),
+])
+def test_bad_input_exit_2_one_line(tmp_path, mutate, needle):
+    d = json.loads(json.dumps(DEMO))
+    mutate(d)
+    p = tmp_path / "bad.json"
+    p.write_text(json.dumps(d))
+    r = run("evaluate", str(p), "--json")
+    assert r.returncode == 2
+    assert r.stdout == ""
+    lines = r.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith(needle), r.stderr
+    assert "Traceback" not in r.stderr
+
+
+def test_missing_file_and_bad_json(tmp_path):
+    r = run("evaluate", str(tmp_path / "nope.json"))
+    assert r.returncode == 2 and r.stderr.startswith("error: cannot read design file")
+    p = tmp_path / "trunc.json"
+    p.write_text(json.dumps(DEMO)[:100])
+    r = run("evaluate", str(p))
+    assert r.returncode == 2 and r.stderr.startswith("error: not valid JSON")
+    r = run("frobnicate")
+    assert r.returncode == 2 and r.stderr.startswith("error:") and "Traceback" not in r.stderr
+
+
+def test_stdin():
+    r = run("evaluate", "-", "--json", stdin=json.dumps(DEMO))
+    assert r.returncode == 0, r.stderr
+    assert json.loads(r.stdout)["title"] == DEMO["title"]
