@@ -177,3 +177,11 @@ def test_every_field_has_a_documented_spec():
     assert set(specs(Bridge)) >= {"topology", "v_bus", "f_sw", "dead_time", "t_edge", "v_out", "v_in",
                                   "duty", "mode", "m", "f_o", "third_harmonic", "f_line", "soft_start",
                                   "precharge"}
+
+
+def test_glossary_is_current():
+    from pathlib import Path
+
+    from explorer.glossary import glossary_markdown
+    text = (Path(__file__).parent.parent / "docs" / "glossary.md").read_text()
+    assert text.strip() == glossary_markdown().strip(), "run: python -m explorer.glossary > docs/glossary.md"
