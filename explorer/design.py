@@ -27,7 +27,7 @@ from .units import parse_eng
 
 __all__ = [
     "FORMAT", "VERSION", "MAX_FILE_BYTES", "TOPOLOGIES", "Spec", "Capacitor", "LinearDiode",
-    "JunctionDiode", "Bridge", "Gate", "Driver", "Aux", "Checks", "BootstrapOption",
+    "JunctionDiode", "Bridge", "Gate", "Driver", "Aux", "Checks", "Spread", "BootstrapOption",
     "ChargePumpOption", "IsolatedOption", "Design", "load_design", "save_design", "design_to_dict",
     "replace_field", "specs",
 ]
@@ -279,6 +279,25 @@ class Checks:
                               self.t_amb)
 
 
+@dataclass(frozen=True, kw_only=True)
+class Spread:
+    """Part-to-part and supply spreads used by the tolerance corners and Monte Carlo.
+
+    Capacitors spread by their own ``c_tol`` and temperature class; the aux rail
+    by ``aux.v_dd_tol``. A relative spread ``x`` means the value lies within
+    ±x of nominal (uniform) or that x is three standard deviations (gaussian).
+    """
+
+    q_g: float = _f("-", "relative spread of the gate charge", 0.0, lo=0.0, hi=0.9)
+    i_q: float = _f("-", "relative spread of the driver quiescent current", 0.0, lo=0.0, hi=0.9)
+    v_f: float = _f("-", "relative spread of the bootstrap diode forward voltage / saturation current",
+                    0.0, lo=0.0, hi=0.9)
+    leak_per_100k: float = _f("-", "growth of diode leakage per 100 K rise above t_amb (default 100 is a "
+                              "typical value from memory; give your part's figure)", 100.0, lo=1.0, hi=1e6)
+    distribution: str = _f("-", "how values spread within their tolerance", "uniform", kind="choice",
+                           choices=("uniform", "gaussian"))
+
+
 # --------------------------------------------------------------------------- options
 
 @dataclass(frozen=True, kw_only=True)
@@ -380,6 +399,7 @@ class Design:
     aux: Aux
     options: tuple
     checks: Checks = field(default_factory=Checks)
+    spread: Spread = field(default_factory=Spread)
 
     def option(self, label: str) -> Option:
         """The option with this label."""
@@ -498,7 +518,7 @@ def _build(cls, data: Any, path: str):
     return obj
 
 
-_TOP_KEYS = ("format", "version", "title", "bridge", "gate", "driver", "aux", "options", "checks")
+_TOP_KEYS = ("format", "version", "title", "bridge", "gate", "driver", "aux", "options", "checks", "spread")
 
 
 def _design_from_dict(data: Any) -> Design:
@@ -528,6 +548,7 @@ def _design_from_dict(data: Any) -> Design:
             raise DesignError(key, "missing section")
         sections[key] = _build(cls, data[key], key)
     checks = _build(Checks, data.get("checks", {}), "checks")
+    spread = _build(Spread, data.get("spread", {}), "spread")
     opts_raw = data.get("options")
     if not isinstance(opts_raw, list) or not 1 <= len(opts_raw) <= 50:
         raise DesignError("options", "expected a list of 1 to 50 supply options",
@@ -547,7 +568,7 @@ def _design_from_dict(data: Any) -> Design:
         labels.add(opt.label)
         options.append(opt)
     return Design(title, sections["bridge"], sections["gate"], sections["driver"], sections["aux"],
-                  tuple(options), checks)
+                  tuple(options), checks, spread)
 
 
 def load_design(source: Union[str, os.PathLike, dict, Design]) -> Design:
@@ -618,6 +639,7 @@ def design_to_dict(design: Design) -> dict:
         d[key] = _dump(getattr(design, key))
     d["options"] = [_dump(o) for o in design.options]
     d["checks"] = _dump(design.checks)
+    d["spread"] = _dump(design.spread)
     return d
 
 

@@ -10,7 +10,7 @@ from . import design as d
 __all__ = ["glossary_markdown"]
 
 _SECTIONS = [
-    ("bridge", d.Bridge), ("gate", d.Gate), ("driver", d.Driver), ("aux", d.Aux), ("checks", d.Checks),
+    ("bridge", d.Bridge), ("gate", d.Gate), ("driver", d.Driver), ("aux", d.Aux), ("checks", d.Checks), ("spread", d.Spread),
     ("options[] kind \"bootstrap\"", d.BootstrapOption), ("bootstrap diode, straight line", d.LinearDiode),
     ("bootstrap diode, exponential junction", d.JunctionDiode),
     ("options[] kind \"charge_pump\"", d.ChargePumpOption), ("options[] kind \"isolated\"", d.IsolatedOption),
