@@ -1,0 +1,539 @@
+"""Isolated supply: a small isolated DC-DC module per floating rail (DOMAIN.md, "Option 3").
+
+The module is described by its data-sheet-style figures: no-load output
+``v_out``, output resistance ``r_out``, rated power ``p_rated``, no-load input
+power ``p_no_load`` and efficiency ``eta_full`` at rated power, start-up delay
+``t_start`` and ramp ``t_ramp``, isolation capacitance ``c_iso`` and working
+voltage ``v_iso``. The model is:
+
+* **Losses** ``P_loss = P_0 + k·P²`` (a fixed no-load loss plus a conduction-
+  like term), fitted exactly through the two figures given: ``P_in(0) = P_0``
+  and ``P/P_in(P_rated) = eta_full``. The module's own output resistance is
+  inside the measured efficiency, so ``r_out``'s I²R is part of ``k·P²`` and
+  is not added again.
+* **Output rail** an ideal source ``v_out`` behind ``r_out`` feeding ``c_out``
+  (effective capacitance at the corner and at its DC bias). At every HS turn-on
+  the gate takes the charge ``Q_G + Q_LS`` from ``c_out`` as a step (the gate
+  charges in nanoseconds, far faster than ``tau = r_out·C_out``); the driver's
+  quiescent current flows always and ``V/R_GS`` while the HS is on. Between
+  events the rail recovers exponentially: ``dV/dt = (V_inf − V)/tau`` with
+  constant coefficients in each interval, solved exactly per interval; the
+  periodic steady state is the fixed point of the composed affine map (no
+  time-stepping). For ``tau ≫ T`` the ripple is ``Q/C_out`` (Q = C·V); for
+  ``r_out = 0`` the module is an ideal source and recovers at once, so the
+  dip ``Q/C_out`` lasts an instant (kept as the conservative minimum).
+* **Load** the average gate-drive power P = Q_G·V·f plus quiescent and
+  pull-down power over the analysis period (:mod:`explorer.loads`) at the
+  mean rail voltage.
+* **Common mode** (:mod:`explorer.common_mode`): dv/dt = V_bus/t_edge, peak
+  current C_iso·dv/dt, charge C_iso·V_bus per edge, and the power the bus
+  supplies for it (C_iso·V_bus²·f_sw for a plain 0 → V_bus swing; from the
+  actual rising-edge steps of the schedule in general), counted in
+  ``p_drawn_bus``. The driver's CMTI must exceed ``cmti_margin``·dv/dt.
+* **Start-up** is independent of the PWM: after ``t_start`` the module's
+  source ramps linearly to its output over ``t_ramp``; ``c_out`` follows it
+  through ``r_out`` (first-order lag tau). Until the rail reaches the UVLO
+  rising threshold the driver withholds HS pulses, so the load meanwhile is
+  the driver's quiescent current only; the ramp's end level is
+  ``v_out − r_out·I_Q``.
+* **Duty** any HS duty 0–100 % works (no refresh needed); the limit is the
+  module's power rating, checked as a failed check (overload).
+
+The isolation figures are a screening check only; the statement that
+insulation must be designed and verified to the applicable safety standards
+is always part of the result's warnings.
+"""
+
+from __future__ import annotations
+
+import math
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import brentq
+
+from .. import common_mode as cm
+from ..capacitors import capacitance, parse_dielectric
+from ..design import Design, IsolatedOption
+from ..errors import DesignError, ModelValidityWarning
+from ..loads import charge_per_turn_on, load_charge, load_power, required_rail
+from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup,
+                       verdict_from)
+from ..schedule import Schedule, period_schedule
+
+__all__ = ["ISO_HEADROOM", "INSULATION_STATEMENT", "loss_coefficient", "module_input_power",
+           "module_efficiency", "optimum_load", "RailSolution", "output_rail", "startup_voltage",
+           "time_to_level", "ramp_inrush", "evaluate_option"]
+
+#: Isolation working voltage wanted above the peak voltage across the barrier
+#: before no warning is given [-] (common practice, no source: it leaves room for
+#: edge overshoot and ringing, which the model does not compute).
+ISO_HEADROOM = 1.25
+
+#: Plain-words statement shown with every isolated option.
+INSULATION_STATEMENT = (
+    "insulation: the isolation figures here are a screening check only; the barrier, creepage and "
+    "clearance must be designed and verified to the applicable safety standards (e.g. IEC 62368-1, "
+    "IEC 61800-5-1, IEC 60664-1) and local codes")
+
+
+# --------------------------------------------------------------------------- loss model
+
+def loss_coefficient(p_rated, p_no_load, eta_full):
+    """Coefficient k of the loss model P_loss = P_0 + k·P² [1/W].
+
+    Fitted through the two given points: P_loss(0) = P_0 and
+    P_loss(P_rated) = P_rated·(1/eta_full − 1), hence
+
+        k = (P_rated·(1/eta_full − 1) − P_0) / P_rated²
+
+    Parameters
+    ----------
+    p_rated : float or array [W], > 0
+        Rated output power.
+    p_no_load : float or array [W], ≥ 0
+        Input power at no load (P_0).
+    eta_full : float or array [-], in (0, 1)
+        Efficiency at rated power.
+
+    Examples
+    --------
+    >>> round(float(loss_coefficient(1.0, 0.05, 0.8)), 12)
+    0.2
+    """
+    p_rated = np.asarray(p_rated, dtype=float)
+    return (p_rated * (1.0 / np.asarray(eta_full, dtype=float) - 1.0)
+            - np.asarray(p_no_load, dtype=float)) / (p_rated * p_rated)
+
+
+def module_input_power(p_out, p_no_load, k):
+    """Input power of the module, P_in = P + P_0 + k·P² [W].
+
+    Parameters
+    ----------
+    p_out : float or array [W], ≥ 0
+        Output power at the module's terminals.
+    p_no_load : float or array [W]
+        No-load input power P_0.
+    k : float or array [1/W]
+        From :func:`loss_coefficient`.
+    """
+    p = np.asarray(p_out, dtype=float)
+    return p + np.asarray(p_no_load, dtype=float) + np.asarray(k, dtype=float) * p * p
+
+
+def module_efficiency(p_out, p_no_load, k):
+    """Module efficiency η = P/(P + P_0 + k·P²) [-].
+
+    It rises with load up to :func:`optimum_load` and falls beyond (for
+    P_0 > 0); it is 0 at no load and stays in (0, 1) for P > 0 and k > 0.
+
+    Parameters
+    ----------
+    p_out : float or array [W], ≥ 0
+    p_no_load : float or array [W], ≥ 0
+    k : float or array [1/W], > 0
+    """
+    p = np.asarray(p_out, dtype=float)
+    p_in = module_input_power(p, p_no_load, k)
+    with np.errstate(invalid="ignore", divide="ignore"):
+        return np.where(p_in > 0, p / np.where(p_in > 0, p_in, 1.0), 0.0)
+
+
+def optimum_load(p_no_load, k):
+    """Output power of highest efficiency, P* = sqrt(P_0/k) [W].
+
+    From dη/dP = 0: (P_in − P·dP_in/dP)/P_in² = (P_0 − k·P²)/P_in² = 0.
+    """
+    return np.sqrt(np.asarray(p_no_load, dtype=float) / np.asarray(k, dtype=float))
+
+
+# --------------------------------------------------------------------------- output rail
+
+@dataclass(frozen=True)
+class RailSolution:
+    """Periodic steady state of the module's output rail over one analysis period.
+
+    Attributes
+    ----------
+    v_start : ndarray [V]
+        Rail at the start of each interval, before any turn-on step.
+    v_after : ndarray [V]
+        Rail just after the turn-on step (equal to ``v_start`` without one).
+    v_end : ndarray [V]
+        Rail at the end of each interval.
+    v_inf, tau : ndarray [V], [s]
+        Level each interval relaxes toward and its time constant (0: at once).
+    min, max, mean : float [V]
+        Extremes (reached at interval boundaries: each interval's exponential
+        is monotonic) and the time average.
+    i_rms_recharge : float [A]
+        RMS over the period of the capacitor's recharge current (the turn-on
+        pulses excluded); 0 when r_out = 0.
+    i_peak_recharge : float [A]
+        Largest recharge current into the capacitor.
+    """
+
+    v_start: np.ndarray
+    v_after: np.ndarray
+    v_end: np.ndarray
+    v_inf: np.ndarray
+    tau: np.ndarray
+    min: float
+    max: float
+    mean: float
+    i_rms_recharge: float
+    i_peak_recharge: float
+
+    def waveform(self, dt: np.ndarray, points: int = 8) -> tuple[np.ndarray, np.ndarray]:
+        """Time [s] and rail [V] samples: each step drawn vertically, ``points`` per interval."""
+        t0 = np.concatenate(([0.0], np.cumsum(dt)[:-1]))
+        u = np.linspace(0.0, 1.0, points)
+        s = dt[:, None] * u[None, :]
+        with np.errstate(divide="ignore", invalid="ignore"):
+            decay = np.where(self.tau[:, None] > 0, np.exp(-s / np.where(self.tau > 0, self.tau, 1.0)[:, None]),
+                             (s == 0).astype(float))
+        seg = self.v_inf[:, None] + (self.v_after - self.v_inf)[:, None] * decay
+        t = np.concatenate((t0[:, None], t0[:, None] + s), axis=1).ravel()
+        v = np.concatenate((self.v_start[:, None], seg), axis=1).ravel()
+        return t, v
+
+
+def _affine_scan(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Inclusive prefix composition of the maps x ↦ a_k·x + b_k (Hillis–Steele scan).
+
+    Returns (A_k, B_k) with x_k = A_k·x_0 + B_k after maps 0..k. Only products
+    of numbers in [0, 1] are formed, so it is stable for any length.
+    """
+    a = a.copy()
+    b = b.copy()
+    s = 1
+    n = a.size
+    while s < n:
+        b[s:] = b[s:] + a[s:] * b[:-s]
+        a[s:] = a[s:] * a[:-s]
+        s *= 2
+    return a, b
+
+
+def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: float,
+                q_pulse: float, i_q: float = 0.0, r_gs: float | None = None) -> RailSolution:
+    """Periodic steady state of a source behind a resistance charging a capacitor that feeds a gate driver.
+
+    Per interval (constant coefficients), with G = 1/r_out and g = 1/R_GS while
+    the HS is on (else 0), Kirchhoff's current law at the rail gives
+
+        C·dV/dt = (v_src − V)·G − I_Q − g·V
+        ⇒ V(t) = V_inf + (V_0 − V_inf)·exp(−t/tau),
+          tau = C/(G + g),  V_inf = (v_src·G − I_Q)/(G + g)
+
+    and at an HS turn-on the gate charge steps the rail down by Q/C (Q = C·V).
+    One period is a composition of affine maps; the steady state is its fixed
+    point V_0 = B/(1 − A) with 1 − A = −expm1(−Σ dt/tau) (first-order linear
+    circuit response, e.g. Alexander & Sadiku, *Fundamentals of Electric
+    Circuits*, 6th ed., 2017, §7.6).
+
+    Parameters
+    ----------
+    dt : array [s], > 0
+        Interval durations of the periodic schedule.
+    hs_on, hs_turn_on : array of bool
+        HS gate on during the interval; HS turns on at its start.
+    v_src : float [V]
+        Module no-load output (the source).
+    r_out : float [Ω], ≥ 0
+        Module output resistance (0: ideal source, instant recovery).
+    c_out : float [F], > 0
+        Effective output capacitance.
+    q_pulse : float [C], ≥ 0
+        Charge taken at each HS turn-on (Q_G + Q_LS).
+    i_q : float [A], ≥ 0
+        Constant quiescent current.
+    r_gs : float or None [Ω]
+        Gate pull-down drawing V/R_GS while the HS is on.
+
+    Returns
+    -------
+    RailSolution
+    """
+    dt = np.asarray(dt, dtype=float)
+    hs_on = np.asarray(hs_on, dtype=bool)
+    jump = np.where(np.asarray(hs_turn_on, dtype=bool), q_pulse / c_out, 0.0)
+    g = hs_on / r_gs if r_gs is not None else np.zeros(dt.shape)
+    if r_out > 0.0:
+        big_g = 1.0 / r_out
+        tau = c_out / (big_g + g)
+        v_inf = (v_src * big_g - i_q) / (big_g + g)
+        x = dt / tau
+        alpha = np.exp(-x)
+        one_minus_a = -math.expm1(-float(x.sum()))
+    else:  # ideal source: recovers at once to v_src
+        tau = np.zeros(dt.shape)
+        v_inf = np.full(dt.shape, float(v_src))
+        alpha = np.zeros(dt.shape)
+        one_minus_a = 1.0
+    # interval map: V_end = alpha·(V_start − jump) + (1 − alpha)·V_inf
+    a_cum, b_cum = _affine_scan(alpha, (1.0 - alpha) * v_inf - alpha * jump)
+    v0 = b_cum[-1] / one_minus_a
+    v_end = a_cum * v0 + b_cum
+    v_start = np.concatenate(([v0], v_end[:-1]))
+    v_after = v_start - jump
+    period = float(dt.sum())
+    # time average: ∫V = V_inf·dt + (V_after − V_inf)·tau·(1 − alpha)
+    area = v_inf * dt + (v_after - v_inf) * tau * (1.0 - alpha)
+    mean = float(area.sum() / period)
+    if r_out > 0.0:
+        i0 = c_out * (v_inf - v_after) / tau          # capacitor current at the interval start
+        e2 = i0 * i0 * tau / 2.0 * (1.0 - alpha * alpha)  # ∫ i² over the interval
+        i_rms = math.sqrt(float(e2.sum()) / period)
+        i_pk = float(np.abs(i0).max())
+    else:
+        i_rms, i_pk = 0.0, 0.0
+    return RailSolution(v_start=v_start, v_after=v_after, v_end=v_end, v_inf=v_inf, tau=tau,
+                        min=float(min(v_after.min(), v_end.min())), max=float(v_start.max()),
+                        mean=mean, i_rms_recharge=i_rms, i_peak_recharge=i_pk)
+
+
+# --------------------------------------------------------------------------- start-up
+
+def startup_voltage(t, *, v_final: float, t_start: float, t_ramp: float, tau: float):
+    """Output-capacitor voltage while the module starts [V].
+
+    The module's source is 0 until ``t_start``, then rises linearly to
+    ``v_final`` over ``t_ramp``; the capacitor follows through a first-order
+    lag tau = r_out·C_out. With s = t − t_start and slope m = v_final/t_ramp
+    (response of an RC low-pass to a ramp, Alexander & Sadiku 2017, §7.6):
+
+        0 ≤ s ≤ t_ramp:  V = m·(s − tau·(1 − exp(−s/tau)))
+        s > t_ramp:      V = v_final − (v_final − V(t_ramp))·exp(−(s − t_ramp)/tau)
+
+    tau = 0 gives the linear ramp itself; t_ramp = 0 a step through the lag.
+
+    Parameters
+    ----------
+    t : float or array [s]
+        Time from power-up of the module's input.
+    v_final : float [V]
+        Level the source ramps to.
+    t_start, t_ramp, tau : float [s], ≥ 0
+        Delay, ramp time and output time constant.
+    """
+    s = np.asarray(t, dtype=float) - t_start
+    sr = np.clip(s, 0.0, t_ramp)
+    if tau > 0.0:
+        if t_ramp > 0.0:
+            v_ramp = v_final / t_ramp * (sr + tau * np.expm1(-sr / tau))
+        else:
+            v_ramp = np.zeros(s.shape)
+        after = np.maximum(s - t_ramp, 0.0)
+        v = v_final - (v_final - v_ramp) * np.exp(-after / tau)
+    else:
+        v = v_final * (sr / t_ramp if t_ramp > 0.0 else np.ones(s.shape))
+    out = np.where(s > 0.0, v, 0.0)
+    return float(out) if out.ndim == 0 else out
+
+
+def time_to_level(level: float, *, v_final: float, t_start: float, t_ramp: float,
+                  tau: float) -> float | None:
+    """First time :func:`startup_voltage` reaches ``level`` [s], or None if it never does.
+
+    The voltage rises monotonically toward ``v_final``; with tau > 0 it only
+    approaches it, so a level at or above ``v_final`` is never reached. The
+    ramp phase is solved with Brent's method, the tail in closed form
+    (t = t_ramp + tau·ln((v_final − V(t_ramp))/(v_final − level))).
+    """
+    if level <= 0.0:
+        return t_start
+    if tau <= 0.0:
+        if level > v_final:
+            return None
+        return t_start + t_ramp * level / v_final
+    if level >= v_final:
+        return None
+    v_r = float(startup_voltage(t_start + t_ramp, v_final=v_final, t_start=t_start, t_ramp=t_ramp, tau=tau)) \
+        if t_ramp > 0.0 else 0.0
+    if t_ramp > 0.0 and v_r >= level:
+        f = lambda s: v_final / t_ramp * (s + tau * math.expm1(-s / tau)) - level  # noqa: E731
+        s = brentq(f, 0.0, t_ramp, xtol=1e-15 * max(t_ramp, 1e-30), rtol=1e-13)
+        return t_start + s
+    return t_start + t_ramp + tau * math.log((v_final - v_r) / (v_final - level))
+
+
+def ramp_inrush(*, c_out: float, v_final: float, t_ramp: float, r_out: float) -> float | None:
+    """Peak charging current into the output capacitor during start-up [A].
+
+    i = C·dV/dt with :func:`startup_voltage`: the slope is largest at the end
+    of the ramp, i = C·(v_final/t_ramp)·(1 − exp(−t_ramp/tau)), which is
+    C·V/t_ramp for tau ≪ t_ramp; with t_ramp = 0 the step is limited by r_out
+    alone, i = v_final/r_out. With t_ramp = 0 and r_out = 0 only the
+    module's own current limit bounds it, which the data do not give: None.
+    """
+    tau = r_out * c_out
+    if t_ramp > 0.0:
+        if tau > 0.0:
+            return c_out * v_final / t_ramp * -math.expm1(-t_ramp / tau)
+        return c_out * v_final / t_ramp
+    if r_out > 0.0:
+        return v_final / r_out
+    return None
+
+
+# --------------------------------------------------------------------------- evaluation
+
+def _rail_load(design: Design, sched: Schedule) -> tuple[float, float]:
+    """Load charge per analysis period as q0 + q1·V (load_charge is affine in V) [C], [C/V]."""
+    q0 = float(load_charge(design, sched, 0.0))
+    q1 = float(load_charge(design, sched, 1.0)) - q0
+    return q0, q1
+
+
+def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "nominal") -> OptionResult:
+    """Evaluate an isolated-supply option of a design.
+
+    Parameters
+    ----------
+    design : Design
+        The whole design (bridge, gate, driver, aux, checks).
+    option : IsolatedOption
+        The option to evaluate (``kind == "isolated"``).
+    corner : {"nominal", "min", "max"}
+        Capacitance corner of ``c_out`` (:func:`explorer.capacitors.capacitance`).
+
+    Returns
+    -------
+    OptionResult
+        Rail statistics, efficiency and power split, start-up, duty limits,
+        capacitor stress, checks and warnings; ``extra`` holds the loss-model
+        coefficient, the optimum load, the module efficiency and the
+        common-mode figures (``dv_dt`` [V/s], ``i_cm_peak`` [A],
+        ``q_cm_edge`` [C], ``p_cm`` [W], ``v_barrier`` [V]).
+
+    Raises
+    ------
+    DesignError
+        For an option that is not isolated or an unknown corner.
+
+    Warns
+    -----
+    ModelValidityWarning
+        When the load exceeds ``p_rated`` (the loss model is extrapolated).
+
+    Examples
+    --------
+    >>> from explorer import demo_design
+    >>> d = demo_design()
+    >>> r = evaluate_option(d, d.option("isolated 1 W"))
+    >>> r.feasible, round(r.v_rail.mean, 2)
+    (True, 11.99)
+    """
+    if not isinstance(option, IsolatedOption):
+        raise DesignError("option", "the isolated model needs an option of kind 'isolated'",
+                          getattr(option, "kind", option))
+    idx = next((i for i, o in enumerate(design.options) if o is option or o == option), None)
+    path = f"options[{idx}]" if idx is not None else "option"
+    b, drv, gate, chk = design.bridge, design.driver, design.gate, design.checks
+    warn: list[str] = []
+
+    # ---- output capacitor and rail -----------------------------------------------------------
+    cap = option.c_out
+    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric"),
+                              v_applied=option.v_out, v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
+    sched = period_schedule(design)
+    q_on = charge_per_turn_on(design)
+    rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=option.v_out, r_out=option.r_out,
+                       c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=gate.r_gs)
+    t_wave, v_wave = rail.waveform(sched.dt, points=8 if len(sched) <= 2000 else 2)
+    v_pre = option.v_out - option.r_out * drv.i_q       # rail before the PWM starts (load I_Q only)
+    v_max = max(rail.max, v_pre)
+
+    # ---- load, losses, power split -------------------------------------------------------------
+    p_load = float(load_power(design, sched, rail.mean))     # Q_G·V·f + I_Q·V + pull-down
+    k = float(loss_coefficient(option.p_rated, option.p_no_load, option.eta_full))
+    p_in = float(module_input_power(p_load, option.p_no_load, k))
+    eta_mod = float(module_efficiency(p_load, option.p_no_load, k))
+    dv_dt = float(cm.edge_dv_dt(b.v_bus, b.t_edge))
+    i_cm = float(cm.cm_current(option.c_iso, dv_dt))
+    q_cm = float(cm.edge_charge(option.c_iso, b.v_bus))
+    p_cm = float(cm.bus_power_per_edges(option.c_iso, b.v_bus, cm.rising_edge_swings(sched), sched.period))
+    p_drawn = p_in + p_cm
+    efficiency = p_load / p_drawn if p_drawn > 0 else None
+    losses = {"module_no_load": option.p_no_load, "module_load": k * p_load * p_load, "common_mode": p_cm}
+    if p_load > option.p_rated:
+        warnings.warn(f"{path}: the load {p_load:.4g} W exceeds p_rated = {option.p_rated:.4g} W; "
+                      "the loss model P_0 + k\u00b7P\u00b2 is extrapolated beyond its fitting range",
+                      ModelValidityWarning, stacklevel=2)
+
+    # ---- start-up (independent of the PWM) ----------------------------------------------------
+    tau = option.r_out * c_eff
+    t_uvlo = time_to_level(drv.uvlo_on, v_final=v_pre, t_start=option.t_start, t_ramp=option.t_ramp, tau=tau)
+    cycles = None if t_uvlo is None else int(math.ceil(t_uvlo * b.f_sw - 1e-9))
+    i_inrush = ramp_inrush(c_out=c_eff, v_final=v_pre, t_ramp=option.t_ramp, r_out=option.r_out)
+    if i_inrush is None:
+        warn.append("start-up inrush into c_out is bounded only by the module's own current limit "
+                    "(t_ramp = 0 and r_out = 0), which the option does not give")
+    t_end = 1.2 * max(t_uvlo or 0.0, option.t_start + option.t_ramp + 5.0 * tau)
+    t_su = np.linspace(0.0, t_end if t_end > 0 else 1e-6, 400)
+    v_su = startup_voltage(t_su, v_final=v_pre, t_start=option.t_start, t_ramp=option.t_ramp, tau=tau)
+    startup = Startup(t_uvlo=t_uvlo, cycles_uvlo=cycles, i_peak=i_inrush, v_dd_dip=None, t=t_su, v=v_su)
+
+    # ---- capacitor stress ---------------------------------------------------------------------
+    # The gate charge is assumed to leave c_out within one switch-node edge time (t_edge):
+    # a rectangular pulse of height Q/t_edge (assumption, stated in extra).
+    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    i_pulse = q_on / b.t_edge if n_on else 0.0
+    i_rms = math.sqrt(rail.i_rms_recharge ** 2 + n_on * q_on * i_pulse / sched.period)
+    i_peak = max(i_pulse, rail.i_peak_recharge, i_inrush or 0.0)
+    stress = CapacitorStress(name="c_out", c_eff=c_eff, v_max=v_max, v_rating=cap.v_rating,
+                             ripple=rail.max - rail.min, i_rms=i_rms, i_peak=i_peak)
+    if option.r_out == 0.0:
+        warn.append("r_out = 0: the module is taken as an ideal source that refills c_out at once; the dip "
+                    "Q/C_out at each turn-on is kept, the recharge current is not modelled")
+
+    # ---- isolation ----------------------------------------------------------------------------
+    v_barrier = float(np.max(sched.v_sw)) + v_max       # secondary's top rail against primary ground
+    if option.v_iso < ISO_HEADROOM * v_barrier:
+        warn.append(f"isolation working voltage {option.v_iso:.4g} V is below {ISO_HEADROOM:g} \u00d7 the "
+                    f"peak {v_barrier:.4g} V across the barrier (bus plus rail); edge overshoot is not modelled")
+    warn.append(INSULATION_STATEMENT)
+
+    # ---- checks -------------------------------------------------------------------------------
+    need = required_rail(design)
+    checks = [
+        Check("rail_min", rail.min, need, "min", "V",
+              f"rail minimum stays at or above max(UVLO off, V_GS needed) + margin = {need:.4g} V"),
+        Check("rail_max_v_gs", v_max, gate.v_gs_max, "max", "V",
+              f"rail maximum stays at or below the gate rating v_gs_max = {gate.v_gs_max:.4g} V"),
+        Check("rail_max_v_bs", v_max, drv.v_bs_max, "max", "V",
+              f"rail maximum stays at or below the driver's v_bs_max = {drv.v_bs_max:.4g} V"),
+        Check("load_rating", p_load, option.p_rated, "max", "W",
+              f"gate load stays within the module's rating p_rated = {option.p_rated:.4g} W (overload otherwise)"),
+        Check("cmti", option.cmti, float(cm.cmti_required(dv_dt, chk.cmti_margin)), "min", "V/s",
+              f"driver CMTI is at least {chk.cmti_margin:g} \u00d7 the switch-node dv/dt {dv_dt:.4g} V/s"),
+        Check("v_iso", option.v_iso, v_barrier, "min", "V",
+              f"isolation working voltage covers the peak {v_barrier:.4g} V across the barrier"),
+    ]
+    if cap.v_rating is not None:
+        checks.append(Check("c_out_voltage", v_max, cap.v_rating * chk.cap_derating, "max", "V",
+                            f"c_out voltage stays within {chk.cap_derating:g} \u00d7 its rating "
+                            f"{cap.v_rating:.4g} V"))
+    else:
+        warn.append("c_out has no voltage rating; its voltage stress is not checked")
+    feasible, verdict = verdict_from(checks, warn)
+
+    v_in = option.v_in if option.v_in is not None else design.aux.v_dd
+    extra = {
+        "loss_k": k, "p_optimum": float(optimum_load(option.p_no_load, k)), "eta_module": eta_mod,
+        "load_fraction": p_load / option.p_rated, "p_in_module": p_in, "v_in": v_in, "i_in": p_in / v_in,
+        "dv_dt": dv_dt, "i_cm_peak": i_cm, "q_cm_edge": q_cm, "p_cm": p_cm, "v_barrier": v_barrier,
+        "cmti_ratio": float(cm.cmti_ratio(option.cmti, dv_dt)), "tau_out": tau, "v_pre_pwm": v_pre,
+        "i_gate_pulse": i_pulse, "gate_pulse_width": b.t_edge, "corner": corner,
+        "insulation": INSULATION_STATEMENT,
+    }
+    return OptionResult(
+        label=option.label, kind=option.kind, feasible=feasible, verdict=verdict, warnings=tuple(warn),
+        v_rail=RailStats(min=rail.min, max=rail.max, mean=rail.mean), efficiency=efficiency,
+        p_delivered=p_load, p_drawn=p_drawn, startup=startup,
+        duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None, topology={}),
+        r_out=option.r_out, capacitors=(stress,), p_drawn_aux=p_in, p_drawn_bus=p_cm, losses=losses,
+        checks=tuple(checks), extra=extra, t=t_wave, v=v_wave)
