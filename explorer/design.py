@@ -29,7 +29,7 @@ __all__ = [
     "FORMAT", "VERSION", "MAX_FILE_BYTES", "TOPOLOGIES", "Spec", "Capacitor", "LinearDiode",
     "JunctionDiode", "Bridge", "Gate", "Driver", "Aux", "Checks", "Spread", "BootstrapOption",
     "ChargePumpOption", "IsolatedOption", "Design", "load_design", "save_design", "design_to_dict",
-    "replace_field", "specs",
+    "replace_field", "replace_fields", "specs",
 ]
 
 FORMAT = "explorer-design"
@@ -663,20 +663,29 @@ def replace_field(design: Design, path: str, value: Any) -> Design:
     DesignError
         If the path does not exist or the new design is invalid.
     """
+    return replace_fields(design, {path: value})
+
+
+def replace_fields(design: Design, changes: dict) -> Design:
+    """A copy of ``design`` with several fields changed at once, validated once at the end."""
     d = design_to_dict(design)
-    node = d
-    parts = _split_path(path)
-    for p in parts[:-1]:
-        try:
-            node = node[p]
-        except (KeyError, IndexError, TypeError):
-            raise DesignError(path, "no such field") from None
-        if isinstance(node, (int, float)) and not isinstance(node, bool):
+    for path, value in changes.items():
+        node = d
+        parts = _split_path(path)
+        for p in parts[:-1]:
+            try:
+                node = node[p]
+            except (KeyError, IndexError, TypeError):
+                raise DesignError(path, "no such field") from None
+            if isinstance(node, (int, float)) and not isinstance(node, bool):
+                raise DesignError(path, "no such field")
+        last = parts[-1]
+        if not isinstance(node, (dict, list)) or (isinstance(node, dict) and last not in node):
             raise DesignError(path, "no such field")
-    last = parts[-1]
-    if isinstance(node, dict) and last not in node:
-        raise DesignError(path, "no such field")
-    node[last] = value
+        try:
+            node[last] = value
+        except (IndexError, TypeError):
+            raise DesignError(path, "no such field") from None
     return _design_from_dict(d)
 
 

@@ -1,0 +1,212 @@
+"""Sweeps of any design field over a 1-D or 2-D grid, every figure of every option.
+
+Axes are design-file field paths (``"bridge.f_sw"``, ``"options[0].c"``,
+``"options[2].c_fly.c"``, ``"aux.v_dd"``, ``"options[1].f_cp"``) or the alias
+``"duty"``, which sets the topology's own duty variable so that the HS duty
+command takes the given value (a buck's v_out, a boost's v_in, a bridge's
+duty, a three-phase leg's modulation index m = 2·d − 1 at the crest).
+
+Each grid point is a complete, re-validated design evaluated with the same
+models as :func:`explorer.evaluate`, so a sweep value equals the point's
+``evaluate`` result exactly. A grid point whose design is invalid (e.g. a
+buck output above the bus) gives NaN figures and its reason in ``invalid``.
+For the headline rail-margin map over f_sw × duty there is a vectorised fast
+path, :func:`margin_map`.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import importlib
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+
+from .compare import evaluate
+from .design import Design, load_design, replace_fields
+from .errors import DesignError
+from .loads import required_rail
+from .options import MODULES
+
+__all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "margin_map", "MarginMap"]
+
+
+def _get(fn: Callable) -> Callable:
+    def safe(r):
+        v = fn(r)
+        return np.nan if v is None else float(v)
+    return safe
+
+
+#: Figure name → how to read it from an OptionResult (NaN where the figure does not apply).
+FIGURES: dict[str, Callable] = {
+    "rail_min": _get(lambda r: r.v_rail.min if r.v_rail else None),
+    "rail_max": _get(lambda r: r.v_rail.max if r.v_rail else None),
+    "rail_mean": _get(lambda r: r.v_rail.mean if r.v_rail else None),
+    "efficiency": _get(lambda r: r.efficiency),
+    "p_delivered": _get(lambda r: r.p_delivered),
+    "p_drawn": _get(lambda r: r.p_drawn),
+    "overhead": _get(lambda r: r.overhead),
+    "t_uvlo": _get(lambda r: r.startup.t_uvlo if r.startup else None),
+    "i_peak": _get(lambda r: r.startup.i_peak if r.startup else None),
+    "duty_max": _get(lambda r: r.duty.max if r.duty else None),
+    "hold_up": _get(lambda r: r.duty.hold_up if r.duty else None),
+    "r_out": _get(lambda r: r.r_out),
+    "feasible": _get(lambda r: r.feasible),
+}
+
+
+def duty_field(design: Design, duty: float) -> tuple[str, float]:
+    """The design field and value that make the HS duty command equal ``duty``."""
+    b = design.bridge
+    t = b.topology
+    if t == "sync_buck":
+        return "bridge.v_out", duty * b.eta * b.v_bus
+    if t == "sync_boost":
+        return "bridge.v_in", duty * b.v_bus / b.eta
+    if t in ("half_bridge", "full_bridge", "line_leg"):
+        return "bridge.duty", duty
+    return "bridge.m", 2.0 * duty - 1.0
+
+
+@dataclass(frozen=True)
+class Sweep:
+    """Figures of every option over a grid.
+
+    Attributes
+    ----------
+    axes : tuple of str
+        Field paths (or ``"duty"``) of the grid's axes.
+    values : tuple of ndarray
+        The values along each axis.
+    figures : dict
+        ``figures[label][figure]`` is an array shaped like the grid.
+    invalid : dict
+        Grid index → the reason a point's design was rejected.
+    """
+
+    axes: tuple
+    values: tuple
+    figures: dict
+    invalid: dict = field(default_factory=dict)
+
+    def to_dict(self) -> dict:
+        from .results import clean
+        return {"axes": list(self.axes), "values": [clean(v) for v in self.values],
+                "figures": {lab: {k: clean(v) for k, v in figs.items()} for lab, figs in self.figures.items()},
+                "invalid": {str(k): v for k, v in self.invalid.items()}}
+
+
+def _point(design: Design, assignments) -> Design:
+    changes = {}
+    for path, value in assignments:
+        if path == "duty":
+            path, value = duty_field(design, float(value))
+        changes[path] = float(value)
+    return replace_fields(design, changes)
+
+
+def sweep(design, axes: dict, *, labels=None, figures=None,
+          progress: Callable[[int, int], None] | None = None) -> Sweep:
+    """Evaluate the design over a 1-D or 2-D grid of field values.
+
+    Parameters
+    ----------
+    design : Design or anything load_design accepts
+    axes : dict
+        One or two entries ``{field path or "duty": values}``.
+    labels : list of str, optional
+        Options to keep (default all).
+    figures : list of str, optional
+        Names from :data:`FIGURES` (default all).
+    progress : callable(done, total), optional
+
+    Examples
+    --------
+    >>> from explorer import demo_design
+    >>> s = sweep(demo_design(), {"bridge.f_sw": [100e3, 200e3]}, figures=["rail_min"])
+    >>> s.figures["bootstrap 220n"]["rail_min"].shape
+    (2,)
+    """
+    d0 = load_design(design)
+    if not isinstance(axes, dict) or not 1 <= len(axes) <= 2:
+        raise DesignError("axes", "expected one or two {field path: values} entries", axes)
+    names = list(figures or FIGURES)
+    for n in names:
+        if n not in FIGURES:
+            raise DesignError("figures", f"unknown figure; allowed: {', '.join(FIGURES)}", n)
+    paths = tuple(axes)
+    vals = tuple(np.asarray(v, dtype=float).ravel() for v in axes.values())
+    for p, v in zip(paths, vals):
+        if v.size == 0 or v.size > 100_000:
+            raise DesignError(f"axes[{p}]", "expected 1 to 100000 values", v.size)
+    shape = tuple(v.size for v in vals)
+    labs = list(labels or [o.label for o in d0.options])
+    for lab in labs:
+        d0.option(lab)
+    keep = dataclasses.replace(d0, options=tuple(o for o in d0.options if o.label in labs))
+    out = {lab: {n: np.full(shape, np.nan) for n in names} for lab in labs}
+    invalid = {}
+    total = int(np.prod(shape))
+    for count, idx in enumerate(np.ndindex(shape)):
+        assign = [(p, vals[k][i]) for k, (p, i) in enumerate(zip(paths, idx))]
+        try:
+            dp = _point(keep, assign)
+            res = evaluate(dp)
+        except DesignError as e:
+            invalid[idx] = str(e)
+            continue
+        for r in res.options:
+            for n in names:
+                out[r.label][n][idx] = FIGURES[n](r)
+        if progress:
+            progress(count + 1, total)
+    return Sweep(paths, vals, out, invalid)
+
+
+# --------------------------------------------------------------------------- margin map
+
+@dataclass(frozen=True)
+class MarginMap:
+    """Rail margin over an f_sw × duty grid for one option.
+
+    ``margin[i, j]`` = steady-state rail minimum − uvlo_off at ``f_sw[i]`` and
+    HS duty command ``duty[j]`` [V]; NaN where the point is not a valid design.
+    """
+
+    label: str
+    f_sw: np.ndarray
+    duty: np.ndarray
+    rail_min: np.ndarray
+    margin: np.ndarray
+    required: float
+    vectorised: bool
+
+    def to_dict(self) -> dict:
+        from .results import clean
+        return {"label": self.label, "f_sw": clean(self.f_sw), "duty": clean(self.duty),
+                "rail_min": clean(self.rail_min), "margin": clean(self.margin), "required": self.required}
+
+
+def margin_map(design, label: str, f_sw, duty) -> MarginMap:
+    """Steady-state rail margin (rail minimum − uvlo_off) over f_sw × duty.
+
+    Uses the option model's vectorised ``rail_min_grid`` when it has one
+    (the bootstrap does: one batched periodic solve for the whole grid), else
+    the general :func:`sweep`.
+    """
+    d = load_design(design)
+    opt = d.option(label)
+    f = np.asarray(f_sw, dtype=float).ravel()
+    u = np.asarray(duty, dtype=float).ravel()
+    mod = importlib.import_module(MODULES[opt.kind])
+    fast = getattr(mod, "rail_min_grid", None)
+    if fast is not None:
+        rail = np.asarray(fast(d, opt, f[:, None], u[None, :]), dtype=float)
+        vec = True
+    else:
+        s = sweep(d, {"bridge.f_sw": f, "duty": u}, labels=[label], figures=["rail_min"])
+        rail = s.figures[label]["rail_min"]
+        vec = False
+    return MarginMap(label, f, u, rail, rail - d.driver.uvlo_off, required_rail(d), vec)

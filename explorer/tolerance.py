@@ -1,0 +1,334 @@
+"""Tolerance corners, worst-case search and Monte Carlo for one supply option.
+
+Every spread is a multiplicative factor on a design value, collected in
+:class:`Factors`. A factor set is turned into a perturbed design by
+:func:`apply_factors` and evaluated with the option's own ``evaluate_option``,
+so corners and samples use exactly the model that ``evaluate`` uses. Models
+that can evaluate many factor sets at once expose ``rail_min_batch(design,
+option, factors)``; Monte Carlo then runs vectorised, otherwise it loops.
+
+Spreads (design sections ``spread``, ``aux`` and each capacitor):
+
+* capacitance: the part's symmetric tolerance ``c_tol`` times the EIA-198
+  temperature-class envelope [1 + ΔC_low, 1 + ΔC_high]. The class gives an
+  envelope, not a curve, so corners take its bounds and Monte Carlo samples
+  uniformly within it; the DC-bias factor stays in the model;
+* gate charge, driver quiescent current, diode forward voltage: ± the
+  relative spreads of the ``spread`` section;
+* aux rail: ± ``aux.v_dd_tol``;
+* temperature: ``checks.t_min`` … ``t_max``; diode leakage grows by the factor
+  ``spread.leak_per_100k`` per 100 K above ``checks.t_amb`` (exponential in
+  temperature, the usual behaviour of junction leakage).
+
+``distribution="uniform"`` samples within ±spread; ``"gaussian"`` takes the
+spread as three standard deviations (truncated at ±4.5σ so factors stay
+positive).
+
+The trip probability's confidence interval is the exact binomial interval of
+Clopper & Pearson, "The use of confidence or fiducial limits illustrated in
+the case of the binomial", Biometrika 26(4), 1934, doi:10.1093/biomet/26.4.404.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import itertools
+from dataclasses import dataclass, field
+from typing import Callable
+
+import numpy as np
+from scipy import stats
+
+from .capacitors import parse_dielectric
+from .design import BootstrapOption, Capacitor, ChargePumpOption, Design, IsolatedOption, JunctionDiode
+from .errors import DesignError
+from .loads import required_rail
+from .options import model_for
+
+__all__ = ["Factors", "apply_factors", "corner_factors", "worst_case", "WorstCase", "monte_carlo",
+           "MonteCarlo", "clopper_pearson"]
+
+_NAMES = ("k_c", "q_g", "i_q", "v_dd", "v_f", "t")
+
+
+@dataclass(frozen=True)
+class Factors:
+    """Multiplicative factors (scalars or equal-length arrays) and the temperature of one corner/sample.
+
+    Attributes
+    ----------
+    k_c : capacitance factor (tolerance × temperature class) on every capacitor of the option [-]
+    q_g, i_q, v_dd, v_f : factors on gate charge, quiescent current, aux rail, diode forward voltage [-]
+    t : temperature [°C]; sets the leakage growth
+    """
+
+    k_c: float | np.ndarray = 1.0
+    q_g: float | np.ndarray = 1.0
+    i_q: float | np.ndarray = 1.0
+    v_dd: float | np.ndarray = 1.0
+    v_f: float | np.ndarray = 1.0
+    t: float | np.ndarray = 25.0
+
+    def leak(self, design: Design):
+        """Leakage factor at this temperature: leak_per_100k^((t − t_amb)/100)."""
+        return design.spread.leak_per_100k ** ((np.asarray(self.t) - design.checks.t_amb) / 100.0)
+
+    def at(self, i: int) -> "Factors":
+        """The i-th sample of an array-valued factor set."""
+        return Factors(**{n: float(np.broadcast_to(getattr(self, n), np.shape(self.k_c) or (1,))[i])
+                          if np.ndim(getattr(self, n)) else getattr(self, n) for n in _NAMES})
+
+
+def _scaled_cap(cap: Capacitor, k: float) -> Capacitor:
+    """The capacitor with its tolerance and class already applied (effective nominal value)."""
+    return dataclasses.replace(cap, c=cap.c * k, c_tol=0.0, dielectric="ideal")
+
+
+def apply_factors(design: Design, label: str, f: Factors) -> Design:
+    """The design with one option and the shared parts perturbed by scalar factors.
+
+    The option's capacitors get ``c·k_c`` with tolerance and temperature class
+    already applied; gate, driver, aux rail and the bootstrap diode are scaled.
+    The result is evaluated at the ``"nominal"`` corner.
+    """
+    opt = design.option(label)
+    leak = float(f.leak(design))
+    if isinstance(opt, BootstrapOption):
+        diode = opt.diode
+        if isinstance(diode, JunctionDiode):
+            # a forward-voltage factor on an exponential junction: scale i_s so that v_j at a
+            # reference current moves by the same factor (v_j = n·V_T·ln(i/i_s))
+            vt = 0.025852  # thermal voltage at 300 K [V] (k·T/q, CODATA constants)
+            v_ref = diode.n * vt * np.log(0.1 / diode.i_s)
+            diode = dataclasses.replace(diode, i_s=float(0.1 * np.exp(-f.v_f * v_ref / (diode.n * vt))))
+        else:
+            diode = dataclasses.replace(diode, v_f=diode.v_f * f.v_f)
+        opt = dataclasses.replace(opt, c=opt.c * f.k_c, c_tol=0.0, dielectric="ideal", diode=diode,
+                                  i_leak=opt.i_leak * leak)
+    elif isinstance(opt, ChargePumpOption):
+        opt = dataclasses.replace(opt, c_fly=_scaled_cap(opt.c_fly, f.k_c), c_out=_scaled_cap(opt.c_out, f.k_c),
+                                  v_in=None if opt.v_in is None else opt.v_in * f.v_dd)
+    elif isinstance(opt, IsolatedOption):
+        opt = dataclasses.replace(opt, c_out=_scaled_cap(opt.c_out, f.k_c),
+                                  v_in=None if opt.v_in is None else opt.v_in * f.v_dd)
+    options = tuple(opt if o.label == label else o for o in design.options)
+    return dataclasses.replace(
+        design, options=options,
+        gate=dataclasses.replace(design.gate, q_g=design.gate.q_g * f.q_g),
+        driver=dataclasses.replace(design.driver, i_q=design.driver.i_q * f.i_q),
+        aux=dataclasses.replace(design.aux, v_dd=design.aux.v_dd * f.v_dd))
+
+
+def _cap_envelope(design: Design, label: str) -> tuple[float, float]:
+    """Lowest and highest capacitance factor of the option's capacitors (tolerance × class)."""
+    opt = design.option(label)
+    caps = {BootstrapOption: lambda o: [o.capacitor], ChargePumpOption: lambda o: [o.c_fly, o.c_out],
+            IsolatedOption: lambda o: [o.c_out]}[type(opt)](opt)
+    lo, hi = [], []
+    for c in caps:
+        d = parse_dielectric(c.dielectric)
+        lo.append((1 - c.c_tol) * (1 + d.dc_low))
+        hi.append((1 + c.c_tol) * (1 + d.dc_high))
+    return min(lo), max(hi)
+
+
+def _ranges(design: Design, label: str) -> dict:
+    s = design.spread
+    k_lo, k_hi = _cap_envelope(design, label)
+    return {"k_c": (k_lo, k_hi), "q_g": (1 - s.q_g, 1 + s.q_g), "i_q": (1 - s.i_q, 1 + s.i_q),
+            "v_dd": (1 - design.aux.v_dd_tol, 1 + design.aux.v_dd_tol), "v_f": (1 - s.v_f, 1 + s.v_f),
+            "t": (design.checks.t_min, design.checks.t_max)}
+
+
+def corner_factors(design: Design, label: str) -> list[tuple[str, Factors]]:
+    """Every extreme combination of the spreads (2^k corners for the k spreads that are not zero)."""
+    ranges = _ranges(design, label)
+    live = [n for n in _NAMES if ranges[n][0] != ranges[n][1]]
+    out = []
+    for combo in itertools.product((0, 1), repeat=len(live)):
+        kw = {n: (1.0 if n != "t" else design.checks.t_amb) for n in _NAMES}
+        parts = []
+        for n, hi in zip(live, combo):
+            kw[n] = ranges[n][hi]
+            parts.append(f"{n} {'high' if hi else 'low'}")
+        out.append((", ".join(parts) or "nominal", Factors(**kw)))
+    return out
+
+
+@dataclass(frozen=True)
+class WorstCase:
+    """Result of the worst-case corner search for one option.
+
+    Attributes
+    ----------
+    label : str
+    corner : str
+        Plain-words name of the corner with the lowest rail minimum.
+    factors : Factors
+    rail_min : float [V]
+        Steady-state rail minimum at that corner.
+    margin : float [V]
+        rail_min − required rail (max(uvlo_off, v_gs_on_min) + v_margin); ≥ 0 holds.
+    v_max : float [V]
+        Highest steady-state rail voltage over all corners (for overvoltage).
+    v_max_corner : str
+    corners : list of (name, rail_min, rail_max)
+    """
+
+    label: str
+    corner: str
+    factors: Factors
+    rail_min: float
+    margin: float
+    v_max: float
+    v_max_corner: str
+    corners: list = field(repr=False, default_factory=list)
+
+    @property
+    def holds(self) -> bool:
+        return bool(self.margin >= 0)
+
+    def to_dict(self) -> dict:
+        return {"label": self.label, "corner": self.corner, "rail_min": self.rail_min, "margin": self.margin,
+                "holds": self.holds, "v_max": self.v_max, "v_max_corner": self.v_max_corner}
+
+
+def _evaluate(design: Design, label: str):
+    opt = design.option(label)
+    fn = model_for(opt.kind)
+    if fn is None:
+        raise DesignError(f"options[{label}]", f"the {opt.kind} model is not available")
+    return fn(design, opt)
+
+
+def worst_case(design: Design, label: str) -> WorstCase:
+    """Evaluate every corner and return the one with the lowest steady-state rail minimum."""
+    rows = []
+    for name, f in corner_factors(design, label):
+        r = _evaluate(apply_factors(design, label, f), label)
+        if r.v_rail is None:
+            raise DesignError(f"options[{label}]", f"cannot be evaluated at corner {name}: {r.error}")
+        rows.append((name, f, r.v_rail.min, r.v_rail.max))
+    worst = min(rows, key=lambda x: x[2])
+    high = max(rows, key=lambda x: x[3])
+    return WorstCase(label=label, corner=worst[0], factors=worst[1], rail_min=worst[2],
+                     margin=worst[2] - required_rail(design), v_max=high[3], v_max_corner=high[0],
+                     corners=[(n, lo, hi) for n, _, lo, hi in rows])
+
+
+# --------------------------------------------------------------------------- Monte Carlo
+
+def clopper_pearson(k: int, n: int, confidence: float = 0.95) -> tuple[float, float]:
+    """Exact binomial confidence interval for k successes in n trials (Clopper & Pearson 1934)."""
+    a = 1 - confidence
+    lo = 0.0 if k == 0 else float(stats.beta.ppf(a / 2, k, n - k + 1))
+    hi = 1.0 if k == n else float(stats.beta.ppf(1 - a / 2, k + 1, n - k))
+    return lo, hi
+
+
+def sample_factors(design: Design, label: str, n: int, rng: np.random.Generator) -> Factors:
+    """Draw n factor sets from the design's spreads."""
+    ranges = _ranges(design, label)
+    gaussian = design.spread.distribution == "gaussian"
+    out = {}
+    for name in _NAMES:
+        lo, hi = ranges[name]
+        if lo == hi:
+            out[name] = np.full(n, lo)
+        elif name in ("k_c", "t") or not gaussian:
+            out[name] = rng.uniform(lo, hi, n)
+        else:
+            mid, sigma = 0.5 * (lo + hi), (hi - lo) / 6.0
+            out[name] = mid + sigma * np.clip(rng.standard_normal(n), -4.5, 4.5)
+    if gaussian:
+        # capacitance: tolerance gaussian (3σ = c_tol) times the class envelope sampled uniformly
+        opt = design.option(label)
+        caps = {BootstrapOption: lambda o: [o.capacitor], ChargePumpOption: lambda o: [o.c_fly, o.c_out],
+                IsolatedOption: lambda o: [o.c_out]}[type(opt)](opt)
+        tol = max(c.c_tol for c in caps)
+        d = [parse_dielectric(c.dielectric) for c in caps]
+        k_t = rng.uniform(min(x.dc_low for x in d), max(x.dc_high for x in d), n)
+        out["k_c"] = (1 + tol / 3 * np.clip(rng.standard_normal(n), -4.5, 4.5)) * (1 + k_t)
+    return Factors(**out)
+
+
+@dataclass(frozen=True)
+class MonteCarlo:
+    """Monte Carlo of the steady-state rail minimum for one option.
+
+    Attributes
+    ----------
+    rail_min : ndarray [V]
+        Steady-state rail minimum of each sample.
+    p_trip : float [-]
+        Fraction of samples whose rail falls below uvlo_off.
+    ci : (float, float) [-]
+        Clopper–Pearson confidence interval of the trip probability.
+    p_margin : float [-]
+        Fraction of samples below the required rail (uvlo_off/v_gs_on_min + margin).
+    """
+
+    label: str
+    n: int
+    seed: int
+    confidence: float
+    rail_min: np.ndarray = field(repr=False)
+    p_trip: float
+    ci: tuple
+    p_margin: float
+    vectorised: bool
+
+    def to_dict(self) -> dict:
+        return {"label": self.label, "n": self.n, "seed": self.seed, "confidence": self.confidence,
+                "p_trip": self.p_trip, "ci": list(self.ci), "p_margin": self.p_margin,
+                "rail_min_lowest": float(self.rail_min.min()), "rail_min_median": float(np.median(self.rail_min)),
+                "vectorised": self.vectorised}
+
+
+def monte_carlo(design: Design, label: str, n: int = 10_000, *, seed: int = 0, confidence: float = 0.95,
+                progress: Callable[[int, int], None] | None = None) -> MonteCarlo:
+    """Monte Carlo of the rail minimum over the design's spreads.
+
+    Parameters
+    ----------
+    design : Design
+    label : str
+        The option to analyse.
+    n : int
+        Number of samples.
+    seed : int
+        Seed of numpy's default generator; the same seed gives the same numbers.
+    progress : callable(done, total), optional
+        Called as work proceeds (a notebook passes a progress bar; CI passes nothing).
+    """
+    if not isinstance(n, (int, np.integer)) or n < 1 or n > 10_000_000:
+        raise DesignError("n", "expected a whole number of samples from 1 to 1e7", n)
+    rng = np.random.default_rng(seed)
+    f = sample_factors(design, label, int(n), rng)
+    opt = design.option(label)
+    batch = _batch_for(opt.kind)
+    if batch is not None:
+        rail = np.asarray(batch(design, opt, f), dtype=float)
+        if progress:
+            progress(n, n)
+    else:
+        rail = np.empty(n)
+        step = max(1, n // 100)
+        for i in range(n):
+            r = _evaluate(apply_factors(design, label, f.at(i)), label)
+            rail[i] = r.v_rail.min if r.v_rail is not None else np.nan
+            if progress and (i % step == 0 or i == n - 1):
+                progress(i + 1, n)
+    trips = int(np.count_nonzero(~(rail >= design.driver.uvlo_off)))
+    lo, hi = clopper_pearson(trips, n, confidence)
+    p_margin = float(np.count_nonzero(~(rail >= required_rail(design)))) / n
+    return MonteCarlo(label=label, n=int(n), seed=seed, confidence=confidence, rail_min=rail,
+                      p_trip=trips / n, ci=(lo, hi), p_margin=p_margin, vectorised=batch is not None)
+
+
+def _batch_for(kind: str):
+    import importlib
+
+    from .options import MODULES
+    mod = importlib.import_module(MODULES[kind])
+    return getattr(mod, "rail_min_batch", None)
