@@ -1,0 +1,630 @@
+"""The one engine for linear switched-capacitor networks.
+
+A network is a list of two-terminal elements between named nodes (``"0"`` is
+the reference) and a fixed cycle of ``n_phases`` phases:
+
+* :class:`Cap` — an ideal capacitor C in series with its ESR; its voltage is a
+  state variable;
+* :class:`Res` — a resistor, or a switch (``closed`` lists the phases in which
+  it conducts with resistance ``r``; open it is absent);
+* :class:`VSrc` — an ideal voltage source driven by a named input;
+* :class:`ISrc` — a current source driven by a named input (a load).
+
+Inputs are constant within a phase. In each phase the resistive network seen by
+the capacitor voltages is solved by modified nodal analysis (Ho, Ruehli &
+Brennan, "The modified nodal approach to network analysis", IEEE Trans.
+Circuits and Systems 22(6), 1975, doi:10.1109/TCS.1975.1084079), which gives
+linear state equations
+
+    dx/dt = M_p·x + N_p·u,    y = K_p·[x; u]
+
+for the capacitor voltages x, the inputs u and every probe y (node voltages
+``"v(node)"`` and element currents ``"i(name)"``, positive from the element's
+terminal ``a`` to ``b`` through it). With z = [x; u] and F_p = [[M_p, N_p], [0, 0]]
+one phase of duration t maps z(0) to z(t) = e^{F_p t}·z(0) exactly, and
+
+    ∫_0^t z ds       = (∫_0^t e^{F_p s} ds)·z(0),
+    ∫_0^t z zᵀ ds    = ∫_0^t e^{F_p s} z(0) z(0)ᵀ e^{F_pᵀ s} ds,
+
+both read off one block matrix exponential each (C. F. Van Loan, "Computing
+integrals involving the matrix exponential", IEEE Trans. Automatic Control
+23(3), 1978, doi:10.1109/TAC.1978.1101743). So averages, charges, RMS currents
+and dissipated energies are exact, not sampled. The periodic steady state is
+the fixed point x₀ = Φ·x₀ + Γ·u of the one-cycle map, solved directly; start-up
+from given voltages is the recurrence x_{k+1} = Φ·x_k + Γ·u evaluated in
+closed form through the eigenvalues of Φ for all k at once. Phase durations may
+carry leading batch dimensions (e.g. a sweep of clock frequencies); the matrix
+exponentials are then evaluated as one stacked call.
+
+A node group that no element ties to the reference in some phase (a flying
+capacitor during a dead time) has no defined common-mode potential; it is
+pinned to 0 V through a zero-current anchor, which is exact because nothing can
+flow into such a group. A current source feeding such a group, or a loop of
+capacitors without ESR and voltage sources with no resistance, has no solution
+and raises :class:`~explorer.errors.DesignError`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from functools import cached_property
+from typing import Sequence, Union
+
+import numpy as np
+from scipy.linalg import expm
+
+from .errors import DesignError
+
+__all__ = ["Cap", "Res", "VSrc", "ISrc", "Network", "PhaseSystem", "PeriodicSolution",
+           "StartupSolution", "periodic_steady_state", "startup", "cycle_map"]
+
+GROUND = "0"
+
+
+@dataclass(frozen=True)
+class Cap:
+    """Capacitor ``c`` [F] in series with ``esr`` [Ω] from node ``a`` (+) to ``b``."""
+
+    name: str
+    a: str
+    b: str
+    c: float
+    esr: float = 0.0
+
+
+@dataclass(frozen=True)
+class Res:
+    """Resistor ``r`` [Ω] from ``a`` to ``b``; a switch when ``closed`` lists its conducting phases."""
+
+    name: str
+    a: str
+    b: str
+    r: float
+    closed: tuple | None = None  #: phases in which it conducts (None: always)
+
+    def on(self, p: int) -> bool:
+        return self.closed is None or p in self.closed
+
+
+@dataclass(frozen=True)
+class VSrc:
+    """Ideal voltage source: v(a) − v(b) = u[``input``] [V]."""
+
+    name: str
+    a: str
+    b: str
+    input: str
+
+
+@dataclass(frozen=True)
+class ISrc:
+    """Current source: u[``input``] [A] flows out of node ``a`` through the source into ``b``."""
+
+    name: str
+    a: str
+    b: str
+    input: str
+
+
+Element = Union[Cap, Res, VSrc, ISrc]
+
+
+@dataclass(frozen=True)
+class PhaseSystem:
+    """State equations of one phase: dz/dt = F·z, probes y = K·z, z = [x; u]."""
+
+    F: np.ndarray
+    K: np.ndarray
+
+
+def _expm(a: np.ndarray) -> np.ndarray:
+    """Matrix exponential over leading batch dimensions."""
+    if a.ndim == 2:
+        return expm(a)
+    flat = a.reshape((-1,) + a.shape[-2:])
+    return expm(flat).reshape(a.shape)
+
+
+@dataclass(frozen=True)
+class Network:
+    """A linear switched-capacitor network with a fixed cycle of phases.
+
+    Parameters
+    ----------
+    elements : sequence of Cap, Res, VSrc, ISrc
+    inputs : sequence of str
+        Names of the inputs (source voltages [V] and load currents [A]), in the
+        order the input vector ``u`` uses.
+    n_phases : int
+        Phases per cycle.
+
+    Examples
+    --------
+    Two capacitors joined by a resistor share their charge:
+
+    >>> net = Network([Cap("c1", "a", "0", 1e-6), Cap("c2", "b", "0", 1e-6),
+    ...                Res("r", "a", "b", 1.0)], inputs=(), n_phases=1)
+    >>> x, _ = net.propagate([1.0, 0.0], [], [1e-3])
+    >>> [round(v, 6) for v in x]
+    [0.5, 0.5]
+    """
+
+    elements: tuple
+    inputs: tuple = ()
+    n_phases: int = 1
+
+    def __post_init__(self):
+        object.__setattr__(self, "elements", tuple(self.elements))
+        object.__setattr__(self, "inputs", tuple(self.inputs))
+        names = [e.name for e in self.elements]
+        if len(set(names)) != len(names):
+            raise DesignError("network", "element names must be unique", names)
+        if not isinstance(self.n_phases, int) or self.n_phases < 1:
+            raise DesignError("network.n_phases", "expected a whole number \u2265 1", self.n_phases)
+        for e in self.elements:
+            if e.a == e.b:
+                raise DesignError(f"network.{e.name}", "both terminals on the same node", e.a)
+            if isinstance(e, Cap) and not (e.c > 0 and e.esr >= 0):
+                raise DesignError(f"network.{e.name}", "expected c > 0 F and esr \u2265 0 \u03a9", (e.c, e.esr))
+            if isinstance(e, Res) and not e.r > 0:
+                raise DesignError(f"network.{e.name}", "expected r > 0 \u03a9", e.r)
+            if isinstance(e, (VSrc, ISrc)) and e.input not in self.inputs:
+                raise DesignError(f"network.{e.name}", f"input not declared; inputs: {self.inputs}", e.input)
+
+    # ------------------------------------------------------------------ structure
+    @cached_property
+    def nodes(self) -> tuple:
+        """Non-reference node names in first-use order."""
+        seen: dict = {}
+        for e in self.elements:
+            for n in (e.a, e.b):
+                if n != GROUND:
+                    seen.setdefault(n, None)
+        return tuple(seen)
+
+    @cached_property
+    def caps(self) -> tuple:
+        """The capacitors, in state order."""
+        return tuple(e for e in self.elements if isinstance(e, Cap))
+
+    @property
+    def n_x(self) -> int:
+        return len(self.caps)
+
+    @property
+    def n_u(self) -> int:
+        return len(self.inputs)
+
+    @cached_property
+    def probes(self) -> dict:
+        """Probe name → row of K: ``v(node)``, ``i(element)`` and ``x(capacitor)`` (its ideal-C voltage)."""
+        names = ([f"v({n})" for n in self.nodes] + [f"i({e.name})" for e in self.elements]
+                 + [f"x({c.name})" for c in self.caps])
+        return {n: i for i, n in enumerate(names)}
+
+    def probe_index(self, names) -> np.ndarray:
+        try:
+            return np.array([self.probes[n] for n in names], dtype=int)
+        except KeyError as e:
+            raise DesignError("probe", f"unknown probe; known: {', '.join(self.probes)}", e.args[0]) from None
+
+    @cached_property
+    def systems(self) -> tuple:
+        """One :class:`PhaseSystem` per phase."""
+        return tuple(self._phase_system(p) for p in range(self.n_phases))
+
+    def _phase_system(self, p: int) -> PhaseSystem:
+        nodes = self.nodes
+        idx = {n: i for i, n in enumerate(nodes)}
+        nn, nx, nu = len(nodes), self.n_x, self.n_u
+        cap_idx = {e.name: i for i, e in enumerate(self.caps)}
+        inp = {n: i for i, n in enumerate(self.inputs)}
+        # connectivity for anchoring floating groups
+        parent = {n: n for n in nodes + (GROUND,)}
+
+        def find(n):
+            while parent[n] != n:
+                parent[n] = parent[parent[n]]
+                n = parent[n]
+            return n
+
+        def union(a, b):
+            parent[find(a)] = find(b)
+
+        ideal = []  # (a, b, kind, ref) branches with a current unknown
+        for e in self.elements:
+            if isinstance(e, Cap):
+                union(e.a, e.b)
+                if e.esr == 0:
+                    ideal.append((e.a, e.b, "x", cap_idx[e.name]))
+            elif isinstance(e, Res):
+                if e.on(p):
+                    union(e.a, e.b)
+            elif isinstance(e, VSrc):
+                union(e.a, e.b)
+                ideal.append((e.a, e.b, "u", inp[e.input]))
+        groups: dict = {}
+        for n in nodes:
+            groups.setdefault(find(n), []).append(n)
+        g_root = find(GROUND)
+        for root, members in groups.items():
+            if root == g_root:
+                continue
+            ms = set(members)
+            for e in self.elements:
+                if isinstance(e, ISrc) and ((e.a in ms) != (e.b in ms)):
+                    raise DesignError(f"network.{e.name}", f"in phase {p} the current source feeds nodes "
+                                      f"{sorted(ms)} that nothing else connects to the reference")
+            ideal.append((members[0], GROUND, "0", 0))
+        nj = len(ideal)
+        n_z = nx + nu
+        Y = np.zeros((nn + nj, nn + nj))
+        R = np.zeros((nn + nj, n_z))
+
+        def stamp_g(a, b, g):
+            for n1, s1 in ((a, 1), (b, -1)):
+                if n1 == GROUND:
+                    continue
+                for n2, s2 in ((a, 1), (b, -1)):
+                    if n2 != GROUND:
+                        Y[idx[n1], idx[n2]] += s1 * s2 * g
+
+        for e in self.elements:
+            if isinstance(e, Res) and e.on(p):
+                stamp_g(e.a, e.b, 1.0 / e.r)
+            elif isinstance(e, Cap) and e.esr > 0:
+                g = 1.0 / e.esr
+                stamp_g(e.a, e.b, g)
+                k = cap_idx[e.name]
+                if e.a != GROUND:
+                    R[idx[e.a], k] += g
+                if e.b != GROUND:
+                    R[idx[e.b], k] -= g
+            elif isinstance(e, ISrc):
+                k = nx + inp[e.input]
+                if e.a != GROUND:
+                    R[idx[e.a], k] -= 1.0
+                if e.b != GROUND:
+                    R[idx[e.b], k] += 1.0
+        for j, (a, b, kind, ref) in enumerate(ideal):
+            r = nn + j
+            if a != GROUND:
+                Y[idx[a], r] += 1.0
+                Y[r, idx[a]] += 1.0
+            if b != GROUND:
+                Y[idx[b], r] -= 1.0
+                Y[r, idx[b]] -= 1.0
+            if kind == "x":
+                R[r, ref] = 1.0
+            elif kind == "u":
+                R[r, nx + ref] = 1.0
+        if Y.size and np.linalg.cond(Y) > 1e13:
+            raise DesignError("network", f"phase {p} has a loop of capacitors without ESR and voltage "
+                              "sources with no resistance in it (no unique solution)")
+        W = np.linalg.solve(Y, R) if Y.size else np.zeros((0, n_z))
+        jrow = {}
+        for j, (a, b, kind, ref) in enumerate(ideal):
+            if kind == "x":
+                jrow[("x", ref)] = nn + j
+            elif kind == "u":
+                jrow[("u", ref)] = nn + j
+
+        def vdiff(a, b):
+            row = np.zeros(n_z)
+            if a != GROUND:
+                row += W[idx[a]]
+            if b != GROUND:
+                row -= W[idx[b]]
+            return row
+
+        K = np.zeros((len(self.probes), n_z))
+        K[:nn] = W[:nn]
+        icap = np.zeros((nx, n_z))
+        for i, e in enumerate(self.elements):
+            row = np.zeros(n_z)
+            if isinstance(e, Res):
+                if e.on(p):
+                    row = vdiff(e.a, e.b) / e.r
+            elif isinstance(e, Cap):
+                k = cap_idx[e.name]
+                if e.esr > 0:
+                    row = vdiff(e.a, e.b)
+                    row[k] -= 1.0
+                    row = row / e.esr
+                else:
+                    row = W[jrow[("x", k)]].copy()
+                icap[k] = row
+            elif isinstance(e, VSrc):
+                row = W[jrow[("u", inp[e.input])]].copy()
+            elif isinstance(e, ISrc):
+                row[nx + inp[e.input]] = 1.0
+            K[nn + i] = row
+        ne = len(self.elements)
+        for k in range(nx):
+            K[nn + ne + k, k] = 1.0
+        F = np.zeros((n_z, n_z))
+        cvals = np.array([e.c for e in self.caps])
+        F[:nx] = icap / cvals[:, None]
+        return PhaseSystem(F=F, K=K)
+
+    # ------------------------------------------------------------------ maps
+    def phase_maps(self, durations) -> tuple[np.ndarray, np.ndarray]:
+        """Exact transition and integral matrices of every phase.
+
+        Parameters
+        ----------
+        durations : array_like, shape (..., n_phases) [s]
+
+        Returns
+        -------
+        E : ndarray, shape (..., n_phases, n_z, n_z)
+            z(t_p) = E_p·z(0) within phase p (e^{F_p t_p}).
+        S : ndarray, shape (..., n_phases, n_z, n_z)
+            ∫_0^{t_p} z ds = S_p·z(0).
+        """
+        d = np.asarray(durations, dtype=float)
+        if d.shape[-1:] != (self.n_phases,):
+            raise DesignError("durations", f"expected {self.n_phases} phase durations", d.shape)
+        if np.any(d < 0) or not np.all(np.isfinite(d)):
+            raise DesignError("durations", "phase durations must be finite and \u2265 0 s")
+        nz = self.n_x + self.n_u
+        Fs = np.stack([s.F for s in self.systems])  # (P, nz, nz)
+        A = np.zeros(d.shape + (2 * nz, 2 * nz))
+        A[..., :nz, :nz] = Fs * d[..., None, None]
+        A[..., :nz, nz:] = np.eye(nz) * d[..., None, None]
+        B = _expm(A)
+        return B[..., :nz, :nz], B[..., :nz, nz:]
+
+    def propagate(self, x0, u, durations):
+        """States after running the phases once from ``x0`` (a cycle, or part of one).
+
+        ``durations`` lists the time spent in phases 0, 1, …; fewer than
+        ``n_phases`` entries stop early. Returns (x_end, per-phase end states).
+        """
+        d = np.zeros(self.n_phases)
+        d[:len(durations)] = durations
+        E, _ = self.phase_maps(d)
+        z = np.concatenate([np.asarray(x0, float), np.asarray(u, float)])
+        ends = []
+        for p in range(len(durations)):
+            z = E[p] @ z
+            ends.append(z[:self.n_x].copy())
+        return z[:self.n_x], ends
+
+
+def cycle_map(net: Network, durations):
+    """One-cycle map of the augmented state: z_{k+1} = E_tot·z_k (batched over durations).
+
+    Returns (E, S, E_tot) with E and S from :meth:`Network.phase_maps` and
+    E_tot = E_{P−1}·…·E_0.
+    """
+    E, S = net.phase_maps(durations)
+    tot = E[..., 0, :, :]
+    for p in range(1, net.n_phases):
+        tot = E[..., p, :, :] @ tot
+    return E, S, tot
+
+
+# --------------------------------------------------------------------------- steady state
+
+@dataclass(frozen=True)
+class PeriodicSolution:
+    """Periodic steady state of a network (batched over the leading dimensions of ``durations``).
+
+    Attributes
+    ----------
+    net : Network
+    durations : ndarray (..., P) [s]
+    z0 : ndarray (..., P, n_z)
+        Augmented state [x; u] at the start of each phase.
+    E, S : ndarray (..., P, n_z, n_z)
+        Phase transition and integral matrices.
+    """
+
+    net: Network
+    durations: np.ndarray
+    z0: np.ndarray
+    E: np.ndarray
+    S: np.ndarray
+
+    @property
+    def period(self) -> np.ndarray:
+        """Cycle time [s]."""
+        return self.durations.sum(axis=-1)
+
+    @property
+    def x0(self) -> np.ndarray:
+        """Capacitor voltages at the start of the cycle [V]."""
+        return self.z0[..., 0, :self.net.n_x]
+
+    def _K(self, names):
+        rows = self.net.probe_index(names)
+        return np.stack([s.K[rows] for s in self.net.systems])  # (P, m, nz)
+
+    def integral(self, names) -> np.ndarray:
+        """∫ y dt over one cycle for each probe, shape (..., m) [V·s or C]."""
+        K = self._K(names)
+        iz = np.einsum("...pij,...pj->...pi", self.S, self.z0)
+        return np.einsum("pmj,...pj->...m", K, iz)
+
+    def mean(self, names) -> np.ndarray:
+        """Cycle average of each probe [V or A]."""
+        return self.integral(names) / self.period[..., None]
+
+    def square_integral(self, names) -> np.ndarray:
+        """∫ y² dt over one cycle for each probe (exact, Van Loan 1978), shape (..., m)."""
+        K = self._K(names)
+        nz = self.z0.shape[-1]
+        F = np.stack([s.F for s in self.net.systems])
+        d = self.durations
+        H = np.zeros(d.shape + (2 * nz, 2 * nz))
+        H[..., :nz, :nz] = F * d[..., None, None]
+        H[..., :nz, nz:] = np.einsum("...i,...j->...ij", self.z0, self.z0) * d[..., None, None]
+        H[..., nz:, nz:] = -np.swapaxes(F, -1, -2) * d[..., None, None]
+        B = _expm(H)
+        G = B[..., :nz, nz:] @ np.swapaxes(B[..., :nz, :nz], -1, -2)  # ∫ z zᵀ ds per phase
+        return np.einsum("pmi,...pij,pmj->...m", K, G, K)
+
+    def rms(self, names) -> np.ndarray:
+        """RMS of each probe over the cycle."""
+        return np.sqrt(np.maximum(self.square_integral(names), 0.0) / self.period[..., None])
+
+    def samples(self, names, n: int = 32):
+        """Waveforms sampled at n+1 points per phase (both ends included).
+
+        Returns (t, y) with t shape (..., P·(n+1)) [s] and y shape (..., m, P·(n+1)).
+        """
+        K = self._K(names)
+        nz = self.z0.shape[-1]
+        F = np.stack([s.F for s in self.net.systems])
+        d = self.durations
+        Es = _expm(F * (d / n)[..., None, None])  # (..., P, nz, nz)
+        zs = [self.z0]
+        z = self.z0
+        for _ in range(n):
+            z = np.einsum("...pij,...pj->...pi", Es, z)
+            zs.append(z)
+        Z = np.stack(zs, axis=-2)  # (..., P, n+1, nz)
+        y = np.einsum("pmj,...pkj->...mpk", K, Z)
+        t0 = np.concatenate([np.zeros(d.shape[:-1] + (1,)), np.cumsum(d, axis=-1)[..., :-1]], axis=-1)
+        t = t0[..., :, None] + d[..., :, None] * np.linspace(0.0, 1.0, n + 1)
+        sh = y.shape[:-2] + (-1,)
+        return t.reshape(t.shape[:-2] + (-1,)), y.reshape(sh)
+
+    def at_phase_starts(self, names) -> np.ndarray:
+        """Each probe at the start of each phase (just after the switching), shape (..., m, P)."""
+        return np.einsum("pmj,...pj->...mp", self._K(names), self.z0)
+
+    def at_phase_ends(self, names) -> np.ndarray:
+        """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""
+        zend = np.einsum("...pij,...pj->...pi", self.E, self.z0)
+        return np.einsum("pmj,...pj->...mp", self._K(names), zend)
+
+
+def periodic_steady_state(net: Network, durations, u) -> PeriodicSolution:
+    """The periodic steady state, solved directly: x₀ = (I − Φ)⁻¹·Γ·u.
+
+    Parameters
+    ----------
+    net : Network
+    durations : array_like (..., n_phases) [s]
+        Phase durations (a batch of cycles may be given).
+    u : array_like (n_u,) or (..., n_u)
+        Inputs [V] / [A].
+
+    Raises
+    ------
+    DesignError
+        When the cycle map has an eigenvalue at 1 (a capacitor whose charge no
+        phase ever changes, so its steady state is undefined).
+    """
+    E, S, tot = cycle_map(net, durations)
+    nx = net.n_x
+    u = np.asarray(u, dtype=float)
+    d = np.asarray(durations, dtype=float)
+    u = np.broadcast_to(u, d.shape[:-1] + (net.n_u,))
+    Phi = tot[..., :nx, :nx]
+    Gam = tot[..., :nx, nx:]
+    A = np.eye(nx) - Phi
+    if nx and np.any(np.linalg.cond(A) > 1e12):
+        raise DesignError("network", "the cycle has no unique periodic steady state (a capacitor's "
+                          "charge is never changed by any phase)")
+    x0 = np.linalg.solve(A, (Gam @ u[..., None]))[..., 0] if nx else np.zeros(d.shape[:-1] + (0,))
+    z = np.concatenate([x0, u], axis=-1)
+    zs = []
+    for p in range(net.n_phases):
+        zs.append(z)
+        z = np.einsum("...ij,...j->...i", E[..., p, :, :], z)
+    return PeriodicSolution(net=net, durations=np.asarray(d), z0=np.stack(zs, axis=-2), E=E, S=S)
+
+
+# --------------------------------------------------------------------------- start-up
+
+@dataclass(frozen=True)
+class StartupSolution:
+    """Cycle-by-cycle start-up (one network, one set of durations).
+
+    Attributes
+    ----------
+    net : Network
+    durations : ndarray (P,) [s]
+    z_start : ndarray (n_cycles, P, n_z)
+        Augmented state at the start of each phase of each cycle.
+    E, S : ndarray (P, n_z, n_z)
+        Phase transition and integral matrices.
+    """
+
+    net: Network
+    durations: np.ndarray
+    z_start: np.ndarray
+    E: np.ndarray
+    S: np.ndarray
+
+    def phase_integrals(self, names) -> np.ndarray:
+        """∫ y dt over each phase of each cycle, shape (m, n_cycles, P)."""
+        K = np.stack([s.K[self.net.probe_index(names)] for s in self.net.systems])
+        iz = np.einsum("pij,kpj->kpi", self.S, self.z_start)
+        return np.einsum("pmj,kpj->mkp", K, iz)
+
+    def at_phase_starts(self, names) -> np.ndarray:
+        """Probes at each phase start, shape (m, n_cycles, P)."""
+        K = np.stack([s.K[self.net.probe_index(names)] for s in self.net.systems])
+        return np.einsum("pmj,kpj->mkp", K, self.z_start)
+
+    def at_phase_ends(self, names) -> np.ndarray:
+        """Probes at each phase end, shape (m, n_cycles, P)."""
+        K = np.stack([s.K[self.net.probe_index(names)] for s in self.net.systems])
+        zend = np.einsum("pij,kpj->kpi", self.E, self.z_start)
+        return np.einsum("pmj,kpj->mkp", K, zend)
+
+
+def _powers_apply(Phi: np.ndarray, v: np.ndarray, k: np.ndarray) -> np.ndarray:
+    """Φ^k·v for every k (closed form through the eigen-decomposition), shape (len(k), n)."""
+    n = Phi.shape[0]
+    if n == 0:
+        return np.zeros((k.size, 0))
+    lam, V = np.linalg.eig(Phi)
+    if np.linalg.cond(V) < 1e8:
+        c = np.linalg.solve(V, v.astype(complex))
+        out = (lam[None, :] ** k[:, None] * c[None, :]) @ V.T
+        return out.real
+    # defective or nearly so: repeated squaring per k (rare)
+    return np.stack([np.linalg.matrix_power(Phi, int(kk)) @ v for kk in k])
+
+
+def startup(net: Network, durations, u, x0=None, *, cycles) -> StartupSolution:
+    """Start-up by the recurrence x_{k+1} = Φ·x_k + Γ·u, evaluated in closed form.
+
+    Parameters
+    ----------
+    durations : array_like (n_phases,) [s]
+    u : array_like (n_u,)
+    x0 : array_like (n_x,), optional
+        Capacitor voltages before the first cycle (default 0 V: dead capacitors).
+    cycles : array_like of int
+        Indices k of the cycles wanted (need not be contiguous).
+
+    Notes
+    -----
+    With x_ss = (I − Φ)⁻¹·Γ·u, x_k = x_ss + Φ^k·(x₀ − x_ss), and Φ^k comes from
+    Φ's eigenvalues, so a thousand cycles cost one vector operation.
+    """
+    E, S, tot = cycle_map(net, np.asarray(durations, float))
+    nx = net.n_x
+    u = np.asarray(u, dtype=float)
+    x0 = np.zeros(nx) if x0 is None else np.asarray(x0, dtype=float)
+    k = np.asarray(cycles, dtype=np.int64)
+    Phi, Gam = tot[:nx, :nx], tot[:nx, nx:]
+    xss = np.linalg.solve(np.eye(nx) - Phi, Gam @ u)
+    xk = xss[None, :] + _powers_apply(Phi, x0 - xss, k)
+    z = np.concatenate([xk, np.broadcast_to(u, (k.size, u.size))], axis=1)
+    zs = []
+    for p in range(net.n_phases):
+        zs.append(z)
+        z = z @ E[p].T
+    return StartupSolution(net=net, durations=np.asarray(durations, float), z_start=np.stack(zs, axis=1), E=E, S=S)
+
+
+def element_names(elements: Sequence, kind) -> list:
+    """Names of the elements of one class (helper for probes)."""
+    return [e.name for e in elements if isinstance(e, kind)]
