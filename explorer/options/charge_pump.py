@@ -1,0 +1,701 @@
+"""Switched-capacitor charge pumps 1:1, 1:2 and 2:1 as three circuit descriptions.
+
+Each ratio is one flying capacitor C_fly, four switches of on-resistance
+R_on, the output capacitor C_out (the floating rail, V_B − V_S) and the input
+rail V_in, described for the engine :mod:`explorer.scnet` and run by it. The
+pump clock has four phases: φ1 (charge, duration D·T), a dead time, φ2
+(transfer, D·T) and a dead time, with D = ½ − t_dead,cp·f_cp.
+
+=====  =========================================  ==========================================
+ratio  φ1                                         φ2
+=====  =========================================  ==========================================
+1:1    C_fly across V_in                          C_fly across C_out
+1:2    C_fly across V_in                          C_fly stacked on V_in, into C_out
+2:1    C_fly in series with C_out across V_in     C_fly in parallel with C_out
+=====  =========================================  ==========================================
+
+Reference frame. The networks are analysed with the rail's return (S) and the
+input's return as one node, as in the textbook circuits. For 1:1 this is exact:
+the flying capacitor is disconnected from one domain before it joins the other,
+so no loop runs through the switch node. For 1:2 and 2:1 a phase joins V_in and
+C_out in one loop, so the model assumes that loop does not see the switch node's
+motion (for instance V_in is provided in the SW domain during that phase); the
+motion of the flying capacitor between the ground and SW domains is accounted
+for separately as the domain-crossing loss and the switches' blocking voltage
+V_bus + V_in.
+
+Output impedance (Seeman & Sanders, "Analysis and optimization of
+switched-capacitor DC–DC converters", IEEE Trans. Power Electronics 23(2),
+841–851, 2008, doi:10.1109/TPEL.2007.915182): with the charge multipliers a_c
+(flying capacitors) and a_r (switches),
+
+    R_SSL = Σ a_c,i² / (C_i·f_cp)                (slow-switching limit, eq. 8)
+    R_FSL = Σ R_i·a_r,i² / D_i                  (fast-switching limit, eq. 10;
+                                                  2·Σ R_i·a_r,i² at 50 % phases)
+
+and their usual combination R_out ≈ √(R_SSL² + R_FSL²). For one flying
+capacitor the exponential charge transfer gives the exact result (derived in
+:func:`r_out_exact`) R_out = R_SSL·coth(R_SSL/R_FSL), used here as the fast
+path for sweeps; the engine's exact R_out (output held by an ideal source, the
+paper's definition) equals it.
+
+Real load and the asynchronous PWM. The rail's load is the average current
+I = I_Q + n_on·(Q_G + Q_LS)/T_a + (V/R_GS)·t_on/T_a over the bridge schedule
+(:mod:`explorer.loads`), plus the pulse Q = Q_G + Q_LS drawn from C_out at each
+HS turn-on. The PWM and the pump clock are not synchronised, so the rail is
+split by superposition (the network is linear): (1) the pump's periodic steady
+state under the average load, from the engine; (2) the zero-mean pulse train
+(−Q at each turn-on, +Q/T_p between) through the pump's averaged output model
+(R_out with C_out), whose periodic response has the closed-form extremes of
+:func:`pulse_train_extremes`. Worst-case phase: the pulse dip is placed at the
+pump ripple's minimum and its peak at the pump ripple's maximum, so
+V_min = min(pump) + y_min and V_max = max(pump) + y_max, a bound over every
+relative phase of the two clocks.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import dataclass
+
+import numpy as np
+from scipy.optimize import brentq
+
+from ..capacitors import capacitance, parse_dielectric
+from ..design import ChargePumpOption, Design
+from ..errors import DesignError
+from ..loads import charge_per_turn_on, load_power, required_rail
+from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
+from ..schedule import period_schedule
+from ..scnet import Cap, ISrc, Network, Res, VSrc, periodic_steady_state, startup
+
+__all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
+           "r_out_exact", "r_out_sqrt", "r_out_limits", "r_out_engine", "rail_from_r_out",
+           "pulse_train_extremes", "evaluate_option"]
+
+PHI1, DEAD1, PHI2, DEAD2 = 0, 1, 2, 3
+
+
+@dataclass(frozen=True)
+class PumpCircuit:
+    """One conversion ratio as a circuit description for :mod:`explorer.scnet`.
+
+    Attributes
+    ----------
+    ratio : str
+        ``"1:1"``, ``"1:2"`` or ``"2:1"`` (input:output).
+    m : float
+        Ideal conversion ratio V_out/V_in [-].
+    switches : tuple of (name, node a, node b, phase)
+        The four switches; nodes ``in`` (V_in), ``t``/``b`` (flying capacitor
+        top/bottom), ``out`` (rail), ``0`` (return).
+    a_c, a_r : tuple of float
+        Seeman–Sanders charge multipliers of the flying capacitor and the
+        switches (charge per cycle / output charge per cycle).
+    v_fly : float
+        Ideal flying-capacitor voltage per volt of V_in [-] (for DC bias).
+    """
+
+    ratio: str
+    m: float
+    switches: tuple
+    a_c: tuple
+    a_r: tuple
+    v_fly: float
+
+
+#: The three ratios. The 2:1 and 1:2 multipliers are the published ones (Seeman &
+#: Sanders 2008, doi:10.1109/TPEL.2007.915182: series-parallel 2:1 and the doubler);
+#: 1:1 follows by the same charge-flow rule; tests recover all of them from the engine.
+CIRCUITS = {
+    "1:1": PumpCircuit("1:1", 1.0, (("s1", "in", "t", PHI1), ("s2", "b", "0", PHI1),
+                                    ("s3", "t", "out", PHI2), ("s4", "b", "0", PHI2)),
+                       a_c=(1.0,), a_r=(1.0, 1.0, 1.0, 1.0), v_fly=1.0),
+    "1:2": PumpCircuit("1:2", 2.0, (("s1", "in", "t", PHI1), ("s2", "b", "0", PHI1),
+                                    ("s3", "b", "in", PHI2), ("s4", "t", "out", PHI2)),
+                       a_c=(1.0,), a_r=(1.0, 1.0, 1.0, 1.0), v_fly=1.0),
+    "2:1": PumpCircuit("2:1", 0.5, (("s1", "in", "t", PHI1), ("s2", "b", "out", PHI1),
+                                    ("s3", "t", "out", PHI2), ("s4", "b", "0", PHI2)),
+                       a_c=(0.5,), a_r=(0.5, 0.5, 0.5, 0.5), v_fly=0.5),
+}
+
+
+def _circuit(ratio: str) -> PumpCircuit:
+    try:
+        return CIRCUITS[ratio]
+    except KeyError:
+        raise DesignError("ratio", f"expected one of {', '.join(map(repr, CIRCUITS))}", ratio) from None
+
+
+def pump_network(ratio: str, *, c_fly: float, r_on: float, esr_fly: float = 0.0, output: str = "load",
+                 c_out: float | None = None, esr_out: float = 0.0, r_load: float | None = None) -> Network:
+    """The pump of one ratio as an engine network.
+
+    Parameters
+    ----------
+    ratio : {"1:1", "1:2", "2:1"}
+    c_fly : float [F]
+        Flying capacitance (effective).
+    r_on : float [Ω]
+        On-resistance of each switch.
+    esr_fly, esr_out : float [Ω]
+        Capacitor ESRs.
+    output : {"load", "source"}
+        ``"load"``: C_out with a current-source load (input ``i_load``) and an
+        optional resistive load ``r_load``; ``"source"``: the output held by
+        an ideal source (input ``v_out``), the definition of R_out in
+        Seeman & Sanders (2008).
+    c_out : float [F]
+        Output capacitance (effective), for ``output="load"``.
+
+    The inputs are ``("v_in", "i_load")`` or ``("v_in", "v_out")``.
+    """
+    circ = _circuit(ratio)
+    el = [VSrc("v_in", "in", "0", "v_in"), Cap("c_fly", "t", "b", c_fly, esr_fly)]
+    el += [Res(name, a, b, r_on, (p,)) for name, a, b, p in circ.switches]
+    if output == "source":
+        el.append(VSrc("v_out", "out", "0", "v_out"))
+        return Network(el, inputs=("v_in", "v_out"), n_phases=4)
+    if output != "load":
+        raise DesignError("output", "expected 'load' or 'source'", output)
+    if c_out is None:
+        raise DesignError("c_out", "needed for output='load'")
+    el += [Cap("c_out", "out", "0", c_out, esr_out), ISrc("i_load", "out", "0", "i_load")]
+    if r_load is not None:
+        el.append(Res("r_load", "out", "0", r_load))
+    return Network(el, inputs=("v_in", "i_load"), n_phases=4)
+
+
+def pump_durations(f_cp, dead_time_cp=0.0) -> np.ndarray:
+    """Phase durations [φ1, dead, φ2, dead] [s] (broadcasts: shape (..., 4)).
+
+    Parameters
+    ----------
+    f_cp : float or array [Hz]
+        Pump clock.
+    dead_time_cp : float or array [s]
+        Dead time between the phases (each of two per cycle).
+    """
+    f = np.asarray(f_cp, dtype=float)
+    td = np.asarray(dead_time_cp, dtype=float)
+    half = 0.5 / f - td
+    f, td, half = np.broadcast_arrays(f, td, half)
+    return np.stack([half, td, half, td], axis=-1)
+
+
+def phase_duty(f_cp, dead_time_cp=0.0):
+    """Fraction of the pump period each switch conducts, D = ½ − t_dead,cp·f_cp [-]."""
+    return 0.5 - np.asarray(dead_time_cp) * np.asarray(f_cp)
+
+
+def r_ssl(c_fly, f_cp, *, ratio: str):
+    """Slow-switching-limit output resistance R_SSL = Σ a_c² / (C_fly·f_cp) [Ω].
+
+    Seeman & Sanders (2008), doi:10.1109/TPEL.2007.915182, eq. (8), with the
+    charge multipliers of :data:`CIRCUITS`. For 2:1: 1/(4·C·f); for 1:2 and 1:1:
+    1/(C·f).
+
+    Parameters
+    ----------
+    c_fly : float or array [F]
+    f_cp : float or array [Hz]
+    """
+    a2 = sum(a * a for a in _circuit(ratio).a_c)
+    return a2 / (np.asarray(c_fly) * np.asarray(f_cp))
+
+
+def r_fsl(r_on, *, ratio: str, duty=0.5, esr_fly=0.0):
+    """Fast-switching-limit output resistance R_FSL = Σ R·a_r² / D [Ω].
+
+    Seeman & Sanders (2008), doi:10.1109/TPEL.2007.915182, eq. (10) with every
+    switch conducting a fraction ``duty`` of the period (D = ½: 2·Σ R·a_r²;
+    2:1: 2·R_on, 1:2: 8·R_on). The flying capacitor's ESR conducts a_c in both
+    phases and adds 2·ESR·a_c²/D.
+
+    Parameters
+    ----------
+    r_on : float or array [Ω]
+    duty : float or array [-], 0 < D ≤ ½
+    esr_fly : float or array [Ω]
+    """
+    c = _circuit(ratio)
+    d = np.asarray(duty)
+    return (np.asarray(r_on) * sum(a * a for a in c.a_r)
+            + 2.0 * np.asarray(esr_fly) * sum(a * a for a in c.a_c)) / d
+
+
+def r_out_exact(r_ssl_, r_fsl_):
+    """Exact output resistance of a single-flying-capacitor pump: R_SSL·coth(R_SSL/R_FSL) [Ω].
+
+    Derivation (two phases of equal length t = D/f_cp, loop resistance R_L and
+    flying capacitance C in each, τ = R_L·C; output held at V_out as in Seeman &
+    Sanders 2008). In phase j the flying capacitor relaxes exponentially toward
+    the voltage E_j its loop imposes: v_end = E_j + (v_start − E_j)·k with
+    k = e^{−t/τ}. The periodic solution of the two phases gives
+    Δv = (E_1 − E_2)·(1 − k)/(1 + k) = (E_1 − E_2)·tanh(t/2τ). The charge per
+    cycle is C·Δv, and E_1 − E_2 is proportional to M·V_in − V_out, so
+    I_out = (M·V_in − V_out)/R_SSL·tanh(t/2τ). Since R_SSL/R_FSL = t/(2τ) for each
+    of the three circuits (R_FSL = Σ R·a_r²/D with R_L = 2·R_on + ESR), this is
+    R_out = R_SSL·coth(R_SSL/R_FSL). It tends to R_SSL at low f_cp and to R_FSL at
+    high f_cp; :func:`r_out_sqrt` overestimates it by up to 8.8 % (at
+    R_SSL/R_FSL ≈ 1.43).
+
+    Parameters
+    ----------
+    r_ssl_, r_fsl_ : float or array [Ω]
+        Broadcast together.
+    """
+    s = np.asarray(r_ssl_, dtype=float)
+    r = np.asarray(r_fsl_, dtype=float)
+    x = s / r
+    small = x < 1e-4
+    xs = np.where(small, 1.0, x)
+    ratio = np.where(small, 1.0 + x * x / 3.0, xs / np.tanh(xs))  # x·coth x
+    out = r * ratio
+    return float(out) if out.ndim == 0 else out
+
+
+def r_out_sqrt(r_ssl_, r_fsl_):
+    """The usual combination √(R_SSL² + R_FSL²) [Ω] (Seeman & Sanders 2008, eq. 11)."""
+    out = np.hypot(r_ssl_, r_fsl_)
+    return float(out) if np.ndim(out) == 0 else out
+
+
+def r_out_limits(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0, method: str = "exact"):
+    """R_out over arrays of pump clock and flying capacitance (the fast path for sweeps) [Ω].
+
+    Parameters
+    ----------
+    f_cp : float or array [Hz]
+    c_fly : float or array [F]
+    r_on : float or array [Ω]
+    ratio : {"1:1", "1:2", "2:1"}
+    dead_time_cp : float or array [s]
+    esr_fly : float or array [Ω]
+    method : {"exact", "sqrt", "ssl", "fsl"}
+        ``"exact"``: :func:`r_out_exact`; ``"sqrt"``: :func:`r_out_sqrt`; or one limit.
+
+    Examples
+    --------
+    >>> round(r_out_limits(1e3, 1e-6, 1.0, ratio="2:1"), 6)  # deep SSL: 1/(4·C·f)
+    250.0
+    """
+    s = r_ssl(c_fly, f_cp, ratio=ratio)
+    r = r_fsl(r_on, ratio=ratio, duty=phase_duty(f_cp, dead_time_cp), esr_fly=esr_fly)
+    if method == "exact":
+        return r_out_exact(s, r)
+    if method == "sqrt":
+        return r_out_sqrt(s, r)
+    if method == "ssl":
+        return s
+    if method == "fsl":
+        return r
+    raise DesignError("method", "expected 'exact', 'sqrt', 'ssl' or 'fsl'", method)
+
+
+def r_out_engine(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0):
+    """R_out from the engine: the output held by an ideal source, R_out = −∂V_out/∂I_out [Ω].
+
+    Batched over ``f_cp`` (array). Also returns the ideal ratio M = V_out/V_in
+    at zero current found by the engine.
+
+    Returns
+    -------
+    r_out : float or ndarray [Ω]
+    m : float or ndarray [-]
+    """
+    net = pump_network(ratio, c_fly=c_fly, r_on=r_on, esr_fly=esr_fly, output="source")
+    d = pump_durations(f_cp, dead_time_cp)
+    # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0)
+    d2 = np.stack([d, d], axis=-2)
+    u = np.array([[0.0, 1.0], [1.0, 0.0]])
+    sol = periodic_steady_state(net, d2, np.broadcast_to(u, d2.shape[:-1] + (2,)))
+    i = sol.mean(["i(v_out)"])[..., 0]  # current into the output source
+    r = -1.0 / i[..., 0]
+    m = i[..., 1] * r
+    return (float(r), float(m)) if np.ndim(r) == 0 else (r, m)
+
+
+def rail_from_r_out(v_in, r_out, i_load, *, ratio: str, g_load=0.0):
+    """Mean rail from the averaged model: V = (M·V_in − R_out·I) / (1 + R_out·G) [V].
+
+    Parameters
+    ----------
+    v_in : float or array [V]
+    r_out : float or array [Ω]
+    i_load : float or array [A]
+        Constant part of the load.
+    g_load : float or array [S]
+        Resistive part of the load (V/R_GS share: duty/R_GS).
+    """
+    m = _circuit(ratio).m
+    return (m * np.asarray(v_in) - np.asarray(r_out) * np.asarray(i_load)) / (1.0 + np.asarray(r_out) * g_load)
+
+
+def pulse_train_extremes(q, c_out, r_th, t_p):
+    """Extremes of the rail's response to the zero-mean pulse train of the gate charge [V].
+
+    The rail is modelled by its averaged Thevenin source (R_th) and C_out; the
+    load is −q at each turn-on and +q/t_p between (zero mean). Between pulses
+    y relaxes toward y_∞ = R_th·q/t_p with τ = R_th·C_out; each pulse steps it
+    down by q/C_out. The periodic solution, with a = t_p/τ, is
+
+        y_max = (q/C)·[1/a − 1/(e^a − 1)],   y_min = y_max − q/C,
+
+    tending to ±q/(2C) (a sawtooth) for a → 0 and to (0, −q/C) for a → ∞
+    (first-order RC circuit response, any circuit-theory textbook).
+
+    Parameters
+    ----------
+    q : float or array [C]
+    c_out : float or array [F]
+    r_th : float or array [Ω]
+    t_p : float or array [s]
+        Interval between pulses.
+
+    Returns
+    -------
+    y_min, y_max : float or array [V]
+    """
+    q = np.asarray(q, float)
+    a = np.asarray(t_p, float) / (np.asarray(r_th, float) * np.asarray(c_out, float))
+    small = a < 1e-6
+    aa = np.where(small, 1.0, a)
+    frac = np.where(small, 0.5 - a / 12.0, 1.0 / aa - 1.0 / np.expm1(np.minimum(aa, 700.0)))
+    y_max = q / c_out * frac
+    y_min = y_max - q / c_out
+    if np.ndim(y_max) == 0:
+        return float(y_min), float(y_max)
+    return y_min, y_max
+
+
+# --------------------------------------------------------------------------- the option model
+
+@dataclass(frozen=True)
+class _Pump:
+    """The resolved pump of one option (effective values)."""
+
+    circ: PumpCircuit
+    v_in: float
+    f_cp: float
+    durations: np.ndarray
+    c_fly: float
+    c_out: float
+    esr_fly: float
+    esr_out: float
+    r_on: float
+
+
+def _resolve(design: Design, opt: ChargePumpOption, corner: str) -> _Pump:
+    circ = _circuit(opt.ratio)
+    v_in = opt.v_in if opt.v_in is not None else design.aux.v_dd
+
+    def ceff(cap, v, name):
+        return float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=parse_dielectric(cap.dielectric, name),
+                                 v_applied=v, v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
+
+    return _Pump(circ=circ, v_in=v_in, f_cp=opt.f_cp, durations=pump_durations(opt.f_cp, opt.dead_time_cp),
+                 c_fly=ceff(opt.c_fly, circ.v_fly * v_in, "c_fly.dielectric"),
+                 c_out=ceff(opt.c_out, circ.m * v_in, "c_out.dielectric"),
+                 esr_fly=opt.c_fly.esr, esr_out=opt.c_out.esr, r_on=opt.r_on)
+
+
+SWITCHES = ("i(s1)", "i(s2)", "i(s3)", "i(s4)")
+
+
+def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "nominal") -> OptionResult:
+    """Evaluate one charge-pump option of a design.
+
+    Parameters
+    ----------
+    design : Design
+    option : ChargePumpOption
+    corner : {"nominal", "min", "max"}
+        Capacitance corner (tolerance and temperature class, EIA-198 envelope).
+
+    Returns
+    -------
+    OptionResult
+        Rail statistics (worst-case relative phase of the PWM and the pump
+        clock, see the module notes), efficiency and losses, R_out (exact,
+        from the engine), start-up by pump cycles, duty limits 0–100 % with the
+        highest f_sw and Q_G in ``extra`` and ``duty.topology``, capacitor
+        stress and checks.
+    """
+    if not isinstance(option, ChargePumpOption):
+        raise DesignError("option", "expected a charge_pump option", type(option).__name__)
+    pump = _resolve(design, option, corner)
+    circ = pump.circ
+    v_in = pump.v_in
+    v_ideal = circ.m * v_in
+    sched = period_schedule(design)
+    t_a = sched.period
+    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    q_pulse = charge_per_turn_on(design)
+    t_on = float(sched.dt[sched.hs_on].sum())
+    i0 = design.driver.i_q + n_on * q_pulse / t_a
+    r_gs = design.gate.r_gs
+    g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
+    r_eq = 1.0 / g_load if g_load > 0 else None
+
+    # --- output impedance: exact from the engine, and the published limits
+    r_out, m_engine = r_out_engine(pump.f_cp, pump.c_fly, pump.r_on, ratio=circ.ratio,
+                                   dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
+    duty_cp = float(phase_duty(pump.f_cp, option.dead_time_cp))
+    rs = float(r_ssl(pump.c_fly, pump.f_cp, ratio=circ.ratio))
+    rf = float(r_fsl(pump.r_on, ratio=circ.ratio, duty=duty_cp, esr_fly=pump.esr_fly))
+
+    # --- steady state under the average load (engine)
+    net = pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
+                       c_out=pump.c_out, esr_out=pump.esr_out, r_load=r_eq)
+    sol = periodic_steady_state(net, pump.durations, [v_in, i0])
+    probes = ["v(out)", "x(c_fly)", "x(c_out)", "i(c_fly)", "i(c_out)", "i(v_in)", "v(b)"] + list(SWITCHES)
+    t_w, y = sol.samples(probes, n=32)
+    v_out_w, xfly_w, xout_w = y[0], y[1], y[2]
+    mean = sol.mean(["v(out)", "i(v_in)"])
+    v_mean = float(mean[0])
+    i_in = -float(mean[1])
+    rms = sol.rms(list(SWITCHES) + ["i(c_fly)", "i(c_out)", "v(out)"])
+    i_sw_rms, i_fly_rms, i_out_rms, v_rms = rms[:4], float(rms[4]), float(rms[5]), float(rms[6])
+    starts = sol.at_phase_starts(list(SWITCHES) + ["i(c_fly)", "i(c_out)"])
+    ends = sol.at_phase_ends(list(SWITCHES) + ["i(c_fly)", "i(c_out)", "v(b)"])
+    i_peak_ss = np.maximum(np.abs(starts).max(axis=1), np.abs(ends[:6]).max(axis=1))
+
+    # --- the pulse train, worst-case relative phase
+    if n_on > 0:
+        r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
+        y_min, y_max = pulse_train_extremes(q_pulse, pump.c_out, r_th, t_a / n_on)
+    else:
+        y_min = y_max = 0.0
+    v_min = float(v_out_w.min()) + y_min
+    v_max = float(v_out_w.max()) + y_max
+
+    # --- power and losses
+    p_in = v_in * i_in
+    p_delivered = float(load_power(design, sched, v_mean))
+    p_load_engine = i0 * v_mean + (v_rms ** 2 * g_load)
+    p_sw = float(np.sum(i_sw_rms ** 2) * pump.r_on)
+    p_esr = i_fly_rms ** 2 * pump.esr_fly + i_out_rms ** 2 * pump.esr_out
+    v_b_phase = ends[6]
+    v_bp = float(abs(v_b_phase[PHI1] - v_b_phase[PHI2]))
+    p_bp = option.alpha_bp * pump.c_fly * v_bp ** 2 * pump.f_cp
+    v_g = option.v_g_sw if option.v_g_sw is not None else v_in
+    n_switches = len(circ.switches)
+    p_gate = n_switches * option.q_g_sw * v_g * pump.f_cp
+    d_high = float(sched.dt[sched.sw_high].sum() / t_a)
+    n_edges = int(np.count_nonzero(sched.sw_rise) + np.count_nonzero(sched.sw_fall))
+    p_rail_domain = float(pump.durations[PHI2] * pump.f_cp)
+    v_bus = design.bridge.v_bus
+    p_cross = 0.5 * option.c_par * v_bus ** 2 * (2.0 * pump.f_cp * d_high + n_edges / t_a * p_rail_domain)
+    p_cross_worst = option.c_par * v_bus ** 2 * pump.f_cp + 0.5 * option.c_par * v_bus ** 2 * n_edges / t_a
+    p_drawn_aux = p_in + p_bp + p_gate
+    p_drawn = p_drawn_aux + p_cross
+    losses = {"conduction_switches": p_sw, "conduction_esr": p_esr, "bottom_plate": p_bp,
+              "pump_gate_drive": p_gate, "domain_crossing": p_cross}
+    efficiency = p_delivered / p_drawn if p_drawn > 0 else None
+
+    # --- start-up from 0 V by pump cycles (HS pulses withheld, only I_Q drawn)
+    st = _startup(net, pump, v_in, design, from_aux=option.v_in is None)
+
+    # --- capacitor stress (steady state and start-up)
+    warnings = []
+    checks = []
+    caps = []
+    for name, xw, i_rms, i_pk, cap, c_eff, extra_rip in (
+            ("c_fly", xfly_w, i_fly_rms, float(i_peak_ss[4]), option.c_fly, pump.c_fly, 0.0),
+            ("c_out", xout_w, i_out_rms, float(i_peak_ss[5]), option.c_out, pump.c_out, y_max - y_min)):
+        v_hi = max(float(xw.max()) + (y_max if name == "c_out" else 0.0), st["x_max"][name])
+        ripple = float(xw.max() - xw.min()) + extra_rip
+        i_pk = max(i_pk, st["i_cap_peak"][name])
+        if name == "c_out" and n_on > 0:
+            # the gate pulse, taken as a rectangle of width t_edge (estimate)
+            t_e = design.bridge.t_edge
+            f_p = n_on / t_a
+            i_rms = math.sqrt(i_rms ** 2 + max(q_pulse ** 2 * f_p / t_e - (q_pulse * f_p) ** 2, 0.0))
+            i_pk = max(i_pk, q_pulse / t_e)
+        caps.append(CapacitorStress(name=name, c_eff=c_eff, v_max=v_hi, v_rating=cap.v_rating,
+                                    ripple=ripple, i_rms=i_rms, i_peak=i_pk))
+        if cap.v_rating is not None:
+            lim = cap.v_rating * design.checks.cap_derating
+            checks.append(Check(f"{name} voltage", v_hi, lim, "max", "V",
+                                f"{name} voltage stays within its derated rating"))
+
+    # --- duty and load limits
+    req = required_rail(design)
+    lim = _load_limits(design, pump, circ, r_out, v_out_w, v_mean, i0, g_load, q_pulse, n_on, t_a, req)
+    feasible_duty = v_min >= req
+    duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
+                      t_ls_min=None,
+                      topology={"f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
+                                "note": "a pump needs no refresh: any HS duty 0..100 % while the load holds"})
+
+    checks.insert(0, Check("rail minimum", v_min, req, "min", "V",
+                           "rail minimum stays above max(UVLO off, V_GS needed) + margin"))
+    checks.append(Check("rail maximum vs V_BS max", v_max, design.driver.v_bs_max, "max", "V",
+                         "rail stays below the driver's V_BS absolute maximum"))
+    checks.append(Check("rail maximum vs V_GS max", v_max, design.gate.v_gs_max, "max", "V",
+                        "rail stays below the gate's V_GS rating"))
+    checks.append(Check("start-up reaches UVLO on", st["v_final"], design.driver.uvlo_on, "min", "V",
+                        "the pump alone brings the rail up to the UVLO rising threshold"))
+    if v_ideal > design.gate.v_gs_max:
+        warnings.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the gate's "
+                        f"V_GS rating of {design.gate.v_gs_max:g} V")
+    if v_ideal > design.driver.v_bs_max:
+        warnings.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the driver's "
+                        f"V_BS maximum of {design.driver.v_bs_max:g} V")
+    feasible, verdict = verdict_from(checks, warnings)
+
+    extra = {
+        "ratio": circ.ratio, "m": circ.m, "m_engine": m_engine, "v_in": v_in, "v_ideal": v_ideal,
+        "c_fly_eff": pump.c_fly, "c_out_eff": pump.c_out, "phase_duty": duty_cp,
+        "r_ssl": rs, "r_fsl": rf, "r_out_coth": r_out_exact(rs, rf), "r_out_sqrt": r_out_sqrt(rs, rf),
+        "i_load_avg": i0 + v_mean * g_load, "i_load_const": i0, "g_load": g_load,
+        "p_i2r": (i0 + v_mean * g_load) ** 2 * r_out,
+        "p_load_engine": p_load_engine, "energy_residual": p_in - p_sw - p_esr - p_load_engine,
+        "q_pulse": q_pulse, "pulse_dip": -y_min, "pulse_rise": y_max,
+        "v_pump_min": float(v_out_w.min()), "v_pump_max": float(v_out_w.max()),
+        "v_block_switch": v_bus + v_in,
+        "domain_crossing_worst": p_cross_worst, "sw_high_fraction": d_high,
+        "f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
+        "switch_i_rms": [float(v) for v in i_sw_rms], "switch_i_peak": [float(v) for v in i_peak_ss[:4]],
+        "startup_i_peak_switch": st["i_peak"],
+        "treatment_async": "superposition: pump steady state under the average load plus the gate-charge "
+                           "pulse train through R_out and C_out, extremes aligned (worst-case phase)",
+    }
+    return OptionResult(
+        label=option.label, kind="charge_pump", feasible=feasible, verdict=verdict, warnings=tuple(warnings),
+        v_rail=RailStats(min=v_min, max=v_max, mean=v_mean), efficiency=efficiency,
+        p_delivered=p_delivered, p_drawn=p_drawn, startup=st["startup"], duty=duty, r_out=r_out,
+        capacitors=tuple(caps), p_drawn_aux=p_drawn_aux, p_drawn_bus=p_cross, losses=losses,
+        checks=tuple(checks), extra=extra, t=t_w, v=v_out_w)
+
+
+def _startup(net: Network, pump: _Pump, v_in: float, design: Design, from_aux: bool) -> dict:
+    """Start-up from dead capacitors, by pump cycles, to the UVLO rising threshold.
+
+    Before the rail reaches UVLO the HS pulses are withheld, so only the
+    driver's quiescent current loads the rail (the R_GS share needs the HS on).
+    The rail is read at the start and the end of every phase (ESR steps
+    included); the crossing phase is then sampled finely.
+    """
+    u = np.array([v_in, design.driver.i_q])
+    thr = design.driver.uvlo_on
+    T = float(pump.durations.sum())
+    sol_ss = periodic_steady_state(net, pump.durations, u)
+    v_final = float(sol_ss.mean(["v(out)"])[0])
+    names = ["v(out)", "x(c_fly)", "x(c_out)"] + list(SWITCHES) + ["i(c_fly)", "i(c_out)", "i(v_in)"]
+    k_cross = None
+    t_cross = None
+    chunk = 256
+    k0 = 0
+    x_max = {"c_fly": 0.0, "c_out": 0.0}
+    i_peak = 0.0
+    i_cap = {"c_fly": 0.0, "c_out": 0.0}
+    v_trace = []
+    first = None
+    reach = max(float(sol_ss.samples(["v(out)"], n=8)[1].max()), v_final) >= thr
+    limit = 2_000_000
+    while k0 < limit:
+        ks = np.arange(k0, k0 + chunk)
+        s = startup(net, pump.durations, u, cycles=ks)
+        a = s.at_phase_starts(names)
+        b = s.at_phase_ends(names)
+        if first is None:
+            first = s
+        x_max["c_fly"] = max(x_max["c_fly"], float(np.abs(b[1]).max()))
+        x_max["c_out"] = max(x_max["c_out"], float(b[2].max()))
+        i_peak = max(i_peak, float(np.abs(a[3:7]).max()), float(np.abs(b[3:7]).max()))
+        i_cap["c_fly"] = max(i_cap["c_fly"], float(np.abs(a[7]).max()))
+        i_cap["c_out"] = max(i_cap["c_out"], float(np.abs(a[8]).max()))
+        v_trace.append(b[0][:, -1])
+        if reach and k_cross is None:
+            both = np.stack([a[0], b[0]], axis=-1)  # (k, P, 2)
+            hit = np.argwhere(both >= thr)
+            if hit.size:
+                kk, p, e = hit[0]
+                k_cross = int(ks[kk])
+                t_phase0 = k_cross * T + float(pump.durations[:p].sum())
+                if e == 0:
+                    t_cross = t_phase0
+                else:  # sample the crossing phase
+                    t_cross = t_phase0 + _refine(net, s.z_start[kk, p], p, float(pump.durations[p]), thr)
+        if k_cross is not None or not reach:
+            if k0 + chunk >= 64:
+                break
+        k0 += chunk
+        chunk = min(chunk * 4, 65536)
+    v_tr = np.concatenate(v_trace)
+    n_keep = min(v_tr.size, max(2 * (k_cross or 0), 200))
+    step = max(1, n_keep // 2000)
+    kk = np.arange(0, n_keep, step)
+    t_tr = (kk + 1) * T
+    q_first = -first.phase_integrals(["i(v_in)"])[0, 0].sum()
+    v_dd_dip = None
+    if from_aux:  # the first cycle's charge taken from C_DD before the aux regulator responds
+        v_dd_dip = float(max(q_first, 0.0) / design.aux.c_dd)
+    stp = Startup(t_uvlo=t_cross, cycles_uvlo=None if k_cross is None else k_cross + 1, i_peak=i_peak,
+                  v_dd_dip=v_dd_dip, t=t_tr, v=v_tr[kk])
+    return {"startup": stp, "x_max": x_max, "i_peak": i_peak, "i_cap_peak": i_cap, "v_final": v_final}
+
+
+def _refine(net: Network, z: np.ndarray, p: int, dur: float, thr: float, n: int = 64) -> float:
+    """Time within phase p at which v(out) first reaches thr (sampled, linear interpolation)."""
+    from scipy.linalg import expm
+
+    sysp = net.systems[p]
+    Es = expm(sysp.F * (dur / n))
+    k = sysp.K[net.probes["v(out)"]]
+    v_prev = float(k @ z)
+    for j in range(1, n + 1):
+        z = Es @ z
+        v = float(k @ z)
+        if v >= thr:
+            frac = (thr - v_prev) / (v - v_prev) if v != v_prev else 1.0
+            return (j - 1 + frac) * dur / n
+        v_prev = v
+    return dur
+
+
+def _load_limits(design, pump, circ, r_out, v_out_w, v_mean, i0, g_load, q_pulse, n_on, t_a, req) -> dict:
+    """Highest f_sw and highest Q_G at which the rail minimum stays at the requirement.
+
+    Averaged model (:func:`rail_from_r_out`) with the pump ripple below the mean
+    scaled with the load current (it is proportional to it in the linear
+    network) and the exact pulse-train dip (:func:`pulse_train_extremes`). The
+    schedule's shape (duty, turn-ons per period) is kept as f_sw scales.
+    """
+    i_tot = i0 + v_mean * g_load
+    ripple_per_amp = (v_mean - float(v_out_w.min())) / i_tot if i_tot > 0 else 0.0
+    r_eq = 1.0 / g_load if g_load > 0 else None
+    r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
+    i_q = design.driver.i_q
+
+    def v_min(q, scale):
+        """Rail minimum with charge q per turn-on and the bridge frequency scaled by `scale`."""
+        ia = i_q + n_on * q * scale / t_a
+        vm = float(rail_from_r_out(pump.v_in, r_out, ia, ratio=circ.ratio, g_load=g_load))
+        it = ia + vm * g_load
+        dip = 0.0
+        if n_on > 0 and q > 0 and scale == 0:
+            dip = q / pump.c_out  # pulses far apart: each one a full step q/C_out
+        elif n_on > 0 and q > 0:
+            dip = -pulse_train_extremes(q, pump.c_out, r_th, t_a / (n_on * scale))[0]
+        return vm - ripple_per_amp * it - dip
+
+    def solve(fn):
+        if fn(0.0) < 0:
+            return 0.0
+        hi = 1.0
+        while fn(hi) >= 0:
+            hi *= 4.0
+            if hi > 1e12:
+                return None
+        return brentq(fn, 0.0, hi, xtol=1e-9 * hi, rtol=1e-10)
+
+    if n_on == 0:
+        return {"f_sw_max": None, "q_g_max": None}
+    s = solve(lambda sc: v_min(q_pulse, sc) - req)
+    f_sw_max = None if s is None else s * design.bridge.f_sw
+    qm = solve(lambda x: v_min(design.driver.q_ls + x * design.gate.q_g, 1.0) - req)
+    q_g_max = None if qm is None else qm * design.gate.q_g
+    return {"f_sw_max": f_sw_max, "q_g_max": q_g_max}
