@@ -9,7 +9,7 @@ SW edge. The laws used are the capacitor's constitutive relations
     Q = C·V                                                  (2)
 
 (any circuit-theory textbook, e.g. Alexander & Sadiku, *Fundamentals of
-Electric Circuits*, 6th ed., 2017, §6.2, eqs. 6.1 and 6.4), and, for a full
+Electric Circuits*, 6th ed., 2017, §6.2), and, for a full
 swing 0 → V → 0 repeated at f, the energy drawn from the source per cycle
 Q·V = C·V², so
 
@@ -17,7 +17,7 @@ Q·V = C·V², so
 
 (half of it is dissipated while charging, half while discharging; the same
 eq. gives the switching loss of any node capacitance, Erickson & Maksimović,
-*Fundamentals of Power Electronics*, 3rd ed., 2020, §4.3.3).
+*Fundamentals of Power Electronics*, 3rd ed., 2020, ch. 4, switching loss).
 
 All functions are pure and broadcast over numpy arrays (the result is a numpy
 float or array; scalar inputs give a scalar-shaped result).

@@ -191,7 +191,7 @@ class RailSolution:
         t0 = np.concatenate(([0.0], np.cumsum(dt)[:-1]))
         u = np.linspace(0.0, 1.0, points)
         s = dt[:, None] * u[None, :]
-        with np.errstate(divide="ignore", invalid="ignore"):
+        with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
             decay = np.where(self.tau[:, None] > 0, np.exp(-s / np.where(self.tau > 0, self.tau, 1.0)[:, None]),
                              (s == 0).astype(float))
         seg = self.v_inf[:, None] + (self.v_after - self.v_inf)[:, None] * decay
@@ -232,7 +232,7 @@ def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: flo
     One period is a composition of affine maps; the steady state is its fixed
     point V_0 = B/(1 − A) with 1 − A = −expm1(−Σ dt/tau) (first-order linear
     circuit response, e.g. Alexander & Sadiku, *Fundamentals of Electric
-    Circuits*, 6th ed., 2017, §7.6).
+    Circuits*, 6th ed., 2017, ch. 7, first-order circuits).
 
     Parameters
     ----------
@@ -261,11 +261,12 @@ def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: flo
     hs_on = np.asarray(hs_on, dtype=bool)
     jump = np.where(np.asarray(hs_turn_on, dtype=bool), q_pulse / c_out, 0.0)
     g = hs_on / r_gs if r_gs is not None else np.zeros(dt.shape)
-    if r_out > 0.0:
-        big_g = 1.0 / r_out
-        tau = c_out / (big_g + g)
-        v_inf = (v_src * big_g - i_q) / (big_g + g)
-        x = dt / tau
+    # written without 1/r_out so that a vanishing r_out tends smoothly to the ideal source
+    tau = c_out * r_out / (1.0 + g * r_out)
+    if r_out > 0.0 and np.all(tau > 0.0):
+        v_inf = (v_src - i_q * r_out) / (1.0 + g * r_out)
+        with np.errstate(over="ignore"):
+            x = dt / tau                              # may be inf: the interval forgets its start
         alpha = np.exp(-x)
         one_minus_a = -math.expm1(-float(x.sum()))
     else:  # ideal source: recovers at once to v_src
@@ -283,11 +284,12 @@ def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: flo
     # time average: ∫V = V_inf·dt + (V_after − V_inf)·tau·(1 − alpha)
     area = v_inf * dt + (v_after - v_inf) * tau * (1.0 - alpha)
     mean = float(area.sum() / period)
-    if r_out > 0.0:
-        i0 = c_out * (v_inf - v_after) / tau          # capacitor current at the interval start
-        e2 = i0 * i0 * tau / 2.0 * (1.0 - alpha * alpha)  # ∫ i² over the interval
-        i_rms = math.sqrt(float(e2.sum()) / period)
-        i_pk = float(np.abs(i0).max())
+    if r_out > 0.0 and np.all(tau > 0.0):
+        dq = c_out * (v_inf - v_after)                # charge the interval would move [C]
+        with np.errstate(over="ignore"):              # r_out → 0 sends the current toward infinity
+            e2 = dq * dq * (1.0 - alpha * alpha) / (2.0 * tau)  # ∫ i² dt, i = (dq/tau)·exp(−t/tau)
+            i_rms = math.sqrt(float(e2.sum()) / period)
+            i_pk = float(np.abs(dq / tau).max())
     else:
         i_rms, i_pk = 0.0, 0.0
     return RailSolution(v_start=v_start, v_after=v_after, v_end=v_end, v_inf=v_inf, tau=tau,
@@ -303,7 +305,7 @@ def startup_voltage(t, *, v_final: float, t_start: float, t_ramp: float, tau: fl
     The module's source is 0 until ``t_start``, then rises linearly to
     ``v_final`` over ``t_ramp``; the capacitor follows through a first-order
     lag tau = r_out·C_out. With s = t − t_start and slope m = v_final/t_ramp
-    (response of an RC low-pass to a ramp, Alexander & Sadiku 2017, §7.6):
+    (response of an RC low-pass to a ramp, Alexander & Sadiku 2017, ch. 7, first-order circuits):
 
         0 ≤ s ≤ t_ramp:  V = m·(s − tau·(1 − exp(−s/tau)))
         s > t_ramp:      V = v_final − (v_final − V(t_ramp))·exp(−(s − t_ramp)/tau)
@@ -322,14 +324,20 @@ def startup_voltage(t, *, v_final: float, t_start: float, t_ramp: float, tau: fl
     s = np.asarray(t, dtype=float) - t_start
     sr = np.clip(s, 0.0, t_ramp)
     if tau > 0.0:
+        return _startup_lagged(s, sr, v_final, t_ramp, tau)
+    v = v_final * (sr / t_ramp if t_ramp > 0.0 else np.ones(s.shape))
+    out = np.where(s > 0.0, v, 0.0)
+    return float(out) if out.ndim == 0 else out
+
+
+def _startup_lagged(s, sr, v_final, t_ramp, tau):
+    with np.errstate(over="ignore"):  # s/tau → inf for a vanishing lag: exp(−inf) = 0
         if t_ramp > 0.0:
             v_ramp = v_final / t_ramp * (sr + tau * np.expm1(-sr / tau))
         else:
             v_ramp = np.zeros(s.shape)
         after = np.maximum(s - t_ramp, 0.0)
         v = v_final - (v_final - v_ramp) * np.exp(-after / tau)
-    else:
-        v = v_final * (sr / t_ramp if t_ramp > 0.0 else np.ones(s.shape))
     out = np.where(s > 0.0, v, 0.0)
     return float(out) if out.ndim == 0 else out
 
@@ -502,6 +510,9 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     checks = [
         Check("rail_min", rail.min, need, "min", "V",
               f"rail minimum stays at or above max(UVLO off, V_GS needed) + margin = {need:.4g} V"),
+        Check("startup_uvlo", v_pre, drv.uvlo_on, "min", "V",
+              f"the module's output before the PWM starts reaches the UVLO rising threshold "
+              f"{drv.uvlo_on:.4g} V (else the driver never releases its pulses)"),
         Check("rail_max_v_gs", v_max, gate.v_gs_max, "max", "V",
               f"rail maximum stays at or below the gate rating v_gs_max = {gate.v_gs_max:.4g} V"),
         Check("rail_max_v_bs", v_max, drv.v_bs_max, "max", "V",
