@@ -67,7 +67,8 @@ def test_cmti_required_and_ratio():
 
 
 def test_bus_power_equals_c_v2_f_for_a_full_swing(demo):
-    # one rising edge 0 → V_bus per period: bus energy per period Q·V_bus = C·V_bus² (Q = C·V, Alexander & Sadiku 2017, §6.2)
+    # one rising edge 0 → V_bus per period: bus energy per period Q·V_bus = C·V_bus²
+    # (Q = C·V, Alexander & Sadiku 2017, §6.2)
     d = replace_field(demo, "bridge.v_undershoot", 0.0)
     s = period_schedule(d)
     swings = cm.rising_edge_swings(s)

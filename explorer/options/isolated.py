@@ -445,8 +445,9 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
 
     # ---- output capacitor and rail -----------------------------------------------------------
     cap = option.c_out
-    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric"),
-                              v_applied=option.v_out, v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
+    diel = parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric")
+    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=diel, v_applied=option.v_out,
+                              v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
     sched = period_schedule(design)
     q_on = charge_per_turn_on(design)
     rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=option.v_out, r_out=option.r_out,
