@@ -48,7 +48,7 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 from functools import cached_property
-from typing import Sequence, Union
+from typing import Union
 
 import numpy as np
 from scipy.linalg import expm
@@ -56,7 +56,8 @@ from scipy.linalg import expm
 from .errors import DesignError
 
 __all__ = ["Cap", "Res", "VSrc", "ISrc", "Network", "PhaseSystem", "PeriodicSolution",
-           "StartupSolution", "periodic_steady_state", "startup", "cycle_map"]
+           "StartupSolution", "periodic_steady_state", "phase_square_integrals", "startup", "cycle_map",
+           "to_spice", "spice_t0"]
 
 GROUND = "0"
 
@@ -453,17 +454,7 @@ class PeriodicSolution:
 
     def square_integral(self, names) -> np.ndarray:
         """∫ y² dt over one cycle for each probe (exact, Van Loan 1978), shape (..., m)."""
-        K = self._K(names)
-        nz = self.z0.shape[-1]
-        F = np.stack([s.F for s in self.net.systems])
-        d = self.durations
-        H = np.zeros(d.shape + (2 * nz, 2 * nz))
-        H[..., :nz, :nz] = F * d[..., None, None]
-        H[..., :nz, nz:] = np.einsum("...i,...j->...ij", self.z0, self.z0) * d[..., None, None]
-        H[..., nz:, nz:] = -np.swapaxes(F, -1, -2) * d[..., None, None]
-        B = _expm(H)
-        G = B[..., :nz, nz:] @ np.swapaxes(B[..., :nz, :nz], -1, -2)  # ∫ z zᵀ ds per phase
-        return np.einsum("pmi,...pij,pmj->...m", K, G, K)
+        return phase_square_integrals(self.net, self.durations, self.z0, names).sum(axis=-2)
 
     def rms(self, names) -> np.ndarray:
         """RMS of each probe over the cycle."""
@@ -499,6 +490,37 @@ class PeriodicSolution:
         """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""
         zend = np.einsum("...pij,...pj->...pi", self.E, self.z0)
         return np.einsum("pmj,...pj->...mp", self._K(names), zend)
+
+
+def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarray:
+    """∫ y² dt over each phase from given phase-start states (exact, Van Loan 1978).
+
+    Parameters
+    ----------
+    durations : array_like (..., P) [s]
+    z_start : array_like (..., P, n_z)
+        Augmented state [x; u] at the start of each phase.
+    names : list of str
+        Probes.
+
+    Returns
+    -------
+    ndarray (..., P, m)
+        For a current probe times a resistance, the energy dissipated [J].
+    """
+    rows = net.probe_index(names)
+    K = np.stack([s.K[rows] for s in net.systems])
+    z0 = np.asarray(z_start, float)
+    nz = z0.shape[-1]
+    F = np.stack([s.F for s in net.systems])
+    d = np.asarray(durations, float)
+    H = np.zeros(d.shape + (2 * nz, 2 * nz))
+    H[..., :nz, :nz] = F * d[..., None, None]
+    H[..., :nz, nz:] = np.einsum("...i,...j->...ij", z0, z0) * d[..., None, None]
+    H[..., nz:, nz:] = -np.swapaxes(F, -1, -2) * d[..., None, None]
+    B = _expm(H)
+    G = B[..., :nz, nz:] @ np.swapaxes(B[..., :nz, :nz], -1, -2)  # ∫ z zᵀ ds per phase
+    return np.einsum("pmi,...pij,pmj->...pm", K, G, K)
 
 
 def periodic_steady_state(net: Network, durations, u) -> PeriodicSolution:
@@ -625,11 +647,6 @@ def startup(net: Network, durations, u, x0=None, *, cycles) -> StartupSolution:
     return StartupSolution(net=net, durations=np.asarray(durations, float), z_start=np.stack(zs, axis=1), E=E, S=S)
 
 
-def element_names(elements: Sequence, kind) -> list:
-    """Names of the elements of one class (helper for probes)."""
-    return [e.name for e in elements if isinstance(e, kind)]
-
-
 # --------------------------------------------------------------------------- SPICE
 
 def to_spice(net: Network, durations, u, *, cycles: int, x0=None, title: str = "switched-capacitor network",
@@ -637,10 +654,12 @@ def to_spice(net: Network, durations, u, *, cycles: int, x0=None, title: str = "
     """A SPICE netlist of the same network for an independent transient check (ngspice).
 
     Capacitors become C (with ``ic=``) plus a series R for the ESR; switches
-    become voltage-controlled switches (``sw`` model, ron = r, roff = 1e12 Ω)
+    become voltage-controlled switches (``sw`` model, ron = r, roff = 1e6 Ω, the largest value with
+    which ngspice 39 does not find the first step singular while a flying capacitor floats;
+    it leaks V/1e6 through each open switch)
     driven by one pulse source per phase, so a switch closed in phase p
     conducts exactly during that phase; sources and loads become DC sources.
-    Phase 0 of the first cycle starts at t = ``t0`` = 1e-4 of the shortest
+    Phase 0 of the first cycle starts at t = ``t0`` = 1e-2 of the shortest
     phase after the start (switches are open before), the time the control
     pulses need to rise; :func:`spice_t0` returns it. The text ends with a
     ``.tran … uic`` line and no ``.end`` (as :func:`explorer.spice.run_transient`
@@ -684,7 +703,7 @@ def to_spice(net: Network, durations, u, *, cycles: int, x0=None, title: str = "
             if e.closed is None:
                 lines.append(f"R{e.name} {e.a} {e.b} {n(e.r)}")
                 continue
-            lines.append(f".model SWM_{e.name} sw(vt=0.5 vh=0 ron={n(e.r)} roff=1e12)")
+            lines.append(f".model SWM_{e.name} sw(vt=0.5 vh=0 ron={n(e.r)} roff=1e6)")
             for p in e.closed:
                 if d[p] > 0:
                     lines.append(f"S{e.name}_{p} {e.a} {e.b} ph{p} 0 SWM_{e.name}")
@@ -701,4 +720,4 @@ def to_spice(net: Network, durations, u, *, cycles: int, x0=None, title: str = "
 def spice_t0(durations) -> float:
     """Start of phase 0 of the first cycle in a :func:`to_spice` netlist [s]."""
     d = np.asarray(durations, float)
-    return 1e-4 * float(d[d > 0].min())
+    return 1e-2 * float(d[d > 0].min())
