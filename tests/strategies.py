@@ -1,0 +1,96 @@
+"""Hypothesis strategies: random design files of every topology and option kind.
+
+The generated designs are meant to be valid by construction over wide but legal ranges
+(1 kHz–5 MHz switching, 1 nF–1 mF capacitors, time constants many decades apart); the few
+that still break a consistency rule must be refused with a DesignError, never anything else.
+"""
+
+from hypothesis import strategies as st
+
+
+def logu(lo, hi):
+    """Log-uniform float in [lo, hi]."""
+    import math
+    return st.floats(math.log10(lo), math.log10(hi)).map(lambda e: float(10 ** e))
+
+
+@st.composite
+def bridges(draw):
+    topo = draw(st.sampled_from(["sync_buck", "sync_boost", "half_bridge", "full_bridge", "three_phase",
+                                 "line_leg"]))
+    v_bus = draw(logu(5, 1000))
+    f_sw = draw(logu(1e3, 5e6))
+    T = 1 / f_sw
+    b = {"topology": topo, "v_bus": v_bus, "f_sw": f_sw, "dead_time": draw(st.floats(0, 0.05)) * T,
+         "t_edge": draw(st.floats(0.001, 0.05)) * T, "soft_start": draw(st.sampled_from([0, 10 * T, 200 * T])),
+         "precharge": draw(st.sampled_from([0, 0.2 * T])), "v_undershoot": draw(st.sampled_from([0, 0.7, 2])),
+         "startup_cycles": draw(st.sampled_from([50, 500, 2000]))}
+    x = draw(st.floats(0.02, 0.98))
+    if topo == "sync_buck":
+        b["v_out"] = x * v_bus
+        if draw(st.booleans()):
+            b["mode"] = "light_load"
+            b["ls_pulse"] = max(1e-12, (1 - x) * T * draw(st.floats(0.05, 0.5)) - 0.1 * T)
+            b["skip_cycles"] = draw(st.sampled_from([0, 1, 10]))
+    elif topo == "sync_boost":
+        b["v_in"] = x * v_bus
+    elif topo in ("half_bridge", "full_bridge"):
+        b["duty"] = draw(st.sampled_from([x, 1.0, 0.5]))
+    elif topo == "three_phase":
+        b["m"] = draw(st.floats(0, 1.25))
+        b["f_o"] = draw(st.sampled_from([0.0, f_sw / 400, f_sw / 37, 50.0 if f_sw > 200 else 0.0]))
+        b["third_harmonic"] = draw(st.booleans())
+        b["phi"] = draw(st.floats(-1.5, 1.5))
+    else:
+        b["f_line"] = draw(st.sampled_from([50.0, 60.0, 400.0])) if f_sw > 1000 else f_sw / 10
+    return b
+
+
+def capacitor(draw, lo=1e-9, hi=1e-3, v=25):
+    return {"c": draw(logu(lo, hi)), "esr": draw(logu(1e-4, 1)), "c_tol": draw(st.sampled_from([0, 0.1, 0.2])),
+            "dielectric": draw(st.sampled_from(["X7R", "X5R", "C0G", "ideal", "Y5V"])),
+            "v_rating": draw(st.sampled_from([None, v, 2 * v]))}
+
+
+@st.composite
+def options(draw, i):
+    kind = draw(st.sampled_from(["bootstrap", "charge_pump", "isolated"]))
+    if kind == "bootstrap":
+        cap = capacitor(draw)
+        if draw(st.booleans()):
+            diode = {"v_f": draw(st.floats(0.2, 1.2)), "r_d": draw(logu(1e-3, 10))}
+        else:
+            diode = {"i_s": draw(logu(1e-15, 1e-6)), "n": draw(st.floats(1, 2)), "r_s": draw(logu(1e-3, 10))}
+        return {"label": f"opt{i}", "kind": kind, **cap, "r": draw(logu(1e-2, 1e3)), "diode": diode,
+                "q_rr": draw(st.sampled_from([0, 1e-9, 20e-9])), "c_j": draw(st.sampled_from([0, 10e-12])),
+                "i_leak": draw(st.sampled_from([0, 1e-6, 1e-3])), "v_rrm": draw(st.sampled_from([None, 100, 1200]))}
+    if kind == "charge_pump":
+        return {"label": f"opt{i}", "kind": kind, "ratio": draw(st.sampled_from(["1:1", "1:2", "2:1"])),
+                "f_cp": draw(logu(1e3, 5e6)), "c_fly": capacitor(draw), "c_out": capacitor(draw),
+                "r_on": draw(logu(1e-2, 100)), "v_in": draw(st.sampled_from([None, 5.0, 24.0])),
+                "c_par": draw(st.sampled_from([0, 10e-12])), "alpha_bp": draw(st.sampled_from([0, 0.02])),
+                "q_g_sw": draw(st.sampled_from([0, 1e-9]))}
+    p_rated = draw(logu(0.05, 10))
+    eta = draw(st.floats(0.3, 0.95))
+    return {"label": f"opt{i}", "kind": kind, "v_out": draw(st.floats(8, 20)), "p_rated": p_rated,
+            "p_no_load": p_rated * (1 / eta - 1) * draw(st.floats(0, 0.9)), "eta_full": eta,
+            "c_out": capacitor(draw), "c_iso": draw(logu(1e-13, 1e-10)), "v_iso": draw(logu(10, 1e4)),
+            "cmti": draw(logu(1e9, 1e12)), "r_out": draw(st.sampled_from([0, 0.5, 5])),
+            "t_start": draw(st.sampled_from([0, 1e-4])), "t_ramp": draw(st.sampled_from([0, 1e-3]))}
+
+
+@st.composite
+def designs(draw, max_options=3):
+    uvlo_on = draw(st.floats(4, 12))
+    n = draw(st.integers(1, max_options))
+    return {
+        "format": "explorer-design", "version": 1, "title": "fuzz (generated)",
+        "bridge": draw(bridges()),
+        "gate": {"q_g": draw(logu(1e-10, 1e-6)), "v_gs_max": 20.0, "v_gs_on_min": draw(st.floats(3, 10)),
+                 "r_gs": draw(st.sampled_from([None, 10e3, 100e3]))},
+        "driver": {"i_q": draw(logu(1e-7, 1e-2)), "q_ls": draw(st.sampled_from([0, 1e-9])), "uvlo_on": uvlo_on,
+                   "uvlo_off": uvlo_on * draw(st.floats(0.7, 0.98)), "v_bs_max": 22.0,
+                   "t_on_min": draw(st.sampled_from([0, 50e-9]))},
+        "aux": {"v_dd": draw(st.floats(5, 18)), "c_dd": draw(logu(1e-7, 1e-3)), "v_dd_tol": 0.05},
+        "options": [draw(options(i)) for i in range(n)],
+    }
