@@ -514,12 +514,21 @@ def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarra
     nz = z0.shape[-1]
     F = np.stack([s.F for s in net.systems])
     d = np.asarray(durations, float)
+    # Van Loan's block exponential on a short step h = t/2^k (its −Fᵀ block grows as e^{|F|h},
+    # so h is kept where that is harmless), then doubling: G(2h) = G(h) + E(h)·G(h)·E(h)ᵀ.
+    norm = np.abs(F).sum(axis=-1).max(axis=-1)  # (P,) row-sum norm
+    k = int(max(0, np.ceil(np.log2(max(float((norm * d).max(initial=0.0)), 1e-300) / 0.25))))
+    h = d / 2.0 ** k
     H = np.zeros(d.shape + (2 * nz, 2 * nz))
-    H[..., :nz, :nz] = F * d[..., None, None]
-    H[..., :nz, nz:] = np.einsum("...i,...j->...ij", z0, z0) * d[..., None, None]
-    H[..., nz:, nz:] = -np.swapaxes(F, -1, -2) * d[..., None, None]
+    H[..., :nz, :nz] = F * h[..., None, None]
+    H[..., :nz, nz:] = np.einsum("...i,...j->...ij", z0, z0) * h[..., None, None]
+    H[..., nz:, nz:] = -np.swapaxes(F, -1, -2) * h[..., None, None]
     B = _expm(H)
-    G = B[..., :nz, nz:] @ np.swapaxes(B[..., :nz, :nz], -1, -2)  # ∫ z zᵀ ds per phase
+    E = B[..., :nz, :nz]
+    G = B[..., :nz, nz:] @ np.swapaxes(E, -1, -2)  # ∫_0^h e^{Fs} z zᵀ e^{Fᵀs} ds
+    for _ in range(k):
+        G = G + E @ G @ np.swapaxes(E, -1, -2)
+        E = E @ E
     return np.einsum("pmi,...pij,pmj->...pm", K, G, K)
 
 
