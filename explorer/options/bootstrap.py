@@ -1,0 +1,901 @@
+"""Bootstrap floating supply: V_DD → R → diode → C_boot between V_B and V_S.
+
+While the switch node (SW) is low the capacitor charges through the resistor
+and the diode toward ``V_DD − V_F − v_sw``; the diode cuts off when the
+capacitor reaches that level (handled exactly, also after a negative SW
+undershoot has lifted the rail above it). While SW is high the capacitor
+feeds the high-side driver: Q_G + Q_LS at each HS turn-on, the driver's
+quiescent current and the diode's reverse leakage continuously, V/R_GS while
+the HS is on, the diode's recovery charge at each SW rising edge and the
+junction-capacitance charge C_j·Δv_sw at every SW level change (it returns at
+the falling edge, so it costs energy but no net charge).
+
+The exact per-interval maps and their composition live in
+:mod:`explorer.bootstrap_engine`; this module turns a design and an option
+into intervals and derives every figure of :class:`~explorer.results.OptionResult`.
+
+Public functions
+----------------
+evaluate_option(design, option, corner="nominal")
+    The whole result (steady state, start-up, duty limits, stress, power, checks).
+bootstrap_circuit(design, option, corner="nominal")
+    The option's loop parameters at a corner (effective C, resistances, diode).
+schedule_loop(circuit, dt, v_sw, hs_on, ...)
+    The :class:`~explorer.bootstrap_engine.Loop` of any interval arrays.
+steady_state(design, option, corner="nominal")
+    Periodic orbit over :func:`~explorer.schedule.period_schedule`.
+startup(design, option, corner="nominal")
+    Start-up from 0 V with HS pulses withheld until UVLO-on.
+rail_min_map(design, option, f_sw, duty, corner="nominal")
+    Vectorised steady-state rail minimum over a grid of f_sw × HS duty
+    (one call of :func:`explorer.bootstrap_engine.steady_rail`; more than 10⁶
+    points per second). Its values equal ``evaluate_option``'s rail minimum to
+    1e-12 relative at the operating point.
+spice_netlist(design, option, ...)
+    The start-up circuit as an ngspice netlist written from the model's own parameters.
+
+Assumptions (each stated where it is used): UVLO is sampled at interval
+boundaries; a withheld HS pulse leaves SW at ``v_sw_low``; the gate charge is
+drawn over the switch-node edge time ``t_edge`` for the RMS and peak current
+(common practice, no source); the diode's recovery charge is taken at every
+SW rising edge (conservative); the DC-bias factor of the capacitor is taken at
+the charge target ``V_DD − V_F − v_sw_low``.
+"""
+
+from __future__ import annotations
+
+import dataclasses
+import math
+import warnings
+from dataclasses import dataclass
+
+import numpy as np
+
+from ..bootstrap_engine import (Loop, OrbitSolution, _off_time_to, _solve_orbit, crossing_time,
+                                interval_integrals, junction_current, propagate, steady_rail,
+                                thermal_voltage)
+from ..capacitors import capacitance, parse_dielectric
+from ..design import BootstrapOption, Design, JunctionDiode
+from ..errors import DesignError, ModelValidityWarning
+from ..loads import charge_per_turn_on, required_rail
+from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
+from ..schedule import Schedule, hs_duty_per_period, period_schedule, startup_schedule
+from ..spice import spice_number
+
+__all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_state", "startup",
+           "StartupSolution", "rail_min_map", "duty_slots", "evaluate_option", "spice_netlist",
+           "DUTY_GRID"]
+
+#: Points of the first duty sweep of the duty-limit search (then refined by bisection rounds).
+DUTY_GRID = 64
+#: Common practice, no source: aux decoupling at least ten times the bootstrap capacitor.
+C_DD_RATIO = 10.0
+
+
+# --------------------------------------------------------------------------- circuit
+
+@dataclass(frozen=True)
+class BootstrapCircuit:
+    """Loop parameters of one bootstrap option at one corner (SI units).
+
+    Attributes
+    ----------
+    c : float [F]        effective capacitance (nominal × tolerance × class × DC bias)
+    r_ext : float [Ω]    resistance outside the diode: r + esr
+    r_tot : float [Ω]    whole loop resistance: r_ext + r_d (or r_s)
+    diode : str          "linear" or "junction"
+    v_f : float [V]      straight-line knee (0 for the junction)
+    i_s, n_vt : float    junction saturation current [A] and n·V_T [V]
+    v_dd : float [V]     aux rail
+    i_q : float [A]      driver quiescent current
+    i_leak : float [A]   diode reverse leakage while SW is high
+    g_gs : float [S]     1/R_GS while the HS is on (0 without a pull-down)
+    q_on : float [C]     Q_G + Q_LS at each HS turn-on
+    q_rr : float [C]     recovery charge at each SW rising edge
+    c_j : float [F]      diode junction capacitance
+    v_bus : float [V]
+    v_sw_low : float [V] SW level while the LS conducts (and during a withheld HS pulse)
+    v_bias : float [V]   DC voltage used for the DC-bias factor
+    """
+
+    c: float
+    r_ext: float
+    r_tot: float
+    diode: str
+    v_f: float
+    i_s: float
+    n_vt: float
+    v_dd: float
+    i_q: float
+    i_leak: float
+    g_gs: float
+    q_on: float
+    q_rr: float
+    c_j: float
+    v_bus: float
+    v_sw_low: float
+    v_bias: float
+
+    def drop(self, i):
+        """Diode forward voltage at current ``i`` [V] (straight line or junction)."""
+        i = np.asarray(i, dtype=float)
+        if self.diode == "linear":
+            return self.v_f + (self.r_tot - self.r_ext) * i
+        return self.n_vt * np.log1p(i / self.i_s) + (self.r_tot - self.r_ext) * i
+
+
+def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "nominal") -> BootstrapCircuit:
+    """The option's loop at a capacitance corner.
+
+    Parameters
+    ----------
+    design : Design
+    option : BootstrapOption
+    corner : {"nominal", "min", "max"}
+        Capacitance corner of :func:`explorer.capacitors.capacitance` (EIA-198
+        class envelope and tolerance).
+
+    The DC-bias factor is taken at the charge target V_DD − V_F − v_sw_low,
+    with V_F the diode drop at the driver's quiescent current.
+    """
+    d = option.diode
+    b = design.bridge
+    v_dd = design.aux.v_dd
+    r_ext = option.r + option.esr
+    if isinstance(d, JunctionDiode):
+        n_vt = d.n * thermal_voltage(design.checks.t_amb)
+        kind, v_f, i_s, r_d = "junction", 0.0, d.i_s, d.r_s
+        drop = n_vt * math.log1p(design.driver.i_q / d.i_s) + d.r_s * design.driver.i_q
+    else:
+        n_vt, kind, v_f, i_s, r_d = 0.025, "linear", d.v_f, 1e-14, d.r_d
+        drop = d.v_f
+    r_tot = r_ext + r_d
+    if r_tot <= 0.0:
+        raise DesignError(f"options[{design.options.index(option)}].r",
+                          "the loop needs some resistance: r + esr + the diode's slope resistance must be > 0",
+                          option.r)
+    v_bias = max(v_dd - b.v_sw_low - drop, 0.0)
+    c_eff = capacitance(option.c, c_tol=option.c_tol, dielectric=parse_dielectric(option.dielectric),
+                        v_applied=v_bias, v_rating=option.v_rating, dc_bias=option.dc_bias, corner=corner)
+    g_gs = 0.0 if design.gate.r_gs is None else 1.0 / design.gate.r_gs
+    return BootstrapCircuit(c=float(c_eff), r_ext=r_ext, r_tot=r_tot, diode=kind, v_f=v_f, i_s=i_s,
+                            n_vt=n_vt, v_dd=v_dd, i_q=design.driver.i_q, i_leak=option.i_leak, g_gs=g_gs,
+                            q_on=charge_per_turn_on(design), q_rr=option.q_rr, c_j=option.c_j,
+                            v_bus=b.v_bus, v_sw_low=b.v_sw_low, v_bias=v_bias)
+
+
+# --------------------------------------------------------------------------- loops
+
+def _ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool):
+    """Level and HS state of the previous interval of non-zero length (zero-length ones are skipped)."""
+    n = dt.shape[-1]
+    lev = np.array(v_sw, dtype=float, copy=True)
+    hs = np.array(hs_on, dtype=bool, copy=True)
+    zero = dt <= 0
+    if np.any(zero):
+        # zero-length intervals inherit their predecessor's state (twice round for periodic wrap)
+        for _ in range(2 if periodic else 1):
+            for k in range(n):
+                km = k - 1
+                if km < 0 and not periodic:
+                    src_l, src_h = np.full(lev.shape[:-1], v_prev0), np.full(lev.shape[:-1], hs_prev0)
+                else:
+                    src_l, src_h = lev[..., km], hs[..., km]
+                lev[..., k] = np.where(zero[..., k], src_l, lev[..., k])
+                hs[..., k] = np.where(zero[..., k], src_h, hs[..., k])
+    if periodic:
+        prev_l = np.roll(lev, 1, axis=-1)
+        prev_h = np.roll(hs, 1, axis=-1)
+    else:
+        shp = lev.shape[:-1] + (1,)
+        prev_l = np.concatenate((np.full(shp, v_prev0), lev[..., :-1]), axis=-1)
+        prev_h = np.concatenate((np.full(shp, hs_prev0), hs[..., :-1]), axis=-1)
+    return lev, prev_l, prev_h
+
+
+def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
+                  v_prev0: float | None = None, hs_prev0: bool = False) -> Loop:
+    """The interval loop of the bootstrap for interval arrays shaped ``(..., n)``.
+
+    Parameters
+    ----------
+    circ : BootstrapCircuit
+    dt : array [s]
+        Interval durations (zero-length intervals are allowed and act as nothing).
+    v_sw : array [V]
+        Switch-node level per interval.
+    hs_on : array of bool
+        HS gate on (a delivered pulse; withheld pulses must already be at ``v_sw_low``).
+    periodic : bool
+        The last interval precedes the first (steady state) or not (start-up).
+    v_prev0, hs_prev0 :
+        SW level and HS state before the first interval when not periodic
+        (default: ``v_sw_low`` and off).
+
+    Returns
+    -------
+    Loop
+        Charge removed at each interval start: Q_G + Q_LS at an HS turn-on,
+        Q_rr at a SW rising edge (through half the bus), C_j·Δv_sw at every
+        SW level change. Load: I_Q always, i_leak while SW is high, 1/R_GS
+        while the HS is on.
+    """
+    dt = np.asarray(dt, dtype=float)
+    v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
+    hs_on = np.broadcast_to(np.asarray(hs_on, dtype=bool), dt.shape)
+    v_prev0 = circ.v_sw_low if v_prev0 is None else v_prev0
+    lev, prev_l, prev_h = _ffill_levels(dt, v_sw, hs_on, periodic, v_prev0, hs_prev0)
+    live = dt > 0
+    high = lev > 0.5 * circ.v_bus
+    rise = live & high & (prev_l <= 0.5 * circ.v_bus)
+    turn_on = live & hs_on & ~prev_h
+    q = (circ.q_on * turn_on + circ.q_rr * rise + circ.c_j * (lev - prev_l))
+    i_load = circ.i_q + circ.i_leak * high
+    g_load = circ.g_gs * hs_on
+    return Loop(dt=dt, v_src=circ.v_dd - v_sw, c=circ.c, r=circ.r_tot, i_load=i_load, g_load=g_load,
+                q_step=q, v_f=circ.v_f, i_s=circ.i_s, n_vt=circ.n_vt, diode=circ.diode)
+
+
+def _schedule_arrays(s: Schedule):
+    return s.dt, s.v_sw, s.hs_on
+
+
+# --------------------------------------------------------------------------- steady state
+
+@dataclass(frozen=True)
+class SteadyState:
+    """Periodic orbit of the rail over the analysis period (see :class:`OrbitSolution`)."""
+
+    schedule: Schedule
+    loop: Loop
+    orbit: OrbitSolution
+    integrals: dict
+
+    @property
+    def t(self) -> np.ndarray:
+        return self.schedule.t_start
+
+
+def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal",
+                 circ: BootstrapCircuit | None = None) -> SteadyState:
+    """Periodic steady state over :func:`~explorer.schedule.period_schedule` (exact; see the engine)."""
+    circ = circ or bootstrap_circuit(design, option, corner)
+    s = period_schedule(design)
+    loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
+    orb = _solve_orbit(_bc(loop))
+    if not orb.converged:
+        warnings.warn("bootstrap steady state: the orbit iteration did not converge; figures are approximate",
+                      ModelValidityWarning, stacklevel=2)
+    ints = interval_integrals(orb.v_start, loop, r_ext=circ.r_ext) if np.all(np.isfinite(orb.v_start)) else {}
+    return SteadyState(s, loop, orb, ints)
+
+
+def _bc(loop: Loop) -> Loop:
+    from ..bootstrap_engine import _broadcast_loop
+    return _broadcast_loop(loop)
+
+
+# --------------------------------------------------------------------------- start-up
+
+@dataclass(frozen=True)
+class StartupSolution:
+    """Start-up trajectory at the interval boundaries.
+
+    Attributes
+    ----------
+    schedule : Schedule
+    v_pre, v_start, v_end : ndarray [V]
+        Rail before and after each interval's step, and at its end.
+    delivered : ndarray of bool
+        HS actually on in the interval (pulses withheld below UVLO are False).
+    i_start : ndarray [A]
+        Diode current at each interval start.
+    t_uvlo : float or None [s]
+    k_uvlo : int or None
+        Interval in which the rail first reaches UVLO-on.
+    segments : int
+        Pieces solved between UVLO events.
+    """
+
+    schedule: Schedule
+    v_pre: np.ndarray
+    v_start: np.ndarray
+    v_end: np.ndarray
+    delivered: np.ndarray
+    i_start: np.ndarray
+    t_uvlo: float | None
+    k_uvlo: int | None
+    segments: int
+
+
+def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
+            circ: BootstrapCircuit | None = None, n_cycles: int | None = None) -> StartupSolution:
+    """Start-up from 0 V through :func:`~explorer.schedule.startup_schedule`.
+
+    HS pulses are withheld (SW stays at ``v_sw_low``) while the driver is in
+    UVLO: from the start until the rail first reaches ``uvlo_on``, and again
+    after it falls below ``uvlo_off`` until it is back at ``uvlo_on``. UVLO is
+    sampled at interval boundaries (a pulse is delivered or withheld whole).
+
+    Between UVLO events the intervals are solved together (affine prefix scan
+    for the straight-line diode, Newton on the trajectory where cut-off
+    crossings or the junction diode make them nonlinear), in windows that
+    double in length, so the work is sequential only from one event to the next.
+    """
+    circ = circ or bootstrap_circuit(design, option, corner)
+    s = startup_schedule(design, n_cycles=n_cycles)
+    drv = design.driver
+    n = len(s)
+    v_pre = np.empty(n)
+    v_start = np.empty(n)
+    v_end = np.empty(n)
+    delivered = np.zeros(n, dtype=bool)
+    p = 0
+    v = 0.0
+    enabled = False
+    prev_l, prev_h = circ.v_sw_low, False
+    t_uvlo = None
+    k_uvlo = None
+    segments = 0
+    window = 256
+    while p < n:
+        q_end = min(n, p + window)
+        sl = slice(p, q_end)
+        hs = s.hs_on[sl] & enabled
+        vsw = np.where(s.hs_on[sl] & ~enabled, circ.v_sw_low, s.v_sw[sl])
+        loop = schedule_loop(circ, s.dt[sl], vsw, hs, periodic=False, v_prev0=prev_l, hs_prev0=prev_h)
+        orb = propagate(loop, v)
+        segments += 1
+        if enabled:
+            low = (orb.v_start < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)
+        else:
+            low = orb.v_end >= drv.uvlo_on
+        hit = np.flatnonzero(low)
+        stop = (hit[0] + 1) if hit.size else (q_end - p)
+        k = slice(p, p + stop)
+        v_pre[k] = orb.v_pre[:stop]
+        v_start[k] = orb.v_start[:stop]
+        v_end[k] = orb.v_end[:stop]
+        delivered[k] = hs[:stop]
+        live = np.flatnonzero(s.dt[p:p + stop] > 0)
+        if live.size:
+            prev_l = float(vsw[live[-1]])
+            prev_h = bool(hs[live[-1]])
+        v = float(orb.v_end[stop - 1])
+        if hit.size:
+            kk = p + hit[0]
+            if not enabled and t_uvlo is None:
+                sub = schedule_loop(circ, s.dt[kk:kk + 1], vsw[hit[0]:hit[0] + 1], hs[hit[0]:hit[0] + 1],
+                                    periodic=False)
+                dtc = crossing_time(orb.v_start[hit[0]:hit[0] + 1], drv.uvlo_on, sub)[0]
+                t_uvlo = float(s.t_start[kk] + (dtc if np.isfinite(dtc) else s.dt[kk]))
+                k_uvlo = int(kk)
+            enabled = not enabled
+            # first enabling: the rest in one piece (the usual case has no later event)
+            window = n if (enabled and segments <= 2) else 256
+        else:
+            window *= 2
+        p += stop
+    loop_all = schedule_loop(circ, s.dt, np.where(s.hs_on & ~delivered, circ.v_sw_low, s.v_sw), delivered,
+                             periodic=False)
+    i_start = _diode_current(v_start, loop_all, circ)
+    return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments)
+
+
+def _diode_current(v, loop: Loop, circ: BootstrapCircuit) -> np.ndarray:
+    """Diode current at rail voltage ``v`` in each interval [A]."""
+    if circ.diode == "linear":
+        return np.maximum(loop.v_src - circ.v_f - v, 0.0) / circ.r_tot * (loop.v_src - circ.v_f > 0)
+    lp = _bc(loop)
+    return np.where(lp.v_src > 0, np.maximum(junction_current(v, lp), 0.0), 0.0)
+
+
+# --------------------------------------------------------------------------- duty sweeps
+
+def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period):
+    """Interval arrays ``(..., 4·K)`` of K switching periods from per-period slot times.
+
+    Follows the slot layout of :mod:`explorer.schedule` ([HS][dead][LS][dead],
+    an LS slot that vanishes makes the HS on for the whole period, an HS pulse
+    shorter than ``t_on_min`` is dropped, light load replaces the second dead
+    time by the rest at V_out) but keeps zero-length intervals so that every
+    member of a batch has the same interval count.
+
+    Parameters
+    ----------
+    t_hs, t_ls, lvl_a, lvl_b : arrays ``(..., K)`` [s], [s], [V], [V]
+    period : array broadcasting to ``(..., K)`` [s]
+    """
+    b = design.bridge
+    t_hs, t_ls, lvl_a, lvl_b, period = np.broadcast_arrays(*[np.asarray(x, dtype=float)
+                                                             for x in (t_hs, t_ls, lvl_a, lvl_b, period)])
+    td = np.broadcast_to(b.dead_time, t_hs.shape)
+    dt = np.stack([t_hs, td, t_ls, td], axis=-1)
+    v = np.stack([np.full(t_hs.shape, b.v_bus), lvl_a, np.full(t_hs.shape, b.v_sw_low), lvl_b], axis=-1)
+    if b.topology == "sync_buck" and b.mode == "light_load":
+        span = period * (1 + b.skip_cycles)
+        dt[..., 2] = b.ls_pulse
+        dt[..., 3] = np.maximum(span - t_hs - td - b.ls_pulse, 0.0)
+        v[..., 3] = b.v_out
+        full_on = np.zeros(t_hs.shape, dtype=bool)
+    else:
+        full_on = t_ls <= 0.0
+    dropped = ((t_hs <= 0.0) | (t_hs < design.driver.t_on_min)) & ~full_on
+    dt = np.where(full_on[..., None], np.stack([period, 0 * td, 0 * td, 0 * td], axis=-1), dt)
+    dt = np.where(dropped[..., None], np.stack([0 * td, 0 * td, period, 0 * td], axis=-1), dt)
+    dt = np.maximum(dt, 0.0)
+    hs = np.zeros(dt.shape, dtype=bool)
+    hs[..., 0] = True
+    shp = dt.shape[:-2] + (dt.shape[-2] * 4,)
+    return dt.reshape(shp), v.reshape(shp), np.broadcast_to(hs, dt.shape).reshape(shp)
+
+
+def _levels(design: Design):
+    """Dead-time SW levels of the period of highest duty."""
+    b = design.bridge
+    k = np.zeros(1, dtype=int)
+    if b.topology == "three_phase" and b.f_o:
+        s = period_schedule(design)
+        k = np.array([int(np.argmax(s.duty))])
+    _, _, la, lb = hs_duty_per_period(b, k, np.ones(1))
+    return float(la[0]), float(lb[0])
+
+
+def _period(design: Design) -> float:
+    b = design.bridge
+    return 1.0 / (b.f_line if b.topology == "line_leg" else b.f_sw)
+
+
+def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner: str = "nominal",
+                 circ: BootstrapCircuit | None = None, full: bool = False):
+    """Steady-state rail minimum over a grid of switching frequency × HS duty [V].
+
+    Each point is one switching period ``[HS duty·T][dead][LS][dead]`` with the
+    design's dead-time levels (the light-load layout for a light-load buck),
+    held for ever (the standstill case of a three-phase leg). All points are
+    solved at once by :func:`explorer.bootstrap_engine.steady_rail`.
+
+    Parameters
+    ----------
+    f_sw : array_like [Hz]
+        Switching frequency (for ``line_leg`` the line frequency).
+    duty : array_like [-]
+        HS on-time share of the period, 0…1; broadcasts with ``f_sw``.
+    full : bool
+        Return the whole :class:`OrbitSolution` instead of the minimum.
+
+    Returns
+    -------
+    ndarray [V]
+        Shape of ``broadcast(f_sw, duty)``; NaN where the rail is never refreshed.
+
+    Examples
+    --------
+    >>> from explorer import demo_design
+    >>> d = demo_design()
+    >>> m = rail_min_map(d, d.options[0], [100e3, 200e3], [[0.5], [0.9]])
+    >>> m.shape
+    (2, 2)
+    """
+    circ = circ or bootstrap_circuit(design, option, corner)
+    f_sw, duty = np.broadcast_arrays(np.asarray(f_sw, dtype=float), np.asarray(duty, dtype=float))
+    T = 1.0 / f_sw
+    la, lb = _levels(design)
+    td = design.bridge.dead_time
+    t_hs = np.clip(duty, 0.0, 1.0) * T
+    t_ls = T - t_hs - 2 * td
+    dt, v, hs = duty_slots(design, t_hs[..., None], t_ls[..., None], la, lb, T[..., None])
+    loop = schedule_loop(circ, dt, v, hs, periodic=True)
+    orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
+                      g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s, n_vt=loop.n_vt)
+    return orb if full else orb.v_min
+
+
+def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
+    """Largest HS duty whose steady-state minimum stays at or above each threshold (None: none)."""
+    f = design.bridge.f_line if design.bridge.topology == "line_leg" else design.bridge.f_sw
+    th = np.asarray(thresholds, dtype=float)
+    grid = np.linspace(h_lo, h_hi, DUTY_GRID + 1)
+    vm = rail_min_map(design, None, f, grid, circ=circ)
+    vm = np.where(np.isfinite(vm), vm, -np.inf)
+    out: list = [None] * th.size
+    lo = np.zeros(th.size)
+    hi = np.zeros(th.size)
+    open_ = []
+    for i, x in enumerate(th):
+        ok = vm >= x
+        if ok.all():
+            out[i] = h_hi
+        elif ok[0]:
+            j = int(np.argmax(~ok))
+            lo[i], hi[i] = grid[j - 1], grid[j]
+            open_.append(i)
+    if open_:
+        idx = np.array(open_)
+        for _ in range(3):  # bisection rounds of 32 steps for all thresholds at once: (1/64)/32³
+            g = np.linspace(lo[idx], hi[idx], 33, axis=-1)
+            m = rail_min_map(design, None, f, g, circ=circ)
+            okg = np.where(np.isfinite(m), m, -np.inf) >= th[idx, None]
+            j = np.where(okg.all(axis=-1), 32, np.argmax(~okg, axis=-1))
+            rows = np.arange(idx.size)
+            lo[idx], hi[idx] = g[rows, np.maximum(j - 1, 0)], g[rows, j]
+        for i in open_:
+            out[i] = float(lo[i])
+    return out
+
+
+# --------------------------------------------------------------------------- topology terms
+
+def _three_phase_terms(design, circ, need):
+    b = design.bridge
+    T = 1.0 / b.f_sw
+
+    def rail_min(bridges):
+        mins = []
+        for br in bridges:
+            n = max(1, int(round(b.f_sw / br.f_o))) if br.f_o else 1
+            k = np.arange(n)
+            t_hs, t_ls, la, lb = hs_duty_per_period(br, k, np.ones(n))
+            dt, v, hs = duty_slots(design, t_hs, t_ls, la, lb, T)
+            loop = schedule_loop(circ, dt, v, hs, periodic=True)
+            mins.append(float(_solve_orbit(_bc(loop)).v_min))
+        return np.array(mins)
+
+    out = {}
+    m_hi = 4 / math.pi
+    lo, hi = 0.0, m_hi
+    if rail_min([dataclasses.replace(b, m=m_hi)])[0] >= need:
+        out["m_max"] = m_hi
+    elif rail_min([dataclasses.replace(b, m=0.0)])[0] < need:
+        out["m_max"] = None
+    else:
+        for _ in range(30):
+            mid = 0.5 * (lo + hi)
+            if rail_min([dataclasses.replace(b, m=mid)])[0] >= need:
+                lo = mid
+            else:
+                hi = mid
+        out["m_max"] = lo
+    if rail_min([dataclasses.replace(b, f_o=0.0)])[0] >= need:
+        out["f_o_min"] = 0.0
+    else:
+        f_hi = b.f_sw / 2.0
+        f_lo = b.f_sw / 2e5
+        if rail_min([dataclasses.replace(b, f_o=f_hi)])[0] < need:
+            out["f_o_min"] = None
+        elif rail_min([dataclasses.replace(b, f_o=f_lo)])[0] >= need:
+            out["f_o_min"] = f_lo
+            out["f_o_min_note"] = "feasible down to the lowest frequency searched (f_sw/2e5)"
+        else:
+            for _ in range(24):
+                mid = math.sqrt(f_lo * f_hi)
+                if rail_min([dataclasses.replace(b, f_o=mid)])[0] >= need:
+                    f_hi = mid
+                else:
+                    f_lo = mid
+            out["f_o_min"] = f_hi
+    return out
+
+
+def _topology_terms(design, circ, h_max, need, v_min_ss):
+    b = design.bridge
+    T = _period(design)
+    td = b.dead_time
+    t = b.topology
+    ok = bool(v_min_ss is not None and v_min_ss >= need)
+    if t == "sync_buck":
+        return {"v_out_max": None if h_max is None else h_max * b.eta * b.v_bus}
+    if t == "sync_boost":
+        if h_max is None:
+            return {"v_out_over_v_in_min": None}
+        return {"v_out_over_v_in_min": max(1.0, b.eta / (h_max + 2 * td / T))}
+    if t == "full_bridge":
+        return {"duty_command_max": None if h_max is None else min(1.0, h_max + td / T)}
+    if t == "half_bridge":
+        return {"passes": ok, "duty_command_max": None if h_max is None else min(1.0, h_max + td / T)}
+    if t == "line_leg":
+        return {"passes": ok, "f_line": b.f_line}
+    return _three_phase_terms(design, circ, need)
+
+
+# --------------------------------------------------------------------------- evaluation
+
+def _fmt(x: float, unit: str) -> str:
+    from ..units import format_eng
+    return format_eng(x, unit)
+
+
+def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "nominal") -> OptionResult:
+    """Evaluate one bootstrap option of a design.
+
+    Parameters
+    ----------
+    design : Design
+    option : BootstrapOption
+    corner : {"nominal", "min", "max"}
+        Capacitance corner (EIA-198 class envelope and tolerance).
+
+    Returns
+    -------
+    OptionResult
+        Steady state over the analysis period, start-up from 0 V, duty limits,
+        capacitor and diode stress, power split and checks with margins.
+        ``extra`` holds the figures without a slot of their own (nominal
+        steady-state maximum, duty at which the rail reaches UVLO-off, the
+        first-pulse inrush, start-up segments, Newton passes).
+    """
+    circ = bootstrap_circuit(design, option, corner)
+    b, drv, aux, chk = design.bridge, design.driver, design.aux, design.checks
+    need = required_rail(design)
+    warn: list[str] = []
+    extra: dict = {"c_eff": circ.c, "required_rail": need}
+
+    # ---- steady state
+    ss = steady_state(design, option, corner, circ)
+    orb, sched, loop = ss.orbit, ss.schedule, ss.loop
+    T = sched.period
+    refreshed = bool(np.isfinite(orb.v_min))
+    if refreshed:
+        ints = ss.integrals
+        v_min, v_max = float(orb.v_min), float(orb.v_max)
+        v_mean = float(np.sum(ints["int_v"]) / T)
+        rail = RailStats(v_min, v_max, v_mean)
+        t_wave = np.repeat(sched.t_start, 2)
+        v_wave = np.column_stack((orb.v_pre, orb.v_start)).ravel()
+        t_wave = np.append(t_wave, T)
+        v_wave = np.append(v_wave, orb.v_end[-1])
+    else:
+        ints = {}
+        v_min = v_max = v_mean = None
+        rail = RailStats(0.0, 0.0, 0.0)
+        t_wave = v_wave = np.zeros(0)
+        warn.append("the rail is never refreshed in steady state (the high side is on for the whole "
+                    "analysis period): it only holds up for the time given under hold-up")
+    extra["newton_passes_steady"] = orb.passes
+
+    # ---- start-up
+    su = startup(design, option, corner, circ)
+    s2 = su.schedule
+    i_peak_su = float(su.i_start.max(initial=0.0))
+    first_live = np.flatnonzero(su.i_start > 0)
+    i_first = float(su.i_start[first_live[0]]) if first_live.size else 0.0
+    on_idx = np.flatnonzero(su.delivered)
+    k_w = int(on_idx[0]) if on_idx.size else len(s2) - 1
+    t_w = float(s2.t_start[k_w]) if on_idx.size else s2.period
+    v_w = float(su.v_pre[k_w]) if on_idx.size else float(su.v_end[-1])
+    q_w = circ.c * v_w + circ.i_q * t_w  # charge drawn from the aux rail until the first delivered pulse
+    v_dd_dip = q_w / (aux.c_dd + circ.c)  # charge sharing with the aux decoupling (no regulator help)
+    cycles = None
+    if su.k_uvlo is not None:
+        cycles = int(max(s2.cycle[su.k_uvlo], -1) + 1)
+    t_su = np.append(np.repeat(s2.t_start, 2), s2.period)
+    v_su = np.append(np.column_stack((su.v_pre, su.v_start)).ravel(), su.v_end[-1])
+    start = Startup(t_uvlo=su.t_uvlo, cycles_uvlo=cycles, i_peak=i_peak_su, v_dd_dip=v_dd_dip, t=t_su, v=v_su)
+    extra.update({"i_first_pulse": i_first, "startup_segments": su.segments,
+                  "startup_v_max": float(np.max(su.v_start, initial=0.0))})
+    if su.t_uvlo is None:
+        warn.append(f"the rail does not reach UVLO-on ({_fmt(drv.uvlo_on, 'V')}) within the "
+                    f"{s2.n_cycles} start-up cycles analysed")
+    if aux.c_dd < C_DD_RATIO * option.c:
+        warn.append(f"the aux decoupling ({_fmt(aux.c_dd, 'F')}) is less than {C_DD_RATIO:g}× the bootstrap "
+                    f"capacitor (common practice): V_DD dips by about {_fmt(v_dd_dip, 'V')} while it fills")
+
+    # ---- duty limits
+    h_need, h_uvlo = _duty_limit(design, circ, [need, drv.uvlo_off])
+    h_min = min(1.0, drv.t_on_min / _period(design))
+    # hold-up at 100 % duty from the steady-state maximum
+    v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
+    q_edge = circ.q_on + circ.q_rr + circ.c_j * (b.v_bus - circ.v_sw_low)
+    v_after = v_top - q_edge / circ.c
+    if v_after <= need:
+        hold = 0.0
+    else:
+        hold = float(_off_time_to(np.array(v_after), np.array(need), np.array(circ.i_q + circ.i_leak),
+                                  np.array(circ.g_gs), np.array(circ.c)))
+        hold = None if not math.isfinite(hold) else hold
+    T_sw = _period(design)
+    t_ls_min = None if h_need is None else max(0.0, (1.0 - h_need) * T_sw - 2 * b.dead_time)
+    if b.topology == "sync_buck" and b.mode == "light_load" and h_need is not None:
+        t_ls_min = _ls_pulse_min(design, circ, need)
+    topo = _topology_terms(design, circ, h_need, need, v_min)
+    duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
+                      t_ls_min=t_ls_min, topology=topo)
+    extra["duty_max_uvlo_off"] = h_uvlo
+    op_duty = float(np.max(sched.duty))
+    f_txt = _fmt(b.f_line if b.topology == "line_leg" else b.f_sw, "Hz")
+    if refreshed and v_min < drv.uvlo_off:
+        where = (f"at HS duty above {h_uvlo:.3g}" if h_uvlo is not None else "at every HS duty")
+        warn.append(f"the rail falls below UVLO-off ({_fmt(drv.uvlo_off, 'V')}) {where} at {f_txt}; "
+                    f"this operating point reaches HS duty {op_duty:.3g}")
+    elif refreshed and v_min < need:
+        where = (f"at HS duty above {h_need:.3g}" if h_need is not None else "at every HS duty")
+        warn.append(f"the rail falls below the required {_fmt(need, 'V')} {where} at {f_txt}; "
+                    f"this operating point reaches HS duty {op_duty:.3g}")
+
+    # ---- stress
+    low_levels = [circ.v_sw_low, -b.v_undershoot]
+    v_ceiling = aux.v_dd * (1 + aux.v_dd_tol) - min(low_levels) - float(circ.drop(circ.i_q))
+    v_cap_max = max(v_ceiling, v_max or 0.0, extra["startup_v_max"])
+    extra["v_max_nominal"] = v_max
+    extra["v_max_ceiling"] = v_ceiling
+    if refreshed:
+        turn_on = loop.q_step  # charge per interval start
+        q2 = np.sum(np.asarray(turn_on) ** 2) / b.t_edge
+        i_rms = math.sqrt((float(np.sum(ints["i2_c"])) + q2) / T)
+        i_pk_ss = float(np.max(ints["i_d0"], initial=0.0))
+    else:
+        i_rms, i_pk_ss = 0.0, 0.0
+    i_pk = max(i_pk_ss, i_peak_su, circ.q_on / b.t_edge)
+    caps = (CapacitorStress(name="C_boot", c_eff=circ.c, v_max=v_cap_max, v_rating=option.v_rating,
+                            ripple=(v_max - v_min) if refreshed else 0.0, i_rms=i_rms, i_peak=i_pk),)
+    v_rev = b.v_bus + aux.v_dd * (1 + aux.v_dd_tol)
+    extra.update({"diode_v_reverse": v_rev, "diode_i_peak": max(i_pk_ss, i_peak_su)})
+
+    # ---- power
+    p_aux = p_bus = p_del = eff = None
+    losses: dict = {}
+    if refreshed:
+        lev, prev_l, _ = _ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
+        high = lev > 0.5 * b.v_bus
+        rise = (sched.dt > 0) & high & (prev_l <= 0.5 * b.v_bus)
+        n_rise = int(np.count_nonzero(rise))
+        t_high = float(np.sum(sched.dt[high]))
+        up = np.clip(lev - prev_l, 0.0, None)
+        q_d = float(np.sum(ints["q_d"]))
+        q_ret = circ.q_rr * n_rise + circ.i_leak * t_high
+        p_aux = circ.v_dd * (q_d - q_ret) / T
+        e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
+        e_rr = circ.q_rr * b.v_bus * n_rise
+        e_cj = circ.c_j * b.v_bus * float(np.sum(up))
+        e_lk = circ.i_leak * b.v_bus * t_high
+        p_bus = (e_rr + e_cj + e_lk + e_sw) / T
+        e_gate = float(np.sum(circ.q_on * sched.hs_turn_on * 0.5 * (orb.v_pre + orb.v_start)))
+        e_q = circ.i_q * float(np.sum(ints["int_v"]))
+        e_g = float(np.sum(ints["e_load"] - loop.i_load * ints["int_v"]))
+        p_del = (e_gate + e_q + e_g) / T
+        losses = {"resistor": float(np.sum(ints["e_r"])) / T, "diode": float(np.sum(ints["e_d"])) / T,
+                  "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T}
+        eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
+        extra.update({"q_diode_per_period": q_d, "energy_switch_node": e_sw / T})
+
+    # ---- checks
+    checks = []
+    if refreshed:
+        checks.append(Check("rail minimum", v_min, need, "min", "V",
+                            f"steady-state rail stays above max(UVLO-off, V_GS needed) + margin = {_fmt(need, 'V')}"))
+    else:
+        checks.append(Check("rail minimum", 0.0, need, "min", "V", "the rail is refreshed in steady state"))
+    checks.append(Check("rail maximum vs V_BS(max)", v_cap_max, drv.v_bs_max, "max", "V",
+                        "rail maximum (V_DD at its tolerance, SW undershoot) stays below the driver's V_BS(max)"))
+    checks.append(Check("rail maximum vs V_GS(max)", v_cap_max, design.gate.v_gs_max, "max", "V",
+                        "rail maximum stays below the gate's V_GS(max)"))
+    if option.v_rating is not None:
+        checks.append(Check("C_boot voltage", v_cap_max, option.v_rating * chk.cap_derating, "max", "V",
+                            "bootstrap capacitor voltage within its derated rating"))
+    if option.v_rrm is not None:
+        checks.append(Check("diode reverse voltage", v_rev, option.v_rrm * chk.diode_derating, "max", "V",
+                            "diode V_RRM covers V_bus + V_DD after derating"))
+    checks.append(Check("start-up", float(np.max(su.v_end, initial=0.0)), drv.uvlo_on, "min", "V",
+                        "the rail reaches UVLO-on during start-up"))
+    feasible, verdict = verdict_from(checks, warn)
+    return OptionResult(label=option.label, kind=option.kind, feasible=feasible, verdict=verdict,
+                        warnings=tuple(warn), v_rail=rail if refreshed else None, efficiency=eff,
+                        p_delivered=p_del, p_drawn=None if p_aux is None else p_aux + p_bus,
+                        startup=start, duty=duty, r_out=None, capacitors=caps, p_drawn_aux=p_aux,
+                        p_drawn_bus=p_bus, losses=losses, checks=tuple(checks), extra=extra, t=t_wave, v=v_wave)
+
+
+def _ls_pulse_min(design, circ, need):
+    """Light-load buck: shortest LS pulse that keeps the steady-state minimum at ``need`` [s]."""
+    b = design.bridge
+    T = 1.0 / b.f_sw
+    hs_t, _, la, lb = hs_duty_per_period(b, np.zeros(1, dtype=int), np.ones(1))
+    t_max = T - hs_t[0] - 2 * b.dead_time
+
+    def vmin(pulses):
+        dts = []
+        for tp in pulses:
+            span = T * (1 + b.skip_cycles)
+            dts.append([hs_t[0], b.dead_time, tp, max(span - hs_t[0] - b.dead_time - tp, 0.0)])
+        dt = np.array(dts)
+        v = np.broadcast_to([b.v_bus, la[0], b.v_sw_low, b.v_out], dt.shape)
+        hs = np.broadcast_to([True, False, False, False], dt.shape)
+        loop = schedule_loop(circ, dt, v, hs, periodic=True)
+        m = _solve_orbit(_bc(loop)).v_min
+        return np.where(np.isfinite(m), m, -np.inf)
+
+    g = np.linspace(0.0, t_max, 33)[1:]
+    m = vmin(g)
+    if not np.any(m >= need):
+        return None
+    j = int(np.argmax(m >= need))
+    if j == 0:
+        lo, hi = 0.0, g[0]
+    else:
+        lo, hi = g[j - 1], g[j]
+    for _ in range(4):
+        gg = np.linspace(lo, hi, 17)
+        mm = vmin(np.maximum(gg, 1e-15))
+        j = int(np.argmax(mm >= need))
+        lo, hi = gg[max(j - 1, 0)], gg[j]
+    return float(hi)
+
+
+# --------------------------------------------------------------------------- SPICE
+
+def spice_netlist(design: Design, option: BootstrapOption, *, n_cycles: int, corner: str = "nominal",
+                  tstep: float | None = None, edge: float | None = None, delivered=None) -> str:
+    """The start-up circuit as an ngspice netlist, written from the model's own parameters.
+
+    Nodes: ``dd`` (V_DD), ``a`` (after R), ``b`` (V_B), ``s`` (V_S = SW), ``x``
+    (between C and its ESR). SW is a PWL source following the start-up
+    schedule (withheld HS pulses stay at ``v_sw_low``; pass ``delivered`` from
+    :func:`startup` so the circuit sees exactly the model's pulses); the gate
+    charge is a current pulse of Q/edge at each delivered HS turn-on; I_Q a DC
+    source; R_GS a behavioural current while the HS is on. The diode is a
+    SPICE junction diode (IS, N, RS) or, for the straight-line diode, an ideal
+    switch-like junction (IS=1e-30·, N chosen so the knee is sharp) in series
+    with V_F and r_d. Recovery, junction capacitance and leakage are left out
+    (set them to zero in the option when comparing).
+    """
+    circ = bootstrap_circuit(design, option, corner)
+    s = startup_schedule(design, n_cycles=n_cycles)
+    b = design.bridge
+    edge = edge or min(b.t_edge, 0.02 * float(np.min(s.dt[s.dt > 0])))
+    if delivered is None:
+        delivered = s.hs_on.copy()
+    vsw = np.where(s.hs_on & ~delivered, circ.v_sw_low, s.v_sw)
+    t0 = s.t_start
+    # SW PWL: level k holds from t0[k] + edge to t0[k+1]
+    pts = [(0.0, circ.v_sw_low)]
+    prev = circ.v_sw_low
+    for tk, lv in zip(t0, vsw):
+        if lv != prev:
+            pts.append((tk, prev))
+            pts.append((tk + edge, lv))
+            prev = lv
+    t_end = s.period
+    pts.append((t_end, prev))
+    sw_pwl = " ".join(f"{spice_number(t)} {spice_number(v)}" for t, v in pts)
+    on = np.flatnonzero(delivered & np.concatenate(([True], ~delivered[:-1])) & (s.dt > 0))
+    i_gate = circ.q_on / edge
+    g_pts = [(0.0, 0.0)]
+    for k in on:
+        tk = t0[k]
+        g_pts += [(tk, 0.0), (tk + edge * 1e-3, i_gate), (tk + edge, i_gate), (tk + edge * (1 + 1e-3), 0.0)]
+    g_pts.append((t_end, 0.0))
+    g_pwl = " ".join(f"{spice_number(t)} {spice_number(v)}" for t, v in g_pts)
+    # HS-on control voltage (1 while a delivered pulse is on) for the pull-down
+    h_pts = [(0.0, 0.0)]
+    hs_prev = False
+    for tk, h in zip(t0, delivered):
+        if h != hs_prev:
+            h_pts += [(tk, float(hs_prev)), (tk + edge, float(h))]
+            hs_prev = h
+    h_pts.append((t_end, float(hs_prev)))
+    h_pwl = " ".join(f"{spice_number(t)} {spice_number(v)}" for t, v in h_pts)
+    tstep = tstep or float(np.min(s.dt[s.dt > 0])) / 100
+    lines = [f"* bootstrap start-up written by explorer from the model's parameters ({design.title})",
+             f"VDD dd 0 {spice_number(circ.v_dd)}",
+             f"VSW s 0 PWL({sw_pwl})",
+             f"VHS h 0 PWL({h_pwl})",
+             f"R1 dd a {spice_number(max(option.r, 1e-6))}"]
+    if circ.diode == "junction":
+        d = option.diode
+        lines.append("D1 a b DJ")
+        lines.append(f".model DJ D(IS={spice_number(d.i_s)} N={spice_number(d.n)} RS={spice_number(d.r_s)})")
+    else:
+        d = option.diode
+        lines += ["D1 a k1 DI", f"VF k1 k2 {spice_number(d.v_f)}",
+                  f"RD k2 b {spice_number(max(d.r_d, 1e-6))}",
+                  ".model DI D(IS=1e-14 N=0.01)"]
+    lines += [f"C1 b x {spice_number(circ.c)} IC=0",
+              f"RESR x s {spice_number(max(option.esr, 1e-6))}",
+              f"IQ b s DC {spice_number(circ.i_q)}",
+              f"IG b s PWL({g_pwl})"]
+    if circ.g_gs > 0:
+        lines.append(f"BGS b s I=(v(b)-v(s))*{spice_number(circ.g_gs)}*v(h)")
+    lines += [f".options reltol=1e-5 abstol=1e-12 vntol=1e-7 temp={spice_number(design.checks.t_amb)} "
+              f"tnom={spice_number(design.checks.t_amb)}",
+              f".tran {spice_number(tstep)} {spice_number(t_end)} 0 {spice_number(tstep)} uic"]
+    return "\n".join(lines) + "\n"
