@@ -492,7 +492,8 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     p_drawn = p_drawn_aux + p_cross
     losses = {"conduction_switches": p_sw, "conduction_esr": p_esr, "bottom_plate": p_bp,
               "pump_gate_drive": p_gate, "domain_crossing": p_cross}
-    efficiency = p_delivered / p_drawn if p_drawn > 0 else None
+    collapsed = v_mean <= 0.0
+    efficiency = p_delivered / p_drawn if (p_drawn > 0 and not collapsed) else None
 
     # --- start-up from 0 V by pump cycles (HS pulses withheld, only I_Q drawn)
     st = _startup(net, pump, v_in, design, from_aux=option.v_in is None)
@@ -537,6 +538,9 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
                         "rail stays below the gate's V_GS rating"))
     checks.append(Check("start-up reaches UVLO on", st["v_final"], design.driver.uvlo_on, "min", "V",
                         "the pump alone brings the rail up to the UVLO rising threshold"))
+    if collapsed:
+        warnings.append("the pump cannot carry the gate-drive load: its mean rail would fall below 0 V "
+                        "(the driver would stay in UVLO); efficiency is not defined")
     if v_ideal > design.gate.v_gs_max:
         warnings.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the gate's "
                         f"V_GS rating of {design.gate.v_gs_max:g} V")

@@ -1,0 +1,212 @@
+"""Charge-pump models against Seeman & Sanders (2008) and first principles."""
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from numpy.testing import assert_allclose
+
+from explorer import demo_design, replace_field
+from explorer.errors import DesignError
+from explorer.options.charge_pump import (CIRCUITS, evaluate_option, pulse_train_extremes, pump_durations,
+                                          pump_network, r_fsl, r_out_engine, r_out_exact, r_out_limits,
+                                          r_out_sqrt, r_ssl, rail_from_r_out)
+from explorer.scnet import periodic_steady_state
+
+
+@pytest.fixture
+def seeman_sanders_2008():
+    """M. D. Seeman and S. R. Sanders, "Analysis and optimization of switched-capacitor DC-DC
+    converters", IEEE Trans. Power Electronics 23(2), 841-851, 2008, doi:10.1109/TPEL.2007.915182.
+    Charge multipliers of the series-parallel 2:1 and the 1:2 doubler, and the limits
+    R_SSL = Σa_c²/(C·f), R_FSL = 2·Σ R·a_r² at 50 % phases (R_FSL = Σ R·a_r²/D in general)."""
+    return {
+        "2:1": {"a_c": [0.5], "a_r": [0.5] * 4, "r_ssl": lambda c, f: 1 / (4 * c * f), "r_fsl": lambda r: 2 * r},
+        "1:2": {"a_c": [1.0], "a_r": [1.0] * 4, "r_ssl": lambda c, f: 1 / (c * f), "r_fsl": lambda r: 8 * r},
+    }
+
+
+C, R = 220e-9, 1.0
+
+
+def corner(ratio):
+    """Clock where R_SSL = R_FSL (50 % phases)."""
+    c = CIRCUITS[ratio]
+    return sum(a * a for a in c.a_c) / (C * 2 * R * sum(a * a for a in c.a_r))
+
+
+@pytest.mark.parametrize("ratio", ["2:1", "1:2"])
+def test_charge_multipliers_from_the_engine(ratio, seeman_sanders_2008):
+    # Seeman & Sanders 2008, §II: a_c and a_r of the 2:1 and 1:2 charge multipliers
+    ref = seeman_sanders_2008[ratio]
+    net = pump_network(ratio, c_fly=C, r_on=R, output="load", c_out=10e-6)
+    d = pump_durations(200e3, 50e-9)
+    sol = periodic_steady_state(net, d, [10.0, 0.05])
+    q_out = 0.05 * d.sum()
+    E, S = sol.E, sol.S
+    # charge through each switch per cycle (one conducting phase each)
+    q_sw = np.abs(sol.integral(["i(s1)", "i(s2)", "i(s3)", "i(s4)"]))
+    assert_allclose(q_sw / q_out, ref["a_r"], rtol=1e-6)
+    # charge into the flying capacitor in phase 1 (it returns in phase 2)
+    q_fly = np.abs(np.diff(sol.at_phase_starts(["x(c_fly)"])[0][[0, 2]]))[0] * C
+    assert_allclose(q_fly / q_out, ref["a_c"], rtol=1e-6)
+
+
+@pytest.mark.parametrize("ratio", ["2:1", "1:2"])
+def test_engine_r_out_in_both_limits(ratio, seeman_sanders_2008):
+    # Seeman & Sanders 2008, eqs. (8), (10): three decades either side of the corner, within 1 %
+    ref = seeman_sanders_2008[ratio]
+    fc = corner(ratio)
+    r_lo, _ = r_out_engine(fc / 1000, C, R, ratio=ratio)
+    r_hi, _ = r_out_engine(fc * 1000, C, R, ratio=ratio)
+    assert_allclose(r_lo, ref["r_ssl"](C, fc / 1000), rtol=0.01)
+    assert_allclose(r_hi, ref["r_fsl"](R), rtol=0.01)
+    # dead time: phases of D = 0.4 instead of ½ give R_FSL = R·Σa_r²/D (same source, eq. 10)
+    f = fc * 1000
+    r_dt, _ = r_out_engine(f, C, R, ratio=ratio, dead_time_cp=0.1 / f)
+    assert_allclose(r_dt, R * sum(a * a for a in ref["a_r"]) / 0.4, rtol=0.01)
+    assert_allclose(r_fsl(R, ratio=ratio, duty=0.4), R * sum(a * a for a in ref["a_r"]) / 0.4, rtol=1e-12)
+    assert_allclose(r_ssl(C, fc, ratio=ratio), ref["r_ssl"](C, fc), rtol=1e-12)
+
+
+@pytest.mark.parametrize("ratio", ["2:1", "1:2", "1:1"])
+def test_coth_across_the_transition(ratio):
+    # exact single-capacitor result R_SSL·coth(R_SSL/R_FSL) (derivation in r_out_exact's docstring,
+    # from the exponential charge transfer) against the engine, across two decades of the corner
+    fc = corner(ratio)
+    f = fc * np.logspace(-1.5, 1.5, 25)
+    r_eng, m = r_out_engine(f, C, R, ratio=ratio)
+    r_fast = r_out_limits(f, C, R, ratio=ratio)
+    assert_allclose(r_eng, r_fast, rtol=0.01)
+    assert_allclose(m, CIRCUITS[ratio].m, rtol=1e-9)
+
+
+def test_sqrt_combination_overestimates_by_up_to_about_9_percent():
+    # Seeman & Sanders 2008, eq. (11) √(R_SSL² + R_FSL²) vs the exact coth form: 0 < excess ≤ ~9 %
+    x = np.logspace(-3, 3, 20001)
+    ratio = r_out_sqrt(x, 1.0) / r_out_exact(x, 1.0)
+    assert np.all(ratio >= 1.0 - 1e-12)
+    assert 0.08 < ratio.max() - 1 < 0.09
+    # and against the engine at the worst point
+    fc = corner("2:1")
+    f = fc / 1.4319
+    r_eng, _ = r_out_engine(f, C, R, ratio="2:1")
+    s, r = r_ssl(C, f, ratio="2:1"), r_fsl(R, ratio="2:1")
+    assert 1.08 < r_out_sqrt(s, r) / r_eng < 1.09
+
+
+def test_fast_path_grid_is_vectorised():
+    f = np.logspace(3, 8, 300)[:, None]
+    c = np.logspace(-9, -5, 200)[None, :]
+    grid = r_out_limits(f, c, 1.0, ratio="2:1")
+    assert grid.shape == (300, 200)
+    assert_allclose(grid[17, 33], r_out_limits(float(f[17, 0]), float(c[0, 33]), 1.0, ratio="2:1"), rtol=1e-14)
+
+
+@settings(max_examples=40, deadline=None)
+@given(ratio=st.sampled_from(["1:1", "1:2", "2:1"]), f=st.floats(1e3, 1e8), c=st.floats(1e-9, 1e-5),
+       r=st.floats(0.01, 10), k=st.floats(1.01, 10))
+def test_r_out_falls_with_f_cp_and_c_fly(ratio, f, c, r, k):
+    # property (Seeman & Sanders 2008, eqs. 8 and 10: R_SSL ∝ 1/(C·f), R_FSL independent of both)
+    base = r_out_limits(f, c, r, ratio=ratio)
+    assert r_out_limits(f * k, c, r, ratio=ratio) < base
+    assert r_out_limits(f, c * k, r, ratio=ratio) < base
+
+
+@settings(max_examples=10, deadline=None)
+@given(ratio=st.sampled_from(["1:1", "1:2", "2:1"]), f=st.floats(1e4, 1e7), k=st.floats(1.2, 5))
+def test_engine_r_out_falls_with_f_cp_and_c_fly(ratio, f, k):
+    base, _ = r_out_engine(f, C, R, ratio=ratio)
+    assert r_out_engine(f * k, C, R, ratio=ratio)[0] < base
+    assert r_out_engine(f, C * k, R, ratio=ratio)[0] < base
+
+
+def test_pulse_train_extremes_against_direct_recurrence():
+    # first-order RC response (circuit-theory textbooks): iterate step and exponential recovery
+    q, c, r, tp = 40e-9, 1e-6, 20.0, 5e-6
+    y = 0.0
+    a = np.exp(-tp / (r * c))
+    y_inf = r * q / tp
+    for _ in range(2000):
+        lo = y - q / c
+        y = y_inf + (lo - y_inf) * a
+    y_min, y_max = pulse_train_extremes(q, c, r, tp)
+    assert_allclose([y_min, y_max], [y - q / c, y], rtol=1e-9)
+    # limits: sawtooth ±q/2C for τ ≫ t_p
+    assert_allclose(pulse_train_extremes(q, c, 1e9, tp), (-q / (2 * c), q / (2 * c)), rtol=1e-3)
+
+
+def test_rail_from_r_out_matches_engine_mean(demo):
+    # the averaged model equals the engine's cycle mean (a linear network: exact in the mean)
+    o = demo.options[3]
+    res = evaluate_option(demo, o)
+    e = res.extra
+    v = rail_from_r_out(e["v_in"], res.r_out, e["i_load_const"], ratio=o.ratio, g_load=e["g_load"])
+    assert_allclose(v, res.v_rail.mean, rtol=1e-3)
+
+
+@pytest.mark.parametrize("idx", [1, 2, 3])
+def test_demo_pumps(demo, idx):
+    res = evaluate_option(demo, demo.options[idx])
+    assert res.kind == "charge_pump" and res.error is None
+    assert res.v_rail.min < res.v_rail.mean < res.v_rail.max
+    assert res.duty.min == 0.0 and res.duty.max == 1.0 and res.duty.hold_up is None
+    assert res.startup.t_uvlo > 0 and res.startup.cycles_uvlo >= 1
+    assert res.extra["f_sw_max"] > demo.bridge.f_sw and res.extra["q_g_max"] > demo.gate.q_g
+    assert abs(res.extra["energy_residual"]) < 1e-9  # Tellegen: source power = dissipation + load
+    assert {c.name for c in res.capacitors} == {"c_fly", "c_out"}
+    assert res.extra["v_block_switch"] == demo.bridge.v_bus + res.extra["v_in"]
+    assert res.to_dict()["r_out"] == res.r_out
+
+
+def test_f_sw_max_is_where_the_rail_meets_the_requirement(demo):
+    # the reported highest f_sw separates holding from failing designs (consistency of the limit
+    # search with the full evaluation; common practice, no source)
+    demo = replace_field(demo, "driver.t_on_min", 0.0)  # keep every HS pulse at high f_sw
+    o = demo.options[1]
+    res = evaluate_option(demo, o)
+    f_max = res.extra["f_sw_max"]
+    d2 = replace_field(demo, "bridge.f_sw", f_max * 0.9)
+    d3 = replace_field(demo, "bridge.f_sw", min(f_max * 1.1, 4.9e6))
+    from explorer.loads import required_rail
+    assert evaluate_option(d2, d2.options[1]).v_rail.min > required_rail(demo)
+    assert f_max * 1.1 < 4.9e6
+    assert evaluate_option(d3, d3.options[1]).v_rail.min < required_rail(demo)
+
+
+@settings(max_examples=25, deadline=None)
+@given(idx=st.sampled_from([1, 2, 3]), f=st.floats(2e4, 5e6), c=st.floats(10e-9, 2e-6), r=st.floats(0.1, 20))
+def test_efficiency_never_above_ideal(idx, f, c, r):
+    # charge conservation: a pump of ratio M cannot beat V_out/(M·V_in) (Seeman & Sanders 2008, §II)
+    d = replace_field(demo_design(), f"options[{idx}].f_cp", f)
+    d = replace_field(d, f"options[{idx}].c_fly.c", c)
+    d = replace_field(d, f"options[{idx}].r_on", r)
+    res = evaluate_option(d, d.options[idx])
+    if res.v_rail.mean <= 0:  # the rail collapses under the load: no efficiency is reported
+        assert res.efficiency is None and not res.feasible
+        return
+    ideal = res.v_rail.mean / (CIRCUITS[d.options[idx].ratio].m * res.extra["v_in"])
+    assert res.efficiency <= ideal * (1 + 1e-9)
+
+
+def test_doubler_on_12v_warns_about_ratings(demo):
+    d = replace_field(demo, "options[2].v_in", None)  # 1:2 from the 12 V aux: about 24 V
+    res = evaluate_option(d, d.options[2])
+    assert any("V_GS rating" in w for w in res.warnings)
+    assert any("V_BS maximum" in w for w in res.warnings)
+    assert not res.feasible
+
+
+def test_2to1_startup_overshoot_on_c_fly(demo):
+    # from 0 V the first phase splits 24 V over C_fly and C_out in series: C_fly sees
+    # 24·C_out/(C_fly + C_out) (series capacitors, circuit-theory textbooks), far above 12 V
+    res = evaluate_option(demo, demo.options[3])
+    cf = next(c for c in res.capacitors if c.name == "c_fly")
+    e = res.extra
+    bound = 24 * e["c_out_eff"] / (e["c_fly_eff"] + e["c_out_eff"])
+    assert 0.9 * bound < cf.v_max <= bound * 1.001
+
+
+def test_bad_ratio_is_refused():
+    with pytest.raises(DesignError, match="ratio"):
+        r_ssl(1e-6, 1e5, ratio="3:1")
