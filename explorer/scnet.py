@@ -146,7 +146,7 @@ class Network:
     >>> net = Network([Cap("c1", "a", "0", 1e-6), Cap("c2", "b", "0", 1e-6),
     ...                Res("r", "a", "b", 1.0)], inputs=(), n_phases=1)
     >>> x, _ = net.propagate([1.0, 0.0], [], [1e-3])
-    >>> [round(v, 6) for v in x]
+    >>> [round(float(v), 6) for v in x]
     [0.5, 0.5]
     """
 
