@@ -126,7 +126,8 @@ class Comparison:
         """A readable fixed-width table with engineering units."""
         labels = [r.label for r in self.options]
         rows = self.rows()
-        rows = [(q, [c if q != "verdict" else c[:48] for c in cells]) for q, cells in rows]
+        rows = [(q, [c if q != "verdict" else c.split(" ", 1)[0].replace("OK", "holds").replace("FAIL", "FAILS")
+                     for c in cells]) for q, cells in rows]
         w0 = max(len(q) for q, _ in rows)
         widths = [max(len(labels[i]), *(len(cells[i]) for _, cells in rows)) for i in range(len(labels))]
         line = lambda q, cells: "  ".join([q.ljust(w0)] + [c.ljust(w) for c, w in zip(cells, widths)]).rstrip()
@@ -135,10 +136,9 @@ class Comparison:
         out.append("")
         out.append(f"ranking ({RANKINGS[self.rank][0]}): " + " > ".join(self.ranking()))
         for r in self.options:
+            out.append(f"verdict [{r.label}]: {r.verdict}")
             for w in r.warnings:
                 out.append(f"warning [{r.label}]: {w}")
-            if not r.feasible:
-                out.append(f"verdict [{r.label}]: {r.verdict}")
         out.append("")
         out.append(CAUTION)
         return "\n".join(out)

@@ -165,9 +165,14 @@ def verdict_from(checks, warnings=()) -> tuple[bool, str]:
     failed = [c for c in checks if not c.ok]
     if failed:
         return False, "does not hold: " + "; ".join(c.text for c in failed)
+    text = "holds"
+    if checks:
+        tight = min(checks, key=lambda c: c.margin / (abs(c.limit) or 1.0))
+        unit = "" if tight.unit in ("", "-") else f" {tight.unit}"
+        text += f"; tightest check: {tight.text} (margin {tight.margin:.3g}{unit})"
     if warnings:
-        return True, f"holds, with {len(warnings)} warning{'s' if len(warnings) > 1 else ''}"
-    return True, "holds over the operating point with margin"
+        text += f"; {len(warnings)} warning{'s' if len(warnings) > 1 else ''}"
+    return True, text
 
 
 @dataclass(frozen=True)
