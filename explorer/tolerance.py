@@ -45,7 +45,7 @@ from .errors import DesignError
 from .loads import required_rail
 from .options import model_for
 
-__all__ = ["Factors", "apply_factors", "corner_factors", "worst_case", "WorstCase", "monte_carlo",
+__all__ = ["Factors", "apply_factors", "corner_factors", "sample_factors", "worst_case", "WorstCase", "monte_carlo",
            "MonteCarlo", "clopper_pearson"]
 
 _NAMES = ("k_c", "q_g", "i_q", "v_dd", "v_f", "t")

@@ -64,7 +64,7 @@ from ..schedule import Schedule, period_schedule
 
 __all__ = ["ISO_HEADROOM", "INSULATION_STATEMENT", "loss_coefficient", "module_input_power",
            "module_efficiency", "optimum_load", "RailSolution", "output_rail", "startup_voltage",
-           "time_to_level", "ramp_inrush", "evaluate_option"]
+           "time_to_level", "ramp_inrush", "evaluate_option", "rail_min_batch"]
 
 #: Isolation working voltage wanted above the peak voltage across the barrier
 #: before no warning is given [-] (common practice, no source: it leaves room for
@@ -549,3 +549,28 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None, topology={}),
         r_out=option.r_out, capacitors=(stress,), p_drawn_aux=p_in, p_drawn_bus=p_cm, losses=losses,
         checks=tuple(checks), extra=extra, t=t_wave, v=v_wave)
+
+
+def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarray:
+    """Steady-state rail minimum for many spread samples at once [V].
+
+    ``factors`` is a :class:`explorer.tolerance.Factors` of equal-length arrays.
+    Each sample is exactly what :func:`evaluate_option` computes for the design
+    perturbed by :func:`explorer.tolerance.apply_factors` (capacitance ×
+    ``k_c`` with the DC-bias factor, gate charge × ``q_g``, quiescent × ``i_q``);
+    the module output does not follow the aux rail (a regulated module).
+    """
+    cap = option.c_out
+    sched = period_schedule(design)
+    k_c = np.atleast_1d(np.asarray(factors.k_c, dtype=float))
+    n = k_c.size
+    q_g = np.broadcast_to(np.asarray(factors.q_g, dtype=float), (n,))
+    i_q = np.broadcast_to(np.asarray(factors.i_q, dtype=float), (n,))
+    c_eff = capacitance(cap.c * k_c, v_applied=option.v_out, v_rating=cap.v_rating, dc_bias=cap.dc_bias)
+    out = np.empty(n)
+    for i in range(n):
+        q_on = design.gate.q_g * q_g[i] + design.driver.q_ls
+        out[i] = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=option.v_out, r_out=option.r_out,
+                             c_out=float(c_eff[i]), q_pulse=q_on, i_q=design.driver.i_q * i_q[i],
+                             r_gs=design.gate.r_gs).min
+    return out
