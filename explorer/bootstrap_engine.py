@@ -69,7 +69,7 @@ from dataclasses import dataclass
 import numpy as np
 from scipy.special import wrightomega
 
-__all__ = ["Loop", "OrbitSolution", "affine_scan", "linear_map", "junction_map", "junction_current",
+__all__ = ["wright_omega", "Loop", "OrbitSolution", "affine_scan", "linear_map", "junction_map", "junction_current",
            "interval_map", "steady_rail", "propagate", "interval_integrals", "crossing_time",
            "K_B", "Q_E", "thermal_voltage"]
 
@@ -271,11 +271,38 @@ def linear_map(v0, loop: Loop):
 
 # --------------------------------------------------------------------------- junction diode
 
+def wright_omega(y):
+    """Wright omega function ω(y), the solution w of w + ln w = y, for real y.
+
+    Regional starting values (series at y = 1 and the asymptotic expansions
+    for y → ±∞, Lawrence, Corless & Jeffrey, *ACM TOMS* 38(3), 2012,
+    doi:10.1145/2168773.2168779) and two steps of the fourth-order iteration
+    of Fritsch, Shafer & Crowley (*Commun. ACM* 16(2), 1973,
+    doi:10.1145/361952.361970); agrees with :func:`scipy.special.wrightomega`
+    to a few ulp (tested) and is faster, which matters inside the start-up
+    iteration.
+    """
+    y = np.asarray(y, dtype=float)
+    with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
+        e = np.exp(np.minimum(y, -2.0))
+        x = y - 1.0
+        ly = np.log(np.maximum(y, 3.0))
+        w = np.where(y <= -2.0, e * (1.0 - e * (1.0 - 1.5 * e)),
+                     np.where(y <= 3.0, 1.0 + x * (0.5 + x * (1.0 / 16 + x * (-1.0 / 192 + x * (-1.0 / 3072 + x * 13.0 / 61440)))),
+                              y - ly + ly / y))
+        for _ in range(2):
+            z = y - np.log(w) - w
+            q = 2.0 * (1.0 + w) * (1.0 + w + 2.0 * z / 3.0)
+            w = w * (1.0 + z / (1.0 + w) * (q - z) / (q - 2.0 * z))
+        w = np.where(y < -40.0, np.exp(y), w)
+    return w
+
+
 def _w_of_v(v, loop: Loop):
     """w = W(z) at rail voltage v (Wright omega of ln z)."""
     R, th, i_s = loop.r, loop.n_vt, loop.i_s
     y = np.log(i_s * R / th) + (loop.v_src - v + i_s * R) / th
-    return np.real(wrightomega(y))
+    return wright_omega(y)
 
 
 def _v_of_w(w, loop: Loop):
@@ -297,8 +324,10 @@ def _phi(s, sigma, w, w_i):
     return np.where(sigma > 0, up, dn) / w_i + s
 
 
-def junction_map(v0, loop: Loop):
+def junction_map(v0, loop: Loop, v1_guess=None):
     """Exact end value and slope of each interval (junction diode, separated ODE).
+
+    ``v1_guess`` (optional, same shape as ``v0``) only seeds the inner solver.
 
     The diode is taken as cut off (no current) where its source is at or
     below the switch node (``v_src ≤ 0``); there the interval follows the
@@ -319,51 +348,111 @@ def junction_map(v0, loop: Loop):
     rate_off, _ = _off_params(i_load, g_load, c)
     v1_off = _off_value(v0, dt, i_load, g_load, c)
     s_off = np.broadcast_to(np.exp(-rate_off * dt), shape)
+    v1 = np.array(v1_off, dtype=float)
+    slope = np.array(s_off, dtype=float)
+    if np.any(able):
+        ab = np.broadcast_to(able, shape)
+        sub = Loop(**{k: np.broadcast_to(getattr(loop, k), shape)[ab] for k in
+                      ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
+                   diode="junction")
+        g = None if v1_guess is None else np.broadcast_to(v1_guess, shape)[ab]
+        v1[ab], slope[ab] = _junction_on(v0[ab], sub, g)
+    return v1, slope
+
+
+def _junction_on(v0, loop: Loop, v1_guess=None):
+    """:func:`junction_map` on 1-D arrays of conducting-capable intervals.
+
+    Above the equilibrium current (w > w_I) Φ is solved in s = ln(w − w_I);
+    below it (w < w_I, diode current under the load current) in λ = ln w, so
+    that w is never formed by cancellation. Newton steps are kept inside a
+    bracket that shrinks with every evaluation (bisection as the fallback).
+    """
+    c, dt, i_load = loop.c, loop.dt, loop.i_load
+    R, th, i_s = loop.r, loop.n_vt, loop.i_s
     w_i = R * (i_s + i_load) / th
     w0 = _w_of_v(v0, loop)
-    d0 = w0 - w_i
-    sigma = np.where(d0 >= 0, 1.0, -1.0)
-    with np.errstate(divide="ignore"):
-        s0 = np.log(np.abs(d0))
-    tau = np.broadcast_to(dt / (R * c), shape)
-    target = _phi(s0, sigma, w0, w_i) - tau
-    # start: I = 0 closed form 1/w1 = ω(−K), K = ln w0 − 1/w0 − Δt/(RC)
-    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
-        q1 = np.real(wrightomega(-(np.log(w0) - 1.0 / w0 - tau)))
-        s_guess = np.log(np.abs(1.0 / q1 - w_i))
-    lo = s0 - tau
-    hi = s0.copy()
-    s = np.where(np.isfinite(s_guess) & (s_guess > lo) & (s_guess < hi) & (sigma > 0), s_guess,
-                 0.5 * (lo + hi))
-    lim = np.where(sigma < 0, np.log(np.maximum(w_i, 1e-300)), np.inf)  # w stays > 0
-    hi = np.minimum(hi, lim)
-    lo = np.where(np.isfinite(lo), lo, hi - 800.0)
-    s = np.clip(s, lo, hi)
-    active = able & np.isfinite(s0)
-    for _ in range(100):
-        w = w_i + sigma * np.exp(s)
-        f = _phi(s, sigma, w, w_i) - target
-        bad = ~np.isfinite(f)
-        f = np.where(bad, -1.0 * sigma * 0 + 1.0, f)  # treat unevaluable points as "too high"
-        hi = np.where(active & (f > 0), s, hi)
-        lo = np.where(active & (f < 0), s, lo)
-        step = f / ((w + 1.0) / w)
-        s_new = s - step
-        out = ~((s_new > lo) & (s_new < hi)) | bad
-        s_new = np.where(out, 0.5 * (lo + hi), s_new)
-        done = np.abs(s_new - s) <= 4e-16 * np.maximum(1.0, np.abs(s))
-        s = np.where(active, s_new, s)
-        if np.all(done | ~active):
+    tau = dt / (R * c)
+    up = w0 > w_i
+    dn = w0 < w_i
+    w1 = w0.copy()
+    slope = np.exp(-tau * w_i / (1.0 + w_i))  # at equilibrium: the linearised decay
+    wg = None if v1_guess is None else _w_of_v(v1_guess, loop)
+    if np.any(up):
+        wi, ww, tt = w_i[up], w0[up], tau[up]
+        s0 = np.log(ww - wi)
+        target = np.log1p(-wi / ww) / wi + s0 - tt
+        with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+            if wg is None:  # start: the I = 0 closed form 1/w1 = ω(−K), K = ln w0 − 1/w0 − Δt/(RC)
+                q1 = wright_omega(-(np.log(ww) - 1.0 / ww - tt))
+                s_g = np.log(np.abs(1.0 / q1 - wi))
+            else:
+                s_g = np.log(wg[up] - wi)
+        lo, hi = s0 - tt, s0.copy()  # Φ'(s) = (w + 1)/w ≥ 1
+        s_lin = s0 - tt * wi / (1.0 + wi)
+        s = np.where(np.isfinite(s_g) & (s_g > lo) & (s_g < hi), s_g, s_lin)
+        s = np.clip(s, lo, hi)
+
+        def f_up(x):
+            w = wi + np.exp(x)
+            return np.log1p(-wi / w) / wi + x - target, (w + 1.0) / w
+
+        s = _bracketed_newton(f_up, s, lo, hi, tt > 0)
+        w1[up] = wi + np.exp(s)
+        slope_up = np.exp(s - s0)
+        slope = np.where(up, 0.0, slope)
+        slope[up] = slope_up
+    if np.any(dn):
+        wi, ww, tt = w_i[dn], w0[dn], tau[dn]
+        l0 = np.log(ww)
+        d0 = wi - ww
+        target = np.log(d0 / ww) / wi + np.log(d0) - tt
+        lo = l0.copy()
+        hi = np.minimum(np.log(wi), l0 + tt * wi)  # |Φ'(λ)| = (w + 1)/(w_I − w) ≥ 1/w_I
+        lam = l0 + tt * wi / (1.0 + wi)
+        if wg is not None:
+            with np.errstate(divide="ignore", invalid="ignore"):
+                lg = np.log(wg[dn])
+            lam = np.where(np.isfinite(lg) & (lg >= lo) & (lg <= hi), lg, lam)
+        lam = np.clip(lam, lo, hi)
+
+        def f_dn(x):
+            w = np.exp(x)
+            d = wi - w
+            with np.errstate(divide="ignore", invalid="ignore"):
+                val = np.log(d / w) / wi + np.log(d) - target
+            # Φ decreases with λ: return −Φ so the bracketed solver sees an increasing function
+            return -val, (w + 1.0) / d
+
+        lam = _bracketed_newton(f_dn, lam, lo, hi, tt > 0)
+        w1[dn] = np.exp(lam)
+        sl = (wi - w1[dn]) / d0
+        slope = np.array(np.broadcast_to(slope, w0.shape), dtype=float)
+        slope[dn] = sl
+    v1 = np.where(tau > 0, _v_of_w(w1, loop), v0)
+    v1 = np.where(w0 == w_i, v0, v1)
+    return v1, np.broadcast_to(slope, w0.shape)
+
+
+def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
+    """Newton's method for an increasing ``fun`` (returning value and derivative), kept in [lo, hi]."""
+    lo = lo.copy()
+    hi = hi.copy()
+    for _ in range(iters):
+        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+            f, df = fun(x)
+        bad = ~np.isfinite(f) | ~np.isfinite(df)
+        f = np.where(bad, 1.0, f)
+        hi = np.where(f > 0, x, hi)
+        lo = np.where(f < 0, x, lo)
+        x_new = x - f / np.where(bad, 1.0, df)
+        out = ~((x_new >= lo) & (x_new <= hi)) | bad
+        x_new = np.where(out, 0.5 * (lo + hi), x_new)
+        step = np.abs(x_new - x)
+        x = np.where(active, x_new, x)
+        if np.all((step <= 1e-14 * np.maximum(1.0, np.abs(x))) | ~active | (f == 0)):
             break
-    w1 = w_i + sigma * np.exp(s)
-    v1_on = _v_of_w(w1, loop)
-    # exactly at equilibrium: the linearised decay rate
-    at_eq = ~np.isfinite(s0)
-    v1_on = np.where(at_eq, v0, v1_on)
-    s_on = np.where(at_eq, np.exp(-tau * w_i / (1.0 + w_i)), np.exp(s - s0))
-    v1 = np.where(able, v1_on, v1_off)
-    slope = np.where(able, s_on, s_off)
-    return v1, slope
+    return x
 
 
 def interval_map(v0, loop: Loop):
@@ -450,28 +539,60 @@ def _fixed_point(s, b, q, v_init):
 
 
 def _newton_orbit(loop: Loop, v0, v_init, tol):
-    """Newton multiple shooting from the start values ``v0`` (rows of a 2-D block)."""
+    """Newton multiple shooting from the start values ``v0`` (rows of a 2-D block).
+
+    Each pass re-linearises only the intervals whose start value moved by more
+    than the tolerance since their last linearisation (the others keep their
+    tangent, which is exact to that tolerance), then composes all maps again.
+    """
     q = loop.q_step / loop.c
     linear = loop.diode == "linear"
     converged = False
     passes = 0
+    v_lin = v0.copy()
+    if linear:
+        v1, s, reg = linear_map(v0, loop)
+    else:
+        v1, s = junction_map(v0, loop)
     for passes in range(1, _MAX_PASSES + 1):
-        if linear:
-            v1, s, reg = linear_map(v0, loop)
-        else:
-            v1, s = junction_map(v0, loop)
-        u = _fixed_point(s, v1 - s * v0, q, v_init)
-        v0_new = u - q
-        if linear:
-            _, _, reg_new = linear_map(v0_new, loop)
-            if np.all(((reg_new == reg) & (reg != 2)) | ~np.isfinite(v0_new)):
-                return u, v0_new, passes, True
-        err = np.abs(v0_new - v0)
-        v0 = v0_new
-        if np.all((err <= tol * (1.0 + np.abs(v0))) | ~np.isfinite(v0)):
+        u = _fixed_point(s, v1 - s * v_lin, q, v_init)
+        v0 = u - q
+        moved = ~(np.abs(v0 - v_lin) <= tol * (1.0 + np.abs(v0)))
+        moved &= np.isfinite(v0)
+        if not np.any(moved):
             converged = True
             break
-    return u, v0, passes, converged
+        sub = _take(loop, moved)
+        if linear:
+            v1_m, s_m, reg_m = linear_map(v0[moved], sub)
+            reg[moved] = reg_m
+        else:  # seeded with the tangent prediction of the previous pass
+            guess = v1[moved] + s[moved] * (v0[moved] - v_lin[moved])
+            v1_m, s_m = junction_map(v0[moved], sub, guess)
+        v1[moved] = v1_m
+        s[moved] = s_m
+        v_lin[moved] = v0[moved]
+        if linear and passes == 1 and np.all(reg != 2):
+            # only affine regimes, re-linearised where they changed: the next composition is exact
+            u = _fixed_point(s, v1 - s * v_lin, q, v_init)
+            v0 = u - q
+            _, _, reg_chk = linear_map(v0, loop)
+            if np.all((reg_chk == reg) | ~np.isfinite(v0)):
+                converged = True
+                passes += 1
+                break
+    # end values on the tangents (exact for affine maps, within tol² otherwise)
+    return u, v0, v1 + s * (v0 - v_lin), passes, converged
+
+
+def _surrogate(loop: Loop) -> Loop:
+    """Straight-line diode tangent to the junction at ten times the load current (a starting orbit)."""
+    i_t = 10.0 * (loop.i_load + loop.i_s) + 1e-6
+    r_d = loop.n_vt / (i_t + loop.i_s)
+    v_f = loop.n_vt * np.log1p(i_t / loop.i_s) - r_d * i_t
+    return _broadcast_loop(Loop(dt=loop.dt, v_src=loop.v_src, c=loop.c, r=loop.r + r_d, i_load=loop.i_load,
+                                g_load=loop.g_load, q_step=loop.q_step, v_f=v_f, i_s=loop.i_s,
+                                n_vt=loop.n_vt, diode="linear"))
 
 
 def _take(loop: Loop, idx) -> Loop:
@@ -493,7 +614,7 @@ def _solve_block(loop: Loop, v_init, tol):
             rows = np.nonzero(bad)[0]
             sub = _take(loop, rows)
             vi = None if v_init is None else np.asarray(v_init)[rows]
-            u_s, v0_s, p, ok = _newton_orbit(sub, v0[rows], vi, tol)
+            u_s, v0_s, _, p, ok = _newton_orbit(sub, v0[rows], vi, tol)
             u[rows] = u_s
             v0[rows] = v0_s
             passes = 1 + p
@@ -505,8 +626,9 @@ def _solve_block(loop: Loop, v_init, tol):
             a_end[rows] = v1_s
         v1 = a_end
         return u, v0, v1, passes, converged
-    u, v0, passes, converged = _newton_orbit(loop, _initial_guess(loop), v_init, tol)
-    v1, _ = junction_map(v0, loop)
+    su, sv0, _, _, _ = _solve_block(_surrogate(loop), v_init, tol)
+    sv0 = np.where(np.isfinite(sv0), sv0, _initial_guess(loop))
+    u, v0, v1, passes, converged = _newton_orbit(loop, sv0, v_init, tol)
     return u, v0, v1, passes, converged
 
 
@@ -606,14 +728,15 @@ def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
     return _solve_orbit(loop)
 
 
-def propagate(loop: Loop, v_init) -> OrbitSolution:
+def propagate(loop: Loop, v_init, *, tol: float = 1e-13) -> OrbitSolution:
     """Trajectory over the intervals from ``v_init`` (the state before the first step) [V].
 
     Exact for the straight-line diode in one pass when no interval crosses
     cut-off; otherwise Newton on the trajectory (multiple shooting), which
-    converges quadratically.
+    converges quadratically, until no start value moves by more than
+    ``tol·(1 + |V|)``.
     """
-    return _solve_orbit(_broadcast_loop(loop), v_init)
+    return _solve_orbit(_broadcast_loop(loop), v_init, tol=tol)
 
 
 # --------------------------------------------------------------------------- integrals
@@ -635,6 +758,52 @@ def _seg(v0, veq, rate, L, slope_lin):
 
 
 _GL_X, _GL_W = np.polynomial.legendre.leggauss(24)
+
+
+def _junction_integrals(v0, v1, loop: Loop, r_ext) -> dict:
+    """Integrals of conducting-capable junction intervals (1-D arrays); see :func:`interval_integrals`."""
+    c, dt, i_load, R = loop.c, loop.dt, loop.i_load, loop.r
+    th, i_s = loop.n_vt, loop.i_s
+    w_i = R * (i_s + i_load) / th
+    w0 = _w_of_v(v0, loop)
+    w1 = _w_of_v(v1, loop)
+    alpha = th / R
+    q_d = c * (v1 - v0) + i_load * dt
+    # ∫ i² dt = −RC·[p1·w²/2 + p0·w + A·ln w + B·ln|w − w_I|] from w0 to w1 (partial fractions)
+    p1 = alpha ** 2
+    p0 = alpha ** 2 - 2 * alpha * i_s + alpha ** 2 * w_i
+    A = -i_s ** 2 / w_i
+    Bc = (alpha * w_i - i_s) ** 2 * (w_i + 1) / w_i
+    d0 = np.abs(w0 - w_i)
+    d1 = np.abs(w1 - w_i)
+    same = (d0 > 0) & (d1 > 0)
+    ds = np.where(same, np.log(np.where(same, d1, 1.0) / np.where(same, d0, 1.0)), 0.0)
+    prim = p1 * (w1 ** 2 - w0 ** 2) / 2 + p0 * (w1 - w0) + A * np.log(w1 / w0) + Bc * ds
+    i2_d = np.maximum(-R * c * prim, 0.0)
+    # ∫V dt and ∫V² dt by Gauss–Legendre in s = ln|w − w_I| (dt/ds = −RC·(w + 1)/w)
+    sigma = np.where(w0 >= w_i, 1.0, -1.0)
+    moving = same & (d0 != d1)
+    s0 = np.log(np.where(moving, d0, 1.0))
+    s1 = np.log(np.where(moving, d1, np.e))
+    half = 0.5 * (s1 - s0)
+    mid = 0.5 * (s1 + s0)
+    sn = mid[:, None] + half[:, None] * _GL_X
+    wn = w_i[:, None] + sigma[:, None] * np.exp(sn)
+    wn = np.where(moving[:, None], wn, 1.0)
+    nodes = Loop(dt=dt[:, None], v_src=loop.v_src[:, None], c=c[:, None], r=R[:, None],
+                 i_s=i_s[:, None], n_vt=th[:, None], diode="junction")
+    vn = _v_of_w(wn, nodes)
+    dtds = -R[:, None] * c[:, None] * (wn + 1) / wn
+    int_v = np.where(moving, np.sum(_GL_W * vn * dtds, axis=-1) * half, v0 * dt)
+    int_v2 = np.where(moving, np.sum(_GL_W * vn ** 2 * dtds, axis=-1) * half, v0 ** 2 * dt)
+    # capacitor current i_C = i_d − I
+    i2_c = np.maximum(i2_d - 2 * i_load * q_d + i_load ** 2 * dt, 0.0)
+    # diode energy = v_src·q_d − ∫V·i_d − r_ext·∫i², with ∫V·i_d = C(V1² − V0²)/2 + I·∫V
+    int_vi = c * (v1 ** 2 - v0 ** 2) / 2 + i_load * int_v
+    e_d = loop.v_src * q_d - int_vi - r_ext * i2_d
+    i_d0 = np.maximum(th / R * w0 - i_s, 0.0)
+    return {"q_d": q_d, "i2_d": i2_d, "int_v": int_v, "int_v2": int_v2, "i2_c": i2_c, "e_d": e_d,
+            "i_d0": i_d0}
 
 
 def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
@@ -663,7 +832,7 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
     loop = _broadcast_loop(loop)
     c, dt, i_load, g_load, R = loop.c, loop.dt, loop.i_load, loop.g_load, loop.r
     v0 = np.broadcast_to(v0, dt.shape)
-    r_ext = R if r_ext is None else np.broadcast_to(r_ext, dt.shape)
+    r_ext = np.broadcast_to(R if r_ext is None else r_ext, dt.shape)
     rate_off, veq_off = _off_params(i_load, g_load, c)
     k_lin = i_load / c
     if loop.diode == "linear":
@@ -690,52 +859,22 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
     else:
         v1, _ = junction_map(v0, loop)
         able = loop.v_src > 0
-        th, i_s = loop.n_vt, loop.i_s
-        w_i = R * (i_s + i_load) / th
-        w0 = _w_of_v(v0, loop)
-        w1 = _w_of_v(v1, loop)
-        alpha = th / R
-        q_d = np.where(able, c * (v1 - v0) + i_load * dt, 0.0)
-        # ∫ i² dt = −RC·[p1·w²/2 + p0·w + A·ln w + B·ln|w − w_I|]_{w0}^{w1}
-        p1 = alpha ** 2
-        p0 = alpha ** 2 - 2 * alpha * i_s + alpha ** 2 * w_i
-        A = -i_s ** 2 / w_i
-        Bc = (alpha * w_i - i_s) ** 2 * (w_i + 1) / w_i
-        with np.errstate(divide="ignore", invalid="ignore"):
-            ds = np.log(np.abs((w1 - w_i) / (w0 - w_i)))
-            ds = np.where(np.isfinite(ds), ds, 0.0)
-            prim = (p1 * (w1 ** 2 - w0 ** 2) / 2 + p0 * (w1 - w0) + A * np.log(w1 / w0) + Bc * ds)
-        i2_d = np.where(able, np.maximum(-R * c * prim, 0.0), 0.0)
-        # ∫V dt by Gauss–Legendre in s (dt/ds = −RC·(w + 1)/w)
-        sigma = np.where(w0 >= w_i, 1.0, -1.0)
-        with np.errstate(divide="ignore"):
-            s0 = np.log(np.abs(w0 - w_i))
-            s1 = np.log(np.abs(w1 - w_i))
-        finite = np.isfinite(s0) & np.isfinite(s1) & (s0 != s1)
-        s0f = np.where(finite, s0, 0.0)
-        s1f = np.where(finite, s1, 1.0)
-        half = 0.5 * (s1f - s0f)
-        mid = 0.5 * (s1f + s0f)
-        sn = mid[..., None] + half[..., None] * _GL_X
-        wn = w_i[..., None] + sigma[..., None] * np.exp(sn)
-        sub = Loop(dt=dt[..., None], v_src=loop.v_src[..., None], c=c[..., None], r=R[..., None],
-                   i_s=i_s[..., None], n_vt=th[..., None], diode="junction")
-        vn = _v_of_w(wn, sub)
-        dtds = -R[..., None] * c[..., None] * (wn + 1) / wn
-        iv_on = np.sum(_GL_W * vn * dtds, axis=-1) * half
-        iv2_on = np.sum(_GL_W * vn ** 2 * dtds, axis=-1) * half
-        iv_on = np.where(finite, iv_on, v0 * dt)
-        iv2_on = np.where(finite, iv2_on, v0 ** 2 * dt)
         iv_off, iv2_off, idv2_off = _seg(v0, veq_off, rate_off, dt, k_lin)
-        int_v = np.where(able, iv_on, iv_off)
-        int_v2 = np.where(able, iv2_on, iv2_off)
-        # capacitor current i_C = i_d − I while conducting
-        i2_c_on = i2_d - 2 * i_load * q_d + i_load ** 2 * dt
-        i2_c = np.where(able, np.maximum(i2_c_on, 0.0), c ** 2 * idv2_off)
-        # diode energy = v_src·q_d − ∫V·i_d − r_ext·∫i², with ∫V·i_d = C(V1² − V0²)/2 + I·∫V
-        int_vi = c * (v1 ** 2 - v0 ** 2) / 2 + i_load * int_v
-        e_d = np.where(able, loop.v_src * q_d - int_vi - r_ext * i2_d, 0.0)
-        i_d0 = np.where(able, np.maximum(th / R * w0 - i_s, 0.0), 0.0)
+        q_d = np.zeros(dt.shape)
+        i2_d = np.zeros(dt.shape)
+        int_v = iv_off.copy()
+        int_v2 = iv2_off.copy()
+        i2_c = c ** 2 * idv2_off
+        e_d = np.zeros(dt.shape)
+        i_d0 = np.zeros(dt.shape)
+        if np.any(able):
+            sub = Loop(**{k: getattr(loop, k)[able] for k in
+                          ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
+                       diode="junction")
+            out = _junction_integrals(v0[able], v1[able], sub, r_ext[able])
+            for name, arr in (("q_d", q_d), ("i2_d", i2_d), ("int_v", int_v), ("int_v2", int_v2),
+                              ("i2_c", i2_c), ("e_d", e_d), ("i_d0", i_d0)):
+                arr[able] = out[name]
     e_load = i_load * int_v + g_load * int_v2
     return {"q_d": q_d, "i2_d": i2_d, "int_v": int_v, "e_load": e_load, "i2_c": i2_c,
             "e_r": r_ext * i2_d, "e_d": e_d, "i_d0": i_d0, "v1": v1}

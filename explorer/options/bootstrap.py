@@ -68,6 +68,8 @@ __all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_sta
 
 #: Points of the first duty sweep of the duty-limit search (then refined by bisection rounds).
 DUTY_GRID = 64
+#: Newton tolerance of the start-up trajectory (relative; the steady state uses 1e-13).
+STARTUP_TOL = 1e-11
 #: Common practice, no source: aux decoupling at least ten times the bootstrap capacitor.
 C_DD_RATIO = 10.0
 
@@ -344,7 +346,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         hs = s.hs_on[sl] & enabled
         vsw = np.where(s.hs_on[sl] & ~enabled, circ.v_sw_low, s.v_sw[sl])
         loop = schedule_loop(circ, s.dt[sl], vsw, hs, periodic=False, v_prev0=prev_l, hs_prev0=prev_h)
-        orb = propagate(loop, v)
+        orb = propagate(loop, v, tol=STARTUP_TOL)
         segments += 1
         if enabled:
             low = (orb.v_start < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)
@@ -511,16 +513,22 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
             lo[i], hi[i] = grid[j - 1], grid[j]
             open_.append(i)
     if open_:
+        # one bisection round of 32 steps for all thresholds at once, then linear
+        # interpolation of the (smooth) minimum inside the final bracket
         idx = np.array(open_)
-        for _ in range(3):  # bisection rounds of 32 steps for all thresholds at once: (1/64)/32³
-            g = np.linspace(lo[idx], hi[idx], 33, axis=-1)
-            m = rail_min_map(design, None, f, g, circ=circ)
-            okg = np.where(np.isfinite(m), m, -np.inf) >= th[idx, None]
-            j = np.where(okg.all(axis=-1), 32, np.argmax(~okg, axis=-1))
-            rows = np.arange(idx.size)
-            lo[idx], hi[idx] = g[rows, np.maximum(j - 1, 0)], g[rows, j]
-        for i in open_:
-            out[i] = float(lo[i])
+        g = np.linspace(lo[idx], hi[idx], 33, axis=-1)
+        m = rail_min_map(design, None, f, g, circ=circ)
+        m = np.where(np.isfinite(m), m, -np.inf)
+        okg = m >= th[idx, None]
+        j = np.where(okg.all(axis=-1), 32, np.argmax(~okg, axis=-1))
+        for r, i in enumerate(open_):
+            jj = int(j[r])
+            if jj == 0 or jj == 32 or not np.isfinite(m[r, jj]):
+                out[i] = float(g[r, max(jj - 1, 0)])
+                continue
+            m0, m1 = m[r, jj - 1], m[r, jj]
+            frac = (m0 - th[i]) / (m0 - m1) if m0 != m1 else 0.0
+            out[i] = float(g[r, jj - 1] + frac * (g[r, jj] - g[r, jj - 1]))
     return out
 
 
