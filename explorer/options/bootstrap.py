@@ -534,54 +534,65 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
 
 # --------------------------------------------------------------------------- topology terms
 
-def _three_phase_terms(design, circ, need):
+#: Lowest output frequency searched for ``f_o_min``, as f_sw / this many switching periods.
+F_O_SEARCH_PERIODS = 2e4
+
+
+def _three_phase_min(design, circ, m, f_o):
+    """Steady-state rail minimum over a whole fundamental for each modulation index in ``m`` [V]."""
     b = design.bridge
-    T = 1.0 / b.f_sw
+    n = max(1, int(round(b.f_sw / f_o))) if f_o else 1
+    k = np.arange(n)
+    rows = []
+    for mi in np.atleast_1d(m):
+        t_hs, t_ls, la, lb = hs_duty_per_period(dataclasses.replace(b, m=float(mi), f_o=f_o), k, np.ones(n))
+        rows.append(np.stack([t_hs, t_ls, la, lb]))
+    arr = np.array(rows)
+    dt, v, hs = duty_slots(design, arr[:, 0], arr[:, 1], arr[:, 2], arr[:, 3], 1.0 / b.f_sw)
+    loop = schedule_loop(circ, dt, v, hs, periodic=True)
+    vm = _solve_orbit(_bc(loop)).v_min
+    return np.where(np.isfinite(vm), vm, -np.inf)
 
-    def rail_min(bridges):
-        mins = []
-        for br in bridges:
-            n = max(1, int(round(b.f_sw / br.f_o))) if br.f_o else 1
-            k = np.arange(n)
-            t_hs, t_ls, la, lb = hs_duty_per_period(br, k, np.ones(n))
-            dt, v, hs = duty_slots(design, t_hs, t_ls, la, lb, T)
-            loop = schedule_loop(circ, dt, v, hs, periodic=True)
-            mins.append(float(_solve_orbit(_bc(loop)).v_min))
-        return np.array(mins)
 
+def _three_phase_terms(design, circ, need):
+    """Highest m at this f_o (grid rounds, then interpolation) and lowest f_o at this m (bisection)."""
+    b = design.bridge
     out = {}
-    m_hi = 4 / math.pi
-    lo, hi = 0.0, m_hi
-    if rail_min([dataclasses.replace(b, m=m_hi)])[0] >= need:
-        out["m_max"] = m_hi
-    elif rail_min([dataclasses.replace(b, m=0.0)])[0] < need:
-        out["m_max"] = None
-    else:
-        for _ in range(30):
-            mid = 0.5 * (lo + hi)
-            if rail_min([dataclasses.replace(b, m=mid)])[0] >= need:
-                lo = mid
-            else:
-                hi = mid
-        out["m_max"] = lo
-    if rail_min([dataclasses.replace(b, f_o=0.0)])[0] >= need:
+    lo, hi = 0.0, 4 / math.pi
+    m_max = None
+    for _ in range(3):
+        g = np.linspace(lo, hi, 17)
+        vm = _three_phase_min(design, circ, g, b.f_o)
+        ok = vm >= need
+        if ok.all():
+            m_max = float(hi)
+            break
+        if not ok[0]:
+            m_max = None if lo == 0.0 else float(lo)
+            break
+        j = int(np.argmax(~ok))
+        lo, hi = g[j - 1], g[j]
+        m0, m1 = vm[j - 1], vm[j]
+        m_max = float(lo + (m0 - need) / (m0 - m1) * (hi - lo)) if np.isfinite(m1) and m0 != m1 else float(lo)
+    out["m_max"] = m_max
+    if _three_phase_min(design, circ, b.m, 0.0)[0] >= need:
         out["f_o_min"] = 0.0
+        return out
+    f_hi = b.f_sw / 2.0
+    f_lo = b.f_sw / F_O_SEARCH_PERIODS
+    if _three_phase_min(design, circ, b.m, f_hi)[0] < need:
+        out["f_o_min"] = None
+    elif _three_phase_min(design, circ, b.m, f_lo)[0] >= need:
+        out["f_o_min"] = f_lo
+        out["f_o_min_note"] = f"holds down to the lowest frequency searched, f_sw/{F_O_SEARCH_PERIODS:g}"
     else:
-        f_hi = b.f_sw / 2.0
-        f_lo = b.f_sw / 2e5
-        if rail_min([dataclasses.replace(b, f_o=f_hi)])[0] < need:
-            out["f_o_min"] = None
-        elif rail_min([dataclasses.replace(b, f_o=f_lo)])[0] >= need:
-            out["f_o_min"] = f_lo
-            out["f_o_min_note"] = "feasible down to the lowest frequency searched (f_sw/2e5)"
-        else:
-            for _ in range(24):
-                mid = math.sqrt(f_lo * f_hi)
-                if rail_min([dataclasses.replace(b, f_o=mid)])[0] >= need:
-                    f_hi = mid
-                else:
-                    f_lo = mid
-            out["f_o_min"] = f_hi
+        for _ in range(14):  # bisection in log f_o: ratio (f_hi/f_lo)^(2^-14)
+            mid = math.sqrt(f_lo * f_hi)
+            if _three_phase_min(design, circ, b.m, mid)[0] >= need:
+                f_hi = mid
+            else:
+                f_lo = mid
+        out["f_o_min"] = f_hi
     return out
 
 
@@ -647,6 +658,11 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
         ints = ss.integrals
         v_min, v_max = float(orb.v_min), float(orb.v_max)
         v_mean = float(np.sum(ints["int_v"]) / T)
+        if v_min < 0.0:
+            warn.append("the rail collapses to 0 V in steady state (below 0 V the model's constant load "
+                        "current no longer holds; the minimum is shown as 0 V)")
+            extra["v_min_model"] = v_min
+            v_min = 0.0
         rail = RailStats(v_min, v_max, v_mean)
         t_wave = np.repeat(sched.t_start, 2)
         v_wave = np.column_stack((orb.v_pre, orb.v_start)).ravel()

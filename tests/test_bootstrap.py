@@ -1,0 +1,359 @@
+"""Bootstrap supply model checked against sources outside the project.
+
+Sources used (named beside each check):
+- scipy.integrate.solve_ivp (general-purpose ODE integrator) for the interval maps;
+- scipy.special.wrightomega for the Wright omega function;
+- first-order RC circuit step response, V(t) = V_s + (V_0 − V_s)·e^(−t/τ), and the
+  charge/energy laws Q = C·ΔV, E = ½·C·V² (Horowitz & Hill, *The Art of
+  Electronics*, 3rd ed., 2015, §1.4; Alexander & Sadiku, *Fundamentals of Electric
+  Circuits*, 6th ed., 2017, ch. 6–7): the periodic-refresh closed form, the energy
+  lost charging a capacitor through any resistance (½·C·ΔV²), C ≥ Q/ΔV;
+- EIA-198 class-2 code table (X7R: −55 °C…+125 °C, ΔC within ±15 %).
+"""
+
+import dataclasses
+import math
+
+import numpy as np
+import pytest
+from hypothesis import given, settings
+from hypothesis import strategies as st
+from scipy.integrate import solve_ivp
+from scipy.special import wrightomega
+
+from explorer import demo_design, load_design, replace_field
+from explorer.bootstrap_engine import (Loop, affine_scan, interval_integrals, junction_current, junction_map,
+                                       linear_map, propagate, steady_rail, thermal_voltage, wright_omega)
+from explorer.errors import DesignError
+from explorer.options.bootstrap import (bootstrap_circuit, evaluate_option, rail_min_map, startup,
+                                        steady_state)
+from explorer.schedule import period_schedule
+
+
+def _design(**over):
+    """The demo design (an invented scenario) with changed fields."""
+    d = demo_design()
+    for k, v in over.items():
+        d = replace_field(d, k, v)
+    return d
+
+
+def _plain(**over):
+    """Demo with no recovery, junction capacitance, leakage, undershoot or pull-down (the textbook case)."""
+    base = {"options[0].q_rr": 0, "options[0].c_j": 0, "options[0].i_leak": 0, "bridge.v_undershoot": 0,
+            "gate.r_gs": None, "options[0].dc_bias": None}
+    base.update(over)
+    return _design(**base)
+
+
+def _junction(d):
+    dd = d.to_dict()
+    dd["options"][0]["diode"] = {"i_s": 1e-8, "n": 1.5, "r_s": 0.3}
+    return load_design(dd)
+
+
+# --------------------------------------------------------------------------- interval maps vs solve_ivp
+
+@pytest.mark.parametrize("v0, dt", [(0.0, 3e-6), (9.0, 1e-6), (11.6, 5e-6), (11.46, 2e-6), (12.5, 1e-7)])
+def test_linear_map_matches_solve_ivp(v0, dt):
+    # source: scipy.integrate.solve_ivp on C·dV/dt = max(V_s − V_F − V, 0)/R − I − G·V (cut-off included)
+    C, R, vf, I, G, vs = 220e-9, 2.7, 0.55, 1e-4, 1e-5, 12.0
+    loop = Loop(dt=np.array([dt]), v_src=np.array([vs]), c=C, r=R, v_f=vf, i_load=I, g_load=G)
+    v1, slope, _ = linear_map(np.array([v0]), loop)
+    sol = solve_ivp(lambda t, v: [(max(vs - vf - v[0], 0.0) / R - I - G * v[0]) / C], (0, dt), [v0],
+                    rtol=1e-12, atol=1e-14, method="LSODA")
+    assert v1[0] == pytest.approx(sol.y[0, -1], abs=1e-9)
+    # slope against a finite difference of the same exact map
+    v1b, _, _ = linear_map(np.array([v0 + 1e-7]), loop)
+    assert slope[0] == pytest.approx((v1b[0] - v1[0]) / 1e-7, abs=1e-5)
+
+
+@pytest.mark.parametrize("v0, dt, vs", [(0.0, 5e-6, 12.0), (11.0, 3e-6, 12.0), (11.6, 2e-6, 12.0),
+                                        (12.5, 4e-6, 12.0), (5.0, 4e-8, 13.0)])
+def test_junction_map_matches_solve_ivp(v0, dt, vs):
+    # source: scipy.integrate.solve_ivp (DOP853) with the exact junction current
+    C, R = 180e-9, 3.0
+    loop = Loop(dt=np.array([dt]), v_src=np.array([vs]), c=C, r=np.array([R]), i_load=np.array([1e-4]),
+                i_s=1e-8, n_vt=1.5 * thermal_voltage(25.0), diode="junction")
+    v1, slope = junction_map(np.array([v0]), loop)
+    rhs = lambda t, v: [(junction_current(np.array([v[0]]), loop)[0] - 1e-4) / C]  # noqa: E731
+    sol = solve_ivp(rhs, (0, dt), [v0], rtol=1e-13, atol=1e-15, method="DOP853")
+    assert v1[0] == pytest.approx(sol.y[0, -1], abs=1e-9)
+    v1b, _ = junction_map(np.array([v0 + 1e-7]), loop)
+    assert slope[0] == pytest.approx((v1b[0] - v1[0]) / 1e-7, rel=1e-4, abs=1e-9)
+
+
+def test_junction_current_solves_the_diode_equation():
+    # source: Shockley diode law with series resistance, i = I_s·(exp((v − R·i)/(n·V_T)) − 1)
+    loop = Loop(dt=np.ones(5), v_src=np.full(5, 12.0), c=1e-6, r=np.full(5, 3.0), i_s=1e-9, n_vt=0.04,
+                diode="junction")
+    v = np.array([0.0, 8.0, 11.0, 11.5, 12.2])
+    i = junction_current(v, loop)
+    resid = i - 1e-9 * (np.exp((12.0 - v - 3.0 * i) / 0.04) - 1)
+    assert np.allclose(resid, 0.0, atol=1e-12 * np.maximum(1.0, np.abs(i)))
+
+
+def test_wright_omega_matches_scipy():
+    # source: scipy.special.wrightomega
+    y = np.concatenate([np.linspace(-700, 700, 20001), np.linspace(-5, 5, 20001)])
+    assert np.allclose(wright_omega(y), wrightomega(y), rtol=2e-14, atol=0)
+
+
+def test_affine_scan_equals_sequential_recurrence():
+    # reference: the plain sequential recurrence u_{k+1} = a_k·u_k + b_k
+    rng = np.random.default_rng(3)
+    a = rng.uniform(0.0, 1.0, 10_000)
+    b = rng.normal(size=10_000)
+    A, B = affine_scan(a, b)
+    u, seq = 0.3, np.empty(a.size)
+    for k in range(a.size):
+        u = a[k] * u + b[k]
+        seq[k] = u
+    assert np.allclose(A * 0.3 + B, seq, rtol=0, atol=1e-13)
+
+
+# --------------------------------------------------------------------------- steady state
+
+def test_periodic_refresh_closed_form():
+    # source: RC step response + charge balance (Horowitz & Hill §1.4):
+    # V_min = V_s − (Q/C)/(1 − e^(−t/τ)), V_max = V_min + Q/C
+    d = _plain(**{"driver.i_q": 0, "driver.q_ls": 0})
+    o = d.options[0]
+    r = evaluate_option(d, o)
+    c = r.capacitors[0].c_eff
+    tau = (o.r + o.esr + o.diode.r_d) * c
+    s = period_schedule(d)
+    t_charge = float(s.dt[~s.hs_on].sum())
+    q = d.gate.q_g
+    v_s = d.aux.v_dd - o.diode.v_f - d.bridge.v_sw_low
+    v_min = v_s - (q / c) / (1 - math.exp(-t_charge / tau))
+    assert r.v_rail.min == pytest.approx(v_min, rel=1e-12)
+    assert r.v_rail.max == pytest.approx(v_min + q / c, rel=1e-12)
+
+
+def test_droop_equals_charge_over_capacitance():
+    # source: Q = C·ΔV (charge conservation): no refresh while SW is high, so the droop over the
+    # HS on-time is (Q_G + Q_LS + I_Q·t_on)/C, i.e. C ≥ Q_total/ΔV for an allowed droop ΔV
+    d = _plain()
+    ss = steady_state(d, d.options[0])
+    c = bootstrap_circuit(d, d.options[0]).c
+    s = ss.schedule
+    k = int(np.flatnonzero(s.hs_turn_on)[0])
+    q_total = d.gate.q_g + d.driver.q_ls + d.driver.i_q * s.dt[k]
+    droop = ss.orbit.v_pre[k] - ss.orbit.v_end[k]
+    assert droop == pytest.approx(q_total / c, rel=1e-12)
+
+
+@pytest.mark.parametrize("junction", [False, True])
+def test_charge_conservation_per_period(junction):
+    # source: conservation of charge: in steady state the diode's charge equals the charge the loads take
+    d = _design()
+    d = _junction(d) if junction else d
+    ss = steady_state(d, d.options[0])
+    ints = ss.integrals
+    q_in = float(np.sum(ints["q_d"]))
+    q_out = (float(np.sum(ss.loop.q_step)) + float(np.sum(ss.loop.i_load * ss.schedule.dt))
+             + float(np.sum(ss.loop.g_load * ints["int_v"])))
+    assert q_in == pytest.approx(q_out, rel=1e-9)
+
+
+@pytest.mark.parametrize("junction", [False, True])
+def test_energy_conservation_per_period(junction):
+    # source: conservation of energy over one period: source energy = resistor + diode + loads
+    # + energy removed by the charge steps (each at the mean of its end voltages, E = ½·C·V²)
+    d = _plain()
+    d = _junction(d) if junction else d
+    ss = steady_state(d, d.options[0])
+    c = ss.loop.c
+    ints = ss.integrals
+    e_src = float(np.sum(ss.loop.v_src * ints["q_d"]))
+    e_steps = float(np.sum(0.5 * c * (ss.orbit.v_pre ** 2 - ss.orbit.v_start ** 2)))
+    e_out = float(np.sum(ints["e_r"] + ints["e_d"] + ints["e_load"])) + e_steps
+    assert e_src == pytest.approx(e_out, rel=1e-8)
+
+
+@given(r=st.floats(0.1, 100.0), c=st.floats(1e-9, 1e-5), dv=st.floats(0.1, 20.0))
+@settings(max_examples=40, deadline=None)
+def test_charging_loss_is_half_c_delta_v_squared(r, c, dv):
+    # source: charging a capacitor from a constant source through any resistance dissipates ½·C·ΔV²
+    loop = Loop(dt=np.array([60 * r * c]), v_src=np.array([12.0]), c=c, r=r, v_f=0.0)
+    ints = interval_integrals(np.array([12.0 - dv]), loop)
+    assert ints["e_r"][0] == pytest.approx(0.5 * c * dv ** 2, rel=1e-9)
+    assert ints["q_d"][0] == pytest.approx(c * dv, rel=1e-9)
+
+
+def test_batch_function_equals_evaluate_option():
+    # the margin-map function must give evaluate_option's rail minimum to 1e-12 relative
+    for d in (_design(), _junction(_design()), _design(**{"bridge.v_undershoot": 6.0})):
+        o = d.options[0]
+        r = evaluate_option(d, o)
+        duty = float(period_schedule(d).duty[0])
+        m = rail_min_map(d, o, [d.bridge.f_sw], [duty])
+        assert m[0] == pytest.approx(r.v_rail.min, rel=1e-12)
+
+
+def test_batch_rows_equal_single_solves():
+    # each row of a batch equals the same schedule solved alone
+    d = _design()
+    f = np.array([[50e3], [200e3], [700e3]])
+    duty = np.array([0.1, 0.5, 0.9])
+    grid = rail_min_map(d, d.options[0], f, duty)
+    for i in range(3):
+        for j in range(3):
+            one = rail_min_map(d, d.options[0], f[i, 0], duty[j])
+            assert grid[i, j] == pytest.approx(float(one), rel=1e-13)
+
+
+def test_steady_state_is_a_fixed_point_of_the_exact_maps():
+    # the periodic orbit reproduces itself under the exact (non-linearised) interval maps, cut-off included
+    d = _design(**{"bridge.v_undershoot": 6.0})
+    ss = steady_state(d, d.options[0])
+    assert ss.orbit.passes > 1  # a cut-off crossing makes this a Newton case
+    v = ss.orbit.v_pre[0]
+    loop = ss.loop
+    for k in range(len(loop.dt)):
+        sub = Loop(dt=loop.dt[k:k + 1], v_src=np.atleast_1d(loop.v_src)[k:k + 1], c=loop.c, r=loop.r,
+                   v_f=loop.v_f, i_load=np.atleast_1d(loop.i_load)[k:k + 1],
+                   g_load=np.atleast_1d(loop.g_load)[k:k + 1])
+        v, _, _ = linear_map(np.array([v - np.atleast_1d(loop.q_step)[k] / loop.c]), sub)
+        v = v[0]
+    assert v == pytest.approx(ss.orbit.v_pre[0], abs=1e-12)
+
+
+def test_three_phase_fundamental_matches_sequential_iteration():
+    # a whole fundamental (many intervals) solved by the scan equals plain sequential iteration
+    dd = demo_design().to_dict()
+    dd["bridge"].update({"topology": "three_phase", "m": 0.9, "f_o": 400, "f_sw": 40e3})
+    d = load_design(dd)
+    ss = steady_state(d, d.options[0])
+    loop = ss.loop
+    n = len(loop.dt)
+    assert n > 300
+    v = ss.orbit.v_pre[0]
+    for _ in range(3):
+        orb = propagate(loop, v)
+        v = float(orb.v_end[-1])
+    assert v == pytest.approx(ss.orbit.v_pre[0], abs=1e-10)
+
+
+# --------------------------------------------------------------------------- start-up
+
+def test_startup_time_is_the_rc_step_response():
+    # source: RC step response: t = τ·ln((V_eq − 0)/(V_eq − V_th)), V_eq = V_s − I_Q·R
+    d = _plain(**{"bridge.precharge": "20u"})
+    o = d.options[0]
+    su = startup(d, o)
+    c = bootstrap_circuit(d, o).c
+    R = o.r + o.esr + o.diode.r_d
+    v_eq = d.aux.v_dd - o.diode.v_f - d.bridge.v_sw_low - d.driver.i_q * R
+    t = R * c * math.log(v_eq / (v_eq - d.driver.uvlo_on))
+    assert su.t_uvlo == pytest.approx(t, rel=1e-10)
+
+
+def test_pulses_are_withheld_until_uvlo_on():
+    d = _design(**{"bridge.precharge": 0, "options[0].r": 40})
+    su = startup(d, d.options[0])
+    k = su.k_uvlo
+    assert k is not None
+    assert not su.delivered[:k + 1].any()
+    assert su.delivered[k + 1:].any()
+    assert su.v_end[k] >= d.driver.uvlo_on > su.v_start[k]
+
+
+def test_first_pulse_inrush_and_vdd_dip():
+    # source: Ohm's law for the first pulse, (V_DD − V_F)/R_total; charge sharing Q = C·ΔV for the dip
+    d = _plain(**{"bridge.precharge": "20u"})
+    o = d.options[0]
+    r = evaluate_option(d, o)
+    R = o.r + o.esr + o.diode.r_d
+    assert r.extra["i_first_pulse"] == pytest.approx((d.aux.v_dd - o.diode.v_f) / R, rel=1e-12)
+    c = r.capacitors[0].c_eff
+    assert r.startup.v_dd_dip <= c * (d.aux.v_dd - o.diode.v_f) / d.aux.c_dd + 1e-12
+
+
+# --------------------------------------------------------------------------- capacitance, duty, checks
+
+def test_x7r_corners_follow_eia198():
+    # source: EIA-198 class-2 table, X7R: ΔC within ±15 % over −55…+125 °C; tolerance ±10 %
+    d = _design(**{"options[0].dc_bias": None})
+    c = d.options[0].c
+    assert bootstrap_circuit(d, d.options[0], "min").c == pytest.approx(c * 0.9 * 0.85, rel=1e-12)
+    assert bootstrap_circuit(d, d.options[0], "max").c == pytest.approx(c * 1.1 * 1.15, rel=1e-12)
+    r_min = evaluate_option(d, d.options[0], corner="min")
+    r_nom = evaluate_option(d, d.options[0])
+    assert r_min.v_rail.min < r_nom.v_rail.min
+
+
+def test_duty_limit_is_where_the_minimum_meets_the_requirement():
+    d = _design(**{"options[0].c": "22n", "bridge.f_sw": "50k"})
+    r = evaluate_option(d, d.options[0])
+    h = r.duty.max
+    assert 0 < h < 1
+    need = r.extra["required_rail"]
+    m = rail_min_map(d, d.options[0], d.bridge.f_sw, [h - 1e-3, h + 1e-3])
+    assert m[0] >= need > m[1]
+    assert r.duty.topology["v_out_max"] == pytest.approx(h * d.bridge.v_bus, rel=1e-12)
+
+
+def test_warning_names_the_duty_and_frequency():
+    d = _design(**{"options[0].c": "10n", "bridge.f_sw": "20k", "bridge.v_out": 40})
+    r = evaluate_option(d, d.options[0])
+    assert not r.feasible
+    text = " ".join(r.warnings)
+    assert "falls below UVLO-off" in text and "at HS duty above" in text and "20 kHz" in text
+
+
+def test_bad_loop_resistance_is_a_design_error():
+    d = _design(**{"options[0].r": 0, "options[0].esr": 0, "options[0].diode": {"v_f": 0.5, "r_d": 0}})
+    with pytest.raises(DesignError, match=r"options\[0\]\.r"):
+        evaluate_option(d, d.options[0])
+
+
+def test_power_balance_without_bus_terms():
+    # source: conservation of energy: aux power = delivered + resistor + diode losses
+    d = _plain()
+    r = evaluate_option(d, d.options[0])
+    assert r.p_drawn_bus == pytest.approx(0.0, abs=1e-15)
+    assert r.p_drawn_aux == pytest.approx(r.p_delivered + r.losses["resistor"] + r.losses["diode"], rel=1e-8)
+    assert 0 < r.efficiency < 1
+
+
+def test_checks_cover_the_issue_list(demo):
+    r = evaluate_option(demo, demo.options[0])
+    names = {c.name for c in r.checks}
+    assert {"rail minimum", "rail maximum vs V_BS(max)", "rail maximum vs V_GS(max)", "C_boot voltage",
+            "diode reverse voltage", "start-up"} <= names
+    assert r.to_dict()["kind"] == "bootstrap"
+
+
+# --------------------------------------------------------------------------- monotonicity (hypothesis)
+
+@given(c1=st.floats(10e-9, 2e-6), k=st.floats(1.0, 5.0))
+@settings(max_examples=25, deadline=None)
+def test_more_capacitance_never_lowers_the_minimum(c1, k):
+    d = _design()
+    o1 = dataclasses.replace(d.options[0], c=c1)
+    o2 = dataclasses.replace(d.options[0], c=c1 * k)
+    assert steady_state(d, o2).orbit.v_min >= steady_state(d, o1).orbit.v_min - 1e-12
+
+
+@given(r1=st.floats(0.5, 50.0), k=st.floats(1.0, 4.0))
+@settings(max_examples=20, deadline=None)
+def test_more_resistance_never_shortens_startup(r1, k):
+    d = _design(**{"bridge.precharge": 0, "bridge.startup_cycles": 300})
+    o1 = dataclasses.replace(d.options[0], r=r1)
+    o2 = dataclasses.replace(d.options[0], r=r1 * k)
+    t1, t2 = startup(d, o1).t_uvlo, startup(d, o2).t_uvlo
+    assert t1 is not None
+    assert t2 is None or t2 >= t1 * (1 - 1e-12)
+
+
+@given(f=st.floats(10e3, 1e6), c=st.floats(10e-9, 1e-6), junction=st.booleans())
+@settings(max_examples=20, deadline=None)
+def test_higher_duty_never_raises_the_minimum(f, c, junction):
+    d = _design()
+    d = _junction(d) if junction else d
+    o = dataclasses.replace(d.options[0], c=c)
+    h = np.linspace(0.05, 0.95 - 2 * d.bridge.dead_time * f, 40)
+    m = rail_min_map(d, o, f, h)
+    assert np.all(np.diff(m) <= 1e-12)
