@@ -69,7 +69,7 @@ __all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_sta
 #: Points of the first duty sweep of the duty-limit search (then refined by bisection rounds).
 DUTY_GRID = 64
 #: Newton tolerance of the start-up trajectory (relative; the steady state uses 1e-13).
-STARTUP_TOL = 1e-11
+STARTUP_TOL = 1e-9
 #: Common practice, no source: aux decoupling at least ten times the bootstrap capacitor.
 C_DD_RATIO = 10.0
 
@@ -481,16 +481,37 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
     """
     circ = circ or bootstrap_circuit(design, option, corner)
     f_sw, duty = np.broadcast_arrays(np.asarray(f_sw, dtype=float), np.asarray(duty, dtype=float))
-    T = 1.0 / f_sw
+    shape = f_sw.shape
+    f_flat = f_sw.reshape(-1)
+    h_flat = np.clip(duty.reshape(-1), 0.0, 1.0)
     la, lb = _levels(design)
     td = design.bridge.dead_time
-    t_hs = np.clip(duty, 0.0, 1.0) * T
-    t_ls = T - t_hs - 2 * td
-    dt, v, hs = duty_slots(design, t_hs[..., None], t_ls[..., None], la, lb, T[..., None])
-    loop = schedule_loop(circ, dt, v, hs, periodic=True)
-    orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
-                      g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s, n_vt=loop.n_vt)
-    return orb if full else orb.v_min
+    n_pts = f_flat.size
+    out = np.empty(n_pts)
+    parts = []
+    for a in range(0, max(n_pts, 1), _MAP_BLOCK):  # blocks keep the temporaries in cache
+        T = 1.0 / f_flat[a:a + _MAP_BLOCK, None]
+        t_hs = h_flat[a:a + _MAP_BLOCK, None] * T
+        dt, v, hs = duty_slots(design, t_hs, T - t_hs - 2 * td, la, lb, T)
+        loop = schedule_loop(circ, dt, v, hs, periodic=True)
+        orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
+                          g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
+                          n_vt=loop.n_vt)
+        out[a:a + _MAP_BLOCK] = orb.v_min
+        if full:
+            parts.append(orb)
+    if full:
+        cat = {k: np.concatenate([getattr(o, k) for o in parts]) for k in
+               ("v_pre", "v_start", "v_end", "v_min", "v_max")}
+        n = cat["v_pre"].shape[-1]
+        return OrbitSolution(**{k: (v.reshape(shape + (n,)) if v.ndim == 2 else v.reshape(shape))
+                                for k, v in cat.items()},
+                             passes=max(o.passes for o in parts), converged=all(o.converged for o in parts))
+    return out.reshape(shape)
+
+
+#: Design points per block in :func:`rail_min_map`.
+_MAP_BLOCK = 8192
 
 
 def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
