@@ -2,9 +2,10 @@
 
 Axes are design-file field paths (``"bridge.f_sw"``, ``"options[0].c"``,
 ``"options[2].c_fly.c"``, ``"aux.v_dd"``, ``"options[1].f_cp"``) or the alias
-``"duty"``, which sets the topology's own duty variable so that the HS duty
-command takes the given value (a buck's v_out, a boost's v_in, a bridge's
-duty, a three-phase leg's modulation index m = 2·d − 1 at the crest).
+``"duty"``, which sets the topology's own duty variable so that the HS
+on-time share of the switching period takes the given value (a buck's v_out,
+a boost's v_in, a bridge's duty command, a three-phase leg's modulation index
+at the crest; see :func:`duty_field`).
 
 Each grid point is a complete, re-validated design evaluated with the same
 models as :func:`explorer.evaluate`, so a sweep value equals the point's
@@ -57,16 +58,25 @@ FIGURES: dict[str, Callable] = {
 }
 
 
-def duty_field(design: Design, duty: float) -> tuple[str, float]:
-    """The design field and value that make the HS duty command equal ``duty``."""
+def duty_field(design: Design, duty: float, f_sw: float | None = None) -> tuple[str, float]:
+    """The design field and value that make the HS on-time share of the period equal ``duty``.
+
+    A buck's HS is on D·T (v_out = D·η·v_bus); a boost's rectifier is on
+    (1 − D)·T − 2·t_dead (v_in = (h + 2·t_dead·f_sw)·v_bus/η); a bridge leg's HS
+    is on d·T − t_dead (d = h + t_dead·f_sw); a three-phase leg's crest duty is
+    ½(1 + m) (m = 2·h − 1, the standstill angle). See :mod:`explorer.schedule`.
+    """
     b = design.bridge
     t = b.topology
+    f = b.f_sw if f_sw is None else f_sw
     if t == "sync_buck":
         return "bridge.v_out", duty * b.eta * b.v_bus
     if t == "sync_boost":
-        return "bridge.v_in", duty * b.v_bus / b.eta
-    if t in ("half_bridge", "full_bridge", "line_leg"):
-        return "bridge.duty", duty
+        return "bridge.v_in", (duty + 2 * b.dead_time * f) * b.v_bus / b.eta
+    if t == "line_leg":
+        return "bridge.duty", duty + b.dead_time * b.f_line
+    if t in ("half_bridge", "full_bridge"):
+        return "bridge.duty", duty + b.dead_time * f
     return "bridge.m", 2.0 * duty - 1.0
 
 
@@ -99,11 +109,12 @@ class Sweep:
 
 
 def _point(design: Design, assignments) -> Design:
-    changes = {}
+    changes = {p: float(v) for p, v in assignments if p != "duty"}
     for path, value in assignments:
         if path == "duty":
-            path, value = duty_field(design, float(value))
-        changes[path] = float(value)
+            f = changes.get("bridge.f_sw", design.bridge.f_sw)
+            path, value = duty_field(design, float(value), f)
+            changes[path] = float(value)
     return replace_fields(design, changes)
 
 
@@ -141,6 +152,13 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
     for p, v in zip(paths, vals):
         if v.size == 0 or v.size > 100_000:
             raise DesignError(f"axes[{p}]", "expected 1 to 100000 values", v.size)
+    for p, v in zip(paths, vals):  # an unknown field is an error of the call, not of a grid point
+        if p != "duty":
+            try:
+                replace_fields(d0, {p: float(v[0])})
+            except DesignError as e:
+                if e.problem == "no such field":
+                    raise
     shape = tuple(v.size for v in vals)
     labs = list(labels or [o.label for o in d0.options])
     for lab in labs:
@@ -190,18 +208,20 @@ class MarginMap:
 
 
 def margin_map(design, label: str, f_sw, duty) -> MarginMap:
-    """Steady-state rail margin (rail minimum − uvlo_off) over f_sw × duty.
+    """Steady-state rail margin (rail minimum − uvlo_off) over f_sw × HS duty.
 
-    Uses the option model's vectorised ``rail_min_grid`` when it has one
-    (the bootstrap does: one batched periodic solve for the whole grid), else
-    the general :func:`sweep`.
+    ``duty`` is the HS on-time share of the switching period. Uses the option
+    model's vectorised ``rail_min_map`` when it has one (the bootstrap does: one
+    batched periodic solve for the whole grid), else the general :func:`sweep`
+    with the ``"duty"`` alias. Each point is one switching period held for ever
+    (for three_phase: the standstill case).
     """
     d = load_design(design)
     opt = d.option(label)
     f = np.asarray(f_sw, dtype=float).ravel()
     u = np.asarray(duty, dtype=float).ravel()
     mod = importlib.import_module(MODULES[opt.kind])
-    fast = getattr(mod, "rail_min_grid", None)
+    fast = getattr(mod, "rail_min_map", None)
     if fast is not None:
         rail = np.asarray(fast(d, opt, f[:, None], u[None, :]), dtype=float)
         vec = True

@@ -469,7 +469,8 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
     Returns
     -------
     ndarray [V]
-        Shape of ``broadcast(f_sw, duty)``; NaN where the rail is never refreshed.
+        Shape of ``broadcast(f_sw, duty)``; NaN where the rail is never refreshed,
+        0 where it collapses.
 
     Examples
     --------
@@ -507,7 +508,8 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         return OrbitSolution(**{k: (v.reshape(shape + (n,)) if v.ndim == 2 else v.reshape(shape))
                                 for k, v in cat.items()},
                              passes=max(o.passes for o in parts), converged=all(o.converged for o in parts))
-    return out.reshape(shape)
+    # a collapsing rail reads 0 V, as in evaluate_option (below 0 V the constant-load model no longer holds)
+    return np.where(out < 0.0, 0.0, out).reshape(shape)
 
 
 #: Design points per block in :func:`rail_min_map`.
@@ -944,3 +946,53 @@ def spice_netlist(design: Design, option: BootstrapOption, *, n_cycles: int, cor
               f"tnom={spice_number(design.checks.t_amb)}",
               f".tran {spice_number(tstep)} {spice_number(t_end)} 0 {spice_number(tstep)} uic"]
     return "\n".join(lines) + "\n"
+
+
+def rail_min_batch(design: Design, option: BootstrapOption, factors) -> np.ndarray:
+    """Steady-state rail minimum for many spread samples in one batched solve [V].
+
+    ``factors`` is an :class:`explorer.tolerance.Factors` of equal-length
+    arrays. Sample ``i`` is what :func:`evaluate_option` gives for the design
+    perturbed by :func:`explorer.tolerance.apply_factors` with ``factors.at(i)``
+    (capacitance × k_c with its DC bias at the sample's charge target, gate
+    charge, quiescent current, aux rail and diode forward voltage scaled,
+    leakage grown with temperature); all samples share the analysis period and
+    are solved at once by :func:`explorer.bootstrap_engine.steady_rail`.
+    A collapsing rail reads 0 V and a never-refreshed one NaN, as in
+    ``evaluate_option``.
+    """
+    from ..tolerance import apply_factors
+
+    k_c = np.atleast_1d(np.asarray(factors.k_c, dtype=float))
+    n = k_c.size
+
+    def col(x):
+        return np.broadcast_to(np.asarray(x, dtype=float), (n,))[:, None]
+
+    nominal = apply_factors(design, option.label, type(factors)(t=design.checks.t_amb))
+    base = bootstrap_circuit(nominal, nominal.option(option.label))
+    v_dd = design.aux.v_dd * col(factors.v_dd)
+    q_on = design.gate.q_g * col(factors.q_g) + design.driver.q_ls
+    i_q = design.driver.i_q * col(factors.i_q)
+    leak = option.i_leak * col(factors.leak(design))
+    d = option.diode
+    if isinstance(d, JunctionDiode):
+        vt = 0.025852  # the same reference as tolerance.apply_factors
+        v_ref = d.n * vt * math.log(0.1 / d.i_s)
+        i_s = 0.1 * np.exp(-col(factors.v_f) * v_ref / (d.n * vt))
+        drop = base.n_vt * np.log1p(i_q / i_s) + d.r_s * i_q
+        v_f = 0.0
+    else:
+        i_s = base.i_s
+        v_f = d.v_f * col(factors.v_f)
+        drop = v_f
+    v_bias = np.maximum(v_dd - design.bridge.v_sw_low - drop, 0.0)
+    c_eff = capacitance(option.c * col(factors.k_c), v_applied=v_bias, v_rating=option.v_rating,
+                        dc_bias=option.dc_bias)
+    circ = dataclasses.replace(base, c=c_eff, v_f=v_f, i_s=i_s, v_dd=v_dd, i_q=i_q, i_leak=leak, q_on=q_on,
+                               v_bias=v_bias)
+    s = period_schedule(design)
+    loop = schedule_loop(circ, s.dt[None, :], s.v_sw[None, :], s.hs_on[None, :], periodic=True)
+    orb = _solve_orbit(_bc(loop))
+    v_min = np.asarray(orb.v_min, dtype=float).reshape(n)
+    return np.where(v_min < 0.0, 0.0, v_min)

@@ -1,0 +1,201 @@
+"""Sweeps, tolerance corners, Monte Carlo and inverse sizing (issue: the whole envelope)."""
+
+import copy
+import math
+
+import numpy as np
+import pytest
+from scipy import optimize, stats
+
+from explorer import DEMO, DesignError, evaluate, load_design, replace_field
+from explorer.options.bootstrap import evaluate_option as boot_eval
+from explorer.sizing import size_bootstrap_resistor, size_capacitor, size_isolated_rating, size_pump_frequency
+from explorer.sweep import margin_map, sweep
+from explorer.tolerance import (Factors, apply_factors, clopper_pearson, corner_factors, monte_carlo,
+                                sample_factors, worst_case)
+
+BOOT = "bootstrap 220n"
+
+
+def demo_with(**changes):
+    d = copy.deepcopy(DEMO)
+    for path, v in changes.items():
+        node = d
+        *head, last = path.split(".")
+        for h in head:
+            node = node[int(h)] if h.isdigit() else node[h]
+        node[last] = v
+    return load_design(d)
+
+
+# ----------------------------------------------------------------------------- sweeps
+
+def test_sweep_equals_point_evaluate():
+    d = load_design(DEMO)
+    f = np.array([80e3, 250e3, 700e3])
+    c = np.array([47e-9, 220e-9])
+    s = sweep(d, {"bridge.f_sw": f, "options[0].c": c})
+    for i in range(f.size):
+        for j in range(c.size):
+            ref = evaluate(replace_field(replace_field(d, "bridge.f_sw", f[i]), "options[0].c", c[j]))
+            for r in ref.options:
+                got = s.figures[r.label]
+                assert got["rail_min"][i, j] == pytest.approx(r.v_rail.min, rel=1e-12)
+                assert got["efficiency"][i, j] == pytest.approx(r.efficiency, rel=1e-12)
+                if r.startup.t_uvlo is not None:
+                    assert got["t_uvlo"][i, j] == pytest.approx(r.startup.t_uvlo, rel=1e-12)
+
+
+def test_sweep_marks_invalid_points_and_rejects_bad_axes():
+    d = load_design(DEMO)
+    s = sweep(d, {"bridge.v_out": [12, 60]}, labels=[BOOT], figures=["rail_min"])
+    assert np.isfinite(s.figures[BOOT]["rail_min"][0]) and np.isnan(s.figures[BOOT]["rail_min"][1])
+    assert "bridge.v_out" in s.invalid[(1,)]
+    with pytest.raises(DesignError, match="no such field"):
+        sweep(d, {"bridge.nothing": [1, 2]})
+    with pytest.raises(DesignError, match="figures"):
+        sweep(d, {"bridge.f_sw": [1e5]}, figures=["nonsense"])
+
+
+def test_margin_map_vectorised_equals_evaluate():
+    d = load_design(DEMO)
+    f = np.geomspace(30e3, 1.5e6, 7)
+    u = np.array([0.05, 0.3, 0.55, 0.8, 0.93])
+    m = margin_map(d, BOOT, f, u)
+    assert m.vectorised and m.margin.shape == (7, 5)
+    for i in (0, 3, 6):
+        for j in range(u.size):
+            dd = replace_field(replace_field(d, "bridge.f_sw", f[i]), "bridge.v_out", u[j] * 48)
+            r = boot_eval(dd, dd.options[0])
+            assert m.rail_min[i, j] == pytest.approx(r.v_rail.min, rel=1e-12)
+            assert m.margin[i, j] == pytest.approx(r.v_rail.min - d.driver.uvlo_off, rel=1e-12)
+
+
+# ----------------------------------------------------------------------------- corners and Monte Carlo
+
+def test_clopper_pearson_reference_values():
+    # Clopper & Pearson (1934) exact interval; reference values from scipy's binomtest (general-purpose
+    # reference software), which implements the same interval
+    for k, n in [(0, 50), (3, 50), (25, 50), (50, 50), (212, 1000)]:
+        ref = stats.binomtest(k, n).proportion_ci(confidence_level=0.95, method="exact")
+        lo, hi = clopper_pearson(k, n, 0.95)
+        assert lo == pytest.approx(ref.low, abs=1e-12) and hi == pytest.approx(ref.high, abs=1e-12)
+
+
+def _cap_only_design(uvlo_off):
+    """Demo bootstrap at a long duty with only a gaussian capacitance spread (3σ = 30 %)."""
+    d = copy.deepcopy(DEMO)
+    d["options"] = [d["options"][0] | {"c": "47n", "c_tol": 0.3, "dielectric": "ideal", "i_leak": 0}]
+    d["bridge"]["v_out"] = 40
+    d["aux"]["v_dd_tol"] = 0.0
+    d["spread"] = {"distribution": "gaussian"}
+    d["driver"]["uvlo_off"] = uvlo_off
+    d["driver"]["uvlo_on"] = uvlo_off + 0.5
+    return load_design(d)
+
+
+def test_monte_carlo_matches_gaussian_capacitance_spread():
+    base = _cap_only_design(7.0)
+    label = base.options[0].label
+
+    def rail(k):
+        dk = apply_factors(base, label, Factors(k_c=k))
+        return boot_eval(dk, dk.options[0]).v_rail.min
+
+    k_crit = 0.92
+    uvlo_off = rail(k_crit)
+    d = _cap_only_design(uvlo_off)
+    # the rail minimum rises with capacitance, so a trip is k_c < k_crit, and with k_c ~ N(1, 0.1):
+    p_exact = stats.norm.cdf((k_crit - 1.0) / 0.1)  # the normal CDF (Φ), the analytic answer
+    mc = monte_carlo(d, label, 20_000, seed=7, confidence=0.999)
+    assert mc.vectorised
+    assert mc.ci[0] <= p_exact <= mc.ci[1]
+    assert mc.p_trip == pytest.approx(p_exact, abs=0.02)
+    # the root of rail(k) = uvlo_off recovers k_crit (monotone rail)
+    assert optimize.brentq(lambda k: rail(k) - uvlo_off, 0.5, 1.5) == pytest.approx(k_crit, rel=1e-6)
+
+
+def test_monte_carlo_same_seed_same_numbers():
+    d = demo_with(**{"spread": {"q_g": 0.1, "v_f": 0.1}})
+    a = monte_carlo(d, BOOT, 500, seed=3)
+    b = monte_carlo(d, BOOT, 500, seed=3)
+    c = monte_carlo(d, BOOT, 500, seed=4)
+    assert np.array_equal(a.rail_min, b.rail_min)
+    assert not np.array_equal(a.rail_min, c.rail_min)
+
+
+@pytest.mark.parametrize("label", [BOOT, "isolated 1 W"])
+def test_batched_samples_equal_evaluate(label):
+    d = demo_with(**{"spread": {"q_g": 0.15, "i_q": 0.3, "v_f": 0.1}, "options.0.i_leak": 1e-5})
+    f = sample_factors(d, label, 8, np.random.default_rng(11))
+    from explorer.options import model_for
+    from explorer.tolerance import _batch_for
+    batch = _batch_for(d.option(label).kind)(d, d.option(label), f)
+    for i in range(8):
+        di = apply_factors(d, label, f.at(i))
+        r = model_for(d.option(label).kind)(di, di.option(label))
+        assert batch[i] == pytest.approx(r.v_rail.min, rel=1e-12)
+
+
+def test_worst_case_bounds_monte_carlo_and_is_the_expected_corner():
+    d = demo_with(**{"spread": {"q_g": 0.1, "i_q": 0.2, "v_f": 0.1}, "options.0.i_leak": 1e-5})
+    w = worst_case(d, BOOT)
+    assert len(w.corners) == 2 ** 6  # k_c, q_g, i_q, v_dd, v_f, t all spread
+    mc = monte_carlo(d, BOOT, 4000, seed=1)
+    assert w.rail_min <= mc.rail_min.min() + 1e-12
+    # physics: less capacitance, more gate charge and load, lower aux rail, more diode drop, hotter
+    assert w.corner == "k_c low, q_g high, i_q high, v_dd low, v_f high, t high"
+    assert w.margin == pytest.approx(w.rail_min - (max(7.8, 8) + 0.5), rel=1e-12)
+
+
+def test_corner_names_cover_only_live_spreads():
+    d = demo_with(**{"aux.v_dd_tol": 0.0, "checks": {"t_min": 25, "t_max": 25, "t_amb": 25}})
+    names = [n for n, _ in corner_factors(d, BOOT)]
+    assert names == ["k_c low", "k_c high"]
+
+
+# ----------------------------------------------------------------------------- sizing
+
+def test_size_bootstrap_capacitor_holds_and_next_lower_fails():
+    d = demo_with(**{"bridge.v_out": 44, "spread": {"q_g": 0.1}})
+    r = size_capacitor(d, BOOT, series="E12")
+    assert r.value is not None and r.below is not None
+    # re-evaluate independently: the chosen value holds at the worst corner, the next lower fails
+    assert worst_case(replace_field(d, "options[0].c", r.value), BOOT).margin >= 0
+    assert worst_case(replace_field(d, "options[0].c", r.below), BOOT).margin < 0
+    from explorer.preferred import SERIES
+    mant = r.value / 10 ** math.floor(math.log10(r.value))
+    assert round(mant, 6) in SERIES["E12"]
+
+
+def test_size_pump_flying_capacitor_and_frequency():
+    d = demo_with(**{"options.1.f_cp": "50k"})
+    label = "pump 1:1"
+    r = size_capacitor(d, label, series="E6", lo=1e-9, hi=10e-6)
+    assert r.value is not None
+    assert worst_case(replace_field(d, "options[1].c_fly.c", r.value), label).margin >= 0
+    if r.below is not None:
+        assert worst_case(replace_field(d, "options[1].c_fly.c", r.below), label).margin < 0
+    rf = size_pump_frequency(d, label, f_lo=1e3, f_hi=5e6)
+    assert rf.value is not None
+    assert worst_case(replace_field(d, "options[1].f_cp", rf.value), label).margin >= 0
+    assert worst_case(replace_field(d, "options[1].f_cp", rf.below), label).margin < 0
+
+
+def test_size_bootstrap_resistor_limits_inrush():
+    d = load_design(DEMO)
+    r = size_bootstrap_resistor(d, BOOT, i_max=1.0)
+    assert r.value is not None
+    dd = replace_field(d, "options[0].r", r.value)
+    # Ohm's law on a dead capacitor: the first-pulse peak is (V_DD − V_F)/R_total ≤ i_max
+    assert boot_eval(dd, dd.options[0]).startup.i_peak <= 1.0 + 1e-9
+    with pytest.raises(DesignError, match="i_max"):
+        size_bootstrap_resistor(d, BOOT, i_max=-1)
+
+
+def test_size_isolated_rating():
+    d = load_design(DEMO)
+    r = size_isolated_rating(d, "isolated 1 W", headroom=2.0)
+    assert r.value >= 2.0 * 0.0999
+    with pytest.raises(DesignError, match="headroom"):
+        size_isolated_rating(d, "isolated 1 W", headroom=0.5)
