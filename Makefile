@@ -32,7 +32,7 @@ demo: $(STAMP)
 	$(BIN)/python -m explorer demo --evaluate
 
 test: sysdeps $(STAMP)
-	$(BIN)/python -m pytest
+	$(BIN)/python -m pytest tests notebooks --nbval --nbval-sanitize-with notebooks/sanitize.cfg
 
 bench: $(STAMP)
 	@for f in bench/bench_*.py; do echo "== $$f"; $(BIN)/python $$f || exit 1; done
