@@ -146,6 +146,10 @@ class Comparison:
     def __str__(self) -> str:
         return self.to_text()
 
+    def __repr__(self) -> str:
+        ok = sum(r.feasible for r in self.options)
+        return f"<Comparison {self.title!r}: {len(self.options)} options, {ok} hold; ranking {self.ranking()}>"
+
     def _repr_html_(self) -> str:
         """A plain HTML table (no JavaScript), readable in an untrusted notebook."""
         e = html.escape
