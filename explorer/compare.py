@@ -115,6 +115,7 @@ class Comparison:
                 f" ({r.startup.cycles_uvlo} cyc)" if r.startup.cycles_uvlo is not None else ""))),
             ("inrush peak", cell(lambda r: format_eng(r.startup.i_peak, "A"))),
             ("HS duty range", cell(duty)),
+            ("limit, topology terms", cell(lambda r: topology_text(r.duty.topology))),
             ("hold-up at 100 %", cell(lambda r: "unlimited" if r.duty.hold_up is None else format_eng(r.duty.hold_up, "s"))),
             ("R_out", cell(lambda r: format_eng(r.r_out, "\u03a9"))),
             ("cap V_max / rating", cell(caps)),
@@ -169,6 +170,30 @@ class Comparison:
                 f"<p>ranking ({e(RANKINGS[self.rank][0])}): {e(' > '.join(self.ranking()))}</p>"
                 + (f"<ul>{warn}</ul>" if warn else "")
                 + f"<p style='font-size:smaller'>{e(CAUTION)}</p></div>")
+
+
+#: How the duty-limit figures in the topology's own terms read in a table (key → template).
+_TOPOLOGY_TERMS = {
+    "v_out_max": lambda x: f"V_out \u2264 {format_eng(x, 'V')}",
+    "v_out_over_v_in_min": lambda x: f"V_out/V_in \u2265 {x:.3g}",
+    "duty_command_max": lambda x: f"command \u2264 {100 * x:.1f} %",
+    "m_max": lambda x: f"m \u2264 {x:.3g}",
+    "f_o_min": lambda x: f"f_o \u2265 {format_eng(x, 'Hz')}",
+    "f_sw_max": lambda x: f"f_sw \u2264 {format_eng(x, 'Hz')}",
+    "q_g_max": lambda x: f"Q_G \u2264 {format_eng(x, 'C')}",
+    "passes": lambda x: "holds at this line frequency" if x else "fails at this line frequency",
+}
+
+
+def topology_text(terms: dict) -> str:
+    """Plain words for ``DutyLimits.topology`` (e.g. ``V_out ≤ 47.2 V``); unknown keys are skipped."""
+    parts = []
+    for key, fmt in _TOPOLOGY_TERMS.items():
+        if key in terms:
+            v = terms[key]
+            parts.append("none feasible" if v is None and key != "f_o_min" else
+                         "\u2014" if v is None else fmt(v))
+    return ", ".join(parts) or "\u2014"
 
 
 #: Shown under every comparison (see README "Safety").

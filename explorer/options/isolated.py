@@ -396,6 +396,24 @@ def _rail_load(design: Design, sched: Schedule) -> tuple[float, float]:
     return q0, q1
 
 
+def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption, v: float) -> dict:
+    """Highest f_sw and Q_G whose gate load stays within p_rated (any duty works) [Hz], [C].
+
+    The load P = V·(r_on·(Q_G + Q_LS) + I_Q + V·D_on/R_GS) with r_on the HS turn-ons
+    per second, which scales with f_sw, and D_on the HS on-time share (gate-drive
+    power P = Q·V·f, as in :mod:`explorer.loads`).
+    """
+    budget = option.p_rated / v - design.driver.i_q
+    if design.gate.r_gs is not None:
+        budget -= v * float(sched.dt[sched.hs_on].sum()) / sched.period / design.gate.r_gs
+    rate = np.count_nonzero(sched.hs_turn_on) / sched.period
+    if rate == 0 or budget <= 0:
+        return {"f_sw_max": None if budget <= 0 else math.inf, "q_g_max": None if budget <= 0 else math.inf}
+    q = charge_per_turn_on(design)
+    return {"f_sw_max": design.bridge.f_sw * budget / (rate * q),
+            "q_g_max": budget / rate - design.driver.q_ls}
+
+
 def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "nominal") -> OptionResult:
     """Evaluate an isolated-supply option of a design.
 
@@ -546,7 +564,8 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         label=option.label, kind=option.kind, feasible=feasible, verdict=verdict, warnings=tuple(warn),
         v_rail=RailStats(min=rail.min, max=rail.max, mean=rail.mean), efficiency=efficiency,
         p_delivered=p_load, p_drawn=p_drawn, startup=startup,
-        duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None, topology={}),
+        duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None,
+                        topology=_rating_limits(design, sched, option, rail.mean)),
         r_out=option.r_out, capacitors=(stress,), p_drawn_aux=p_in, p_drawn_bus=p_cm, losses=losses,
         checks=tuple(checks), extra=extra, t=t_wave, v=v_wave)
 
