@@ -427,6 +427,7 @@ def test_rating_limits_in_topology_terms():
     # gate-drive power P = Q_G·V·f (Mohan, Undeland & Robbins, Power Electronics, §22-3): at the reported
     # f_sw_max the gate load reaches p_rated, so just below it the rating check passes and just above fails
     from explorer import demo_design, replace_field
+    from explorer.options.isolated import evaluate_option
     d = demo_design()
     i = [o.label for o in d.options].index("isolated 1 W")
     r = evaluate_option(d, d.options[i])
