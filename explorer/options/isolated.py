@@ -396,13 +396,17 @@ def _rail_load(design: Design, sched: Schedule) -> tuple[float, float]:
     return q0, q1
 
 
-def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption, v: float) -> dict:
+def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> dict:
     """Highest f_sw and Q_G whose gate load stays within p_rated (any duty works) [Hz], [C].
 
     The load P = V·(r_on·(Q_G + Q_LS) + I_Q + V·D_on/R_GS) with r_on the HS turn-ons
     per second, which scales with f_sw, and D_on the HS on-time share (gate-drive
-    power P = Q·V·f, as in :mod:`explorer.loads`).
+    power P = Q·V·f, as in :mod:`explorer.loads`). V is the mean rail at the
+    rated load, V = v_out − r_out·I with V·I = p_rated (the mean rail of the
+    source-behind-r_out model is exactly v_out − r_out·mean(I) by charge balance).
     """
+    disc = option.v_out ** 2 - 4.0 * option.r_out * option.p_rated
+    v = 0.5 * (option.v_out + math.sqrt(disc)) if disc > 0 else 0.5 * option.v_out
     budget = option.p_rated / v - design.driver.i_q
     if design.gate.r_gs is not None:
         budget -= v * float(sched.dt[sched.hs_on].sum()) / sched.period / design.gate.r_gs
@@ -565,7 +569,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         v_rail=RailStats(min=rail.min, max=rail.max, mean=rail.mean), efficiency=efficiency,
         p_delivered=p_load, p_drawn=p_drawn, startup=startup,
         duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None,
-                        topology=_rating_limits(design, sched, option, rail.mean)),
+                        topology=_rating_limits(design, sched, option)),
         r_out=option.r_out, capacitors=(stress,), p_drawn_aux=p_in, p_drawn_bus=p_cm, losses=losses,
         checks=tuple(checks), extra=extra, t=t_wave, v=v_wave)
 
