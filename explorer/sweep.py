@@ -5,7 +5,8 @@ Axes are design-file field paths (``"bridge.f_sw"``, ``"options[0].c"``,
 ``"duty"``, which sets the topology's own duty variable so that the HS
 on-time share of the switching period takes the given value (a buck's v_out,
 a boost's v_in, a bridge's duty command, a three-phase leg's modulation index
-at the crest; see :func:`duty_field`).
+at the crest; see :func:`duty_field`), or ``"temperature"`` [°C] (see
+:func:`temperature_fields`).
 
 Each grid point is a complete, re-validated design evaluated with the same
 models as :func:`explorer.evaluate`, so a sweep value equals the point's
@@ -30,7 +31,7 @@ from .errors import DesignError
 from .loads import required_rail
 from .options import MODULES
 
-__all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "margin_map", "MarginMap"]
+__all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "temperature_fields", "margin_map", "MarginMap"]
 
 
 def _get(fn: Callable) -> Callable:
@@ -108,8 +109,28 @@ class Sweep:
                 "invalid": {str(k): v for k, v in self.invalid.items()}}
 
 
+def temperature_fields(design: Design, t: float) -> dict:
+    """Design changes for an operating temperature ``t`` [°C].
+
+    Sets ``checks.t_amb`` (the junction diode's thermal voltage follows it) and
+    grows each bootstrap diode's leakage by ``spread.leak_per_100k`` per 100 K
+    above the design's own ``t_amb``. Capacitance keeps its 25 °C value: an
+    EIA-198 code bounds the change over temperature but gives no curve, so the
+    class envelope is handled by the corners and Monte Carlo instead.
+    """
+    t0 = design.checks.t_amb
+    out = {"checks.t_amb": float(t)}
+    for i, o in enumerate(design.options):
+        if o.kind == "bootstrap" and o.i_leak > 0:
+            out[f"options[{i}].i_leak"] = o.i_leak * design.spread.leak_per_100k ** ((t - t0) / 100.0)
+    return out
+
+
 def _point(design: Design, assignments) -> Design:
-    changes = {p: float(v) for p, v in assignments if p != "duty"}
+    changes = {p: float(v) for p, v in assignments if p not in ("duty", "temperature")}
+    for path, value in assignments:
+        if path == "temperature":
+            changes.update(temperature_fields(design, float(value)))
     for path, value in assignments:
         if path == "duty":
             f = changes.get("bridge.f_sw", design.bridge.f_sw)
@@ -153,7 +174,7 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
         if v.size == 0 or v.size > 100_000:
             raise DesignError(f"axes[{p}]", "expected 1 to 100000 values", v.size)
     for p, v in zip(paths, vals):  # an unknown field is an error of the call, not of a grid point
-        if p != "duty":
+        if p not in ("duty", "temperature"):
             try:
                 replace_fields(d0, {p: float(v[0])})
             except DesignError as e:

@@ -199,3 +199,16 @@ def test_size_isolated_rating():
     assert r.value >= 2.0 * 0.0999
     with pytest.raises(DesignError, match="headroom"):
         size_isolated_rating(d, "isolated 1 W", headroom=0.5)
+
+
+def test_temperature_sweep_grows_leakage():
+    # junction leakage grows with temperature (the spread's leak_per_100k, here 100 per 100 K):
+    # the rail minimum never rises as it gets hotter, and at t_amb the sweep equals evaluate
+    d = demo_with(**{"options.0.i_leak": 2e-4, "checks": {"t_min": -40, "t_max": 150, "t_amb": 25}})
+    t = np.array([-40.0, 25.0, 85.0, 125.0])
+    s = sweep(d, {"temperature": t}, labels=[BOOT], figures=["rail_min"])
+    rail = s.figures[BOOT]["rail_min"]
+    assert np.all(np.diff(rail) <= 1e-12)
+    assert rail[1] == pytest.approx(evaluate(d)[BOOT].v_rail.min, rel=1e-12)
+    s2 = sweep(d, {"temperature": [200.0]}, labels=[BOOT], figures=["rail_min"])
+    assert "checks.t_amb" in s2.invalid[(0,)]
