@@ -1,0 +1,584 @@
+"""SPICE netlist export: each option's circuit driven by the design's schedule.
+
+The SPICE netlist is the trade's common exchange format. :func:`export_netlist`
+writes a complete, self-contained netlist (plain SPICE elements and the
+standard ``D`` and ``SW`` models only, numbers in plain exponent notation) of
+one option of a design, so that an engineer can re-run the model's case in the
+circuit simulator of their choice. It is checked against the open-source
+ngspice simulator in ``tests/test_netlist.py``.
+
+What the netlist holds
+----------------------
+*The bridge leg.* The switch node ``vs`` is a piecewise-linear (PWL) voltage
+source following :func:`explorer.schedule.startup_schedule` (the optional
+low-side pre-charge, the soft-start ramp, then the operating point; the
+schedule continues periodically, so its last periods are the steady state of
+:func:`explorer.schedule.period_schedule`). Every level change takes the
+design's ``bridge.t_edge``. High-side pulses that the driver withholds while
+its rail is below UVLO-on are decided by the model (for the bootstrap the
+model's start-up solution; for a pump or an isolated module the model's time
+to UVLO-on) and leave ``vs`` at ``v_sw_low``, as in the model.
+
+*The gate load* between the rail ``vb`` and ``vs``: a current pulse carrying
+Q_G + Q_LS over ``t_edge`` at each delivered HS turn-on, the driver's
+quiescent current I_Q as a DC source, and R_GS switched in while the HS is on
+(a voltage-controlled switch driven by the 0/1 node ``hs``).
+
+*The option's parts.*
+
+* bootstrap: V_DD, R_boot, the diode as a SPICE ``D`` model (a junction diode
+  with its IS, N, RS; a straight-line diode as a sharp ideal junction in
+  series with V_F and r_D), its junction capacitance (CJO with grading M = 0,
+  i.e. a constant C_j, as the model takes it), its reverse leakage while SW is
+  high and its recovery charge at each SW rising edge (current pulses), and
+  C_boot (effective capacitance at the corner) with its ESR.
+* charge pump: the input rail, the four switches clocked at f_cp (standard
+  ``SW`` model, on-resistance R_on) with the pump's dead times, C_fly and
+  C_out (effective) with their ESRs. 1:1 charges the flying capacitor from the
+  ground-referenced input and transfers in the SW domain; for 1:2 and 2:1 the
+  input rail is referred to the switch node, which is the model's stated
+  assumption (see :mod:`explorer.options.charge_pump`).
+* isolated: the module as a PWL source (0 until ``t_start``, a ramp to
+  ``v_out`` over ``t_ramp``) behind ``r_out``, C_out (effective) with its
+  ESR, and C_iso from the SW domain across the barrier to the primary ground,
+  in series with a 0 V source ``VCM`` whose current is the common-mode current.
+
+Parasitics that the models count only as losses (a pump's bottom-plate and
+domain-crossing capacitance, its switches' gate drive; a module's input side)
+are not drawn.
+
+The netlist ends with ``.options`` (reltol = 1e-4), a ``.tran … uic`` line
+covering the start-up plus a few analysis periods from dead capacitors, and
+no ``.control``/``.end``, so that :func:`explorer.spice.run_transient` can
+append its control block; ``standalone=True`` appends a control block that
+writes the rail to a text file, and ``.end``.
+
+Results are estimates to be confirmed by measurement.
+"""
+
+from __future__ import annotations
+
+import math
+import re
+from dataclasses import dataclass
+
+import numpy as np
+
+from .bootstrap_engine import thermal_voltage
+from .design import BootstrapOption, ChargePumpOption, Design, IsolatedOption, JunctionDiode
+from .errors import DesignError
+from .loads import charge_per_turn_on
+from .schedule import Schedule, period_schedule, startup_schedule
+from .spice import spice_number as _n
+
+__all__ = ["export_netlist", "export_all", "netlist_probes", "netlist_plan", "NetlistPlan",
+           "STEADY_PERIODS", "SETTLE_TAU", "POINTS_PER_PERIOD", "RELTOL"]
+
+#: Analysis periods simulated after the rail has settled [-].
+STEADY_PERIODS = 4
+#: Time constants allowed for the rail to settle after start-up (e^-12 ≈ 6e-6) [-].
+SETTLE_TAU = 12.0
+#: Output points per fastest period of interest (switching or pump clock) [-]; the
+#: PWL corners are breakpoints, so the simulator also steps onto every edge.
+POINTS_PER_PERIOD = 100
+#: Relative tolerance of the transient.
+RELTOL = 1e-4
+#: Off resistance of the pump's switches [Ω] (ngspice 39 finds the first step singular
+#: with a floating flying capacitor above about this; it leaks V/1e6 per open switch).
+R_OFF = 1e6
+#: Saturation current [A] and emission coefficient [-] of the sharp junction that stands for
+#: the knee of a straight-line diode.
+SHARP_IS, SHARP_N = 1e-14, 0.01
+#: Smallest resistance written where the design allows zero [Ω].
+R_MIN = 1e-6
+
+_CAUTION = ("results are estimates to be confirmed by measurement; bus voltages can be lethal "
+            "and stored charge persists after power-off")
+
+
+# --------------------------------------------------------------------------- plan
+
+@dataclass(frozen=True)
+class NetlistPlan:
+    """What one exported netlist simulates (all times from t = 0, dead capacitors).
+
+    Attributes
+    ----------
+    label, kind : str
+    schedule : Schedule
+        The start-up schedule the switch node follows.
+    delivered : ndarray of bool
+        HS pulses delivered (the others are withheld by UVLO).
+    n_cycles : int
+        Switching periods of the schedule (after the pre-charge).
+    t_stop : float [s]
+        End of the transient.
+    t_step : float [s]
+        Output step (and largest internal step) of the transient.
+    t_steady : float [s]
+        Start of the last ``STEADY_PERIODS`` analysis periods (steady-state window).
+    t_pump0 : float [s]
+        Start of the pump clock's first phase (0 for the other kinds).
+    t_uvlo_model : float or None [s]
+        Model's time to UVLO-on, in the netlist's time frame.
+    result : OptionResult
+        The model's result for the same design, option and corner.
+    """
+
+    label: str
+    kind: str
+    schedule: Schedule
+    delivered: np.ndarray
+    n_cycles: int
+    t_stop: float
+    t_step: float
+    t_steady: float
+    t_pump0: float
+    t_uvlo_model: float | None
+    result: object
+
+
+def _option(design: Design, label: str):
+    if not isinstance(label, str):
+        raise DesignError("label", "expected an option label (text)", label)
+    return design.option(label)
+
+
+def _evaluate(design: Design, option, corner: str):
+    from .options import model_for
+    fn = model_for(option.kind)
+    if fn is None:
+        raise DesignError("kind", "no model for this option kind", option.kind)
+    return fn(design, option, corner=corner)
+
+
+def _settle_time(design: Design, option, result, corner: str) -> float:
+    """Time for the rail to settle after start-up [s]: SETTLE_TAU time constants."""
+    if isinstance(option, BootstrapOption):
+        from .options.bootstrap import bootstrap_circuit
+        circ = bootstrap_circuit(design, option, corner)
+        s = period_schedule(design)
+        low = float(s.dt[~s.sw_high].sum() / s.period)  # the loop only refreshes while SW is low
+        return SETTLE_TAU * circ.r_tot * circ.c / max(low, 1e-3)
+    if isinstance(option, ChargePumpOption):
+        return SETTLE_TAU * float(result.r_out) * float(result.extra["c_out_eff"])
+    return SETTLE_TAU * float(result.extra["tau_out"])
+
+
+def netlist_plan(design: Design, label: str, *, n_cycles: int | None = None,
+                 corner: str = "nominal") -> NetlistPlan:
+    """The schedule, delivered pulses and time span an exported netlist simulates.
+
+    Parameters
+    ----------
+    design : Design
+    label : str
+        Label of the option.
+    n_cycles : int, optional
+        Switching periods of the start-up schedule to simulate (after the
+        pre-charge). Default: the soft-start or the model's time to UVLO-on,
+        whichever is longer, plus :data:`SETTLE_TAU` time constants of the
+        rail, plus :data:`STEADY_PERIODS` analysis periods.
+    corner : {"nominal", "min", "max"}
+        Capacitance corner (:func:`explorer.capacitors.capacitance`).
+    """
+    option = _option(design, label)
+    b = design.bridge
+    result = _evaluate(design, option, corner)
+    per = period_schedule(design)
+    t_sw = per.t_switch
+    t_pump0 = 0.0
+    t_uvlo = result.startup.t_uvlo if result.startup is not None else None
+    durations = None
+    if isinstance(option, ChargePumpOption):
+        from .options.charge_pump import pump_durations
+        from .scnet import spice_t0
+        durations = pump_durations(option.f_cp, option.dead_time_cp)
+        t_pump0 = spice_t0(durations)
+    if t_uvlo is not None:
+        t_uvlo = t_uvlo + t_pump0
+    if n_cycles is None:
+        t_ss = b.soft_start if b.topology not in ("half_bridge", "line_leg") else 0.0
+        t_first = max(t_ss, t_uvlo if t_uvlo is not None else b.startup_cycles * t_sw)
+        n_cycles = (math.ceil((t_first + _settle_time(design, option, result, corner)) / t_sw)
+                    + STEADY_PERIODS * per.n_cycles)
+    if not isinstance(n_cycles, (int, np.integer)) or isinstance(n_cycles, bool) or n_cycles < 1:
+        raise DesignError("n_cycles", "expected a whole number of switching periods \u2265 1", n_cycles)
+    n_cycles = int(n_cycles)
+    s = startup_schedule(design, n_cycles=n_cycles)
+    if isinstance(option, BootstrapOption):
+        from .options.bootstrap import startup
+        delivered = startup(design, option, corner, n_cycles=n_cycles).delivered
+    else:
+        delivered = s.hs_on & (t_uvlo is not None) & (s.t_start >= (t_uvlo if t_uvlo is not None else 0.0))
+    t_stop = s.period
+    fastest = min(t_sw, s.t_switch)
+    if durations is not None:
+        fastest = min(fastest, float(durations.sum()))
+    t_step = min(fastest / POINTS_PER_PERIOD, t_stop / 50.0)
+    t_steady = max(0.0, t_stop - STEADY_PERIODS * per.period)
+    return NetlistPlan(label=option.label, kind=option.kind, schedule=s, delivered=np.asarray(delivered, bool),
+                       n_cycles=n_cycles, t_stop=t_stop, t_step=t_step, t_steady=t_steady, t_pump0=t_pump0,
+                       t_uvlo_model=t_uvlo, result=result)
+
+
+# --------------------------------------------------------------------------- text helpers
+
+_ASCII = {"\u2192": "->", "\u00b5": "u", "\u03bc": "u", "\u03a9": "Ohm", "\u2126": "Ohm", "\u00b7": ".",
+          "\u2013": "-", "\u2014": "-", "\u2264": "<=", "\u2265": ">=", "\u00d7": "x", "\u00b0": "deg"}
+
+
+def _ascii(text: str) -> str:
+    """Comment text in plain ASCII (some simulators reject other bytes)."""
+    out = "".join(_ASCII.get(ch, ch) for ch in str(text))
+    out = out.encode("ascii", "replace").decode("ascii")
+    return " ".join(out.split())
+
+
+def _pwl(points, per_line: int = 4) -> str:
+    """``PWL(t1 v1 t2 v2 …)`` with continuation lines."""
+    pairs = [f"{_n(t)} {_n(v)}" for t, v in points]
+    rows = [" ".join(pairs[i:i + per_line]) for i in range(0, len(pairs), per_line)]
+    return "PWL(" + "\n+ ".join(rows) + ")"
+
+
+def _steps(t0: np.ndarray, dt: np.ndarray, levels: np.ndarray, edge: float, start: float, t_stop: float,
+           threshold: float):
+    """PWL points of a staircase: level k from t0[k], each change a ramp of ``edge``.
+
+    A change that crosses ``threshold`` upward ramps just after t0[k], one
+    that crosses it downward just before t0[k], so that every interval below
+    the threshold keeps its whole length (for the switch node: the refresh
+    window of a bootstrap is exactly the model's); any other change is
+    centred on t0[k]. A ramp never takes more than half of the interval on
+    either side of it.
+    """
+    prev_dt = np.concatenate(([np.inf], dt[:-1]))
+    pts = [(0.0, start)]
+    prev = start
+    for tk, dk, dp, lv in zip(t0, dt, prev_dt, levels):
+        if dk <= 0 or lv == prev:
+            continue
+        e = min(edge, 0.5 * dk, 0.5 * dp)
+        if prev < threshold <= lv:
+            a = tk
+        elif lv < threshold <= prev:
+            a = tk - e
+        else:
+            a = tk - 0.5 * e
+        a = max(a, pts[-1][0])
+        if a > pts[-1][0]:
+            pts.append((a, prev))
+        pts.append((a + e, lv))
+        prev = lv
+    if t_stop > pts[-1][0]:
+        pts.append((t_stop, prev))
+    return pts
+
+
+def _pulses(times: np.ndarray, widths: np.ndarray, height: float, t_stop: float):
+    """PWL points of rectangular pulses starting at ``times`` (rise and fall 1e-3 of the width)."""
+    pts = [(0.0, 0.0)]
+    for a, w in zip(times, widths):
+        r = 1e-3 * w
+        if a > pts[-1][0]:
+            pts.append((a, 0.0))
+        pts += [(a + r, height), (a + w - r, height), (a + w, 0.0)]
+    if t_stop > pts[-1][0]:
+        pts.append((t_stop, 0.0))
+    return pts
+
+
+def _edge_widths(s: Schedule, k: np.ndarray, edge: float) -> np.ndarray:
+    """Width of the edge at the start of intervals ``k``: t_edge, at most half of either neighbour [s]."""
+    prev = np.concatenate(([np.inf], s.dt[:-1]))
+    return np.minimum(edge, 0.5 * np.minimum(s.dt[k], prev[k]))
+
+
+def _charge_pulses(name: str, a: str, b: str, s: Schedule, k: np.ndarray, q: float, edge: float,
+                   t_stop: float) -> list[str]:
+    """Current sources drawing charge ``q`` from ``a`` to ``b`` over the edge starting at each interval in ``k``.
+
+    One source per distinct edge width keeps each pulse's charge exact.
+    """
+    w = _edge_widths(s, k, edge)
+    out = []
+    for j, wj in enumerate(np.unique(w)):
+        kk = k[w == wj]
+        out.append(f"{name}{j} {a} {b} {_pwl(_pulses(s.t_start[kk], np.full(kk.size, wj), q / wj, t_stop))}")
+    return out
+
+
+# --------------------------------------------------------------------------- shared parts
+
+def _bridge_lines(design: Design, plan: NetlistPlan, *, extra_on=None) -> list[str]:
+    """Switch node, HS-on control node and the gate load between vb and vs."""
+    b, s = design.bridge, plan.schedule
+    v_low = b.v_sw_low
+    live = s.dt > 0
+    v_sw = np.where(s.hs_on & ~plan.delivered, v_low, s.v_sw)
+    t0, dt = s.t_start, s.dt
+    edge = b.t_edge
+    lines = ["* --- bridge leg: switch node and high-side gate load (from the design's schedule)",
+             f"VSW vs 0 {_pwl(_steps(t0, dt, v_sw, edge, v_low, plan.t_stop, 0.5 * b.v_bus))}",
+             f"VHS hs 0 {_pwl(_steps(t0, dt, plan.delivered.astype(float), edge, 0.0, plan.t_stop, 0.5))}"]
+    prev = np.concatenate(([False], plan.delivered[:-1]))
+    on = np.flatnonzero(plan.delivered & ~prev & live)
+    q = charge_per_turn_on(design)
+    if on.size and q > 0:
+        lines.append("* gate charge Q_G + Q_LS drawn over the SW edge at each delivered HS turn-on")
+        lines += _charge_pulses("IG", "vb", "vs", s, on, q, edge, plan.t_stop)
+    lines.append(f"IQ vb vs DC {_n(design.driver.i_q)}")
+    if design.gate.r_gs is not None:
+        lines += ["* gate pull-down R_GS, connected while the HS is on",
+                  f"RGS vb gs {_n(design.gate.r_gs)}",
+                  "SGS gs vs hs 0 SWGS",
+                  f".model SWGS SW(VT=0.5 VH=0 RON={_n(R_MIN * 1e3)} ROFF=1e12)"]
+    return lines
+
+
+def _sw_high_pwl(design: Design, plan: NetlistPlan) -> list:
+    s = plan.schedule
+    v_sw = np.where(s.hs_on & ~plan.delivered, design.bridge.v_sw_low, s.v_sw)
+    high = (v_sw > 0.5 * design.bridge.v_bus).astype(float)
+    return _steps(s.t_start, s.dt, high, design.bridge.t_edge, 0.0, plan.t_stop, 0.5)
+
+
+# --------------------------------------------------------------------------- options
+
+def _bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, corner: str) -> list[str]:
+    from .options.bootstrap import bootstrap_circuit
+    circ = bootstrap_circuit(design, option, corner)
+    d = option.diode
+    lines = ["* --- bootstrap: V_DD -> R -> diode -> C_boot (with ESR) between vb and vs",
+             f"VDD dd 0 DC {_n(circ.v_dd)}",
+             f"RB dd a {_n(max(option.r, R_MIN))}"]
+    cj = f" CJO={_n(option.c_j)} M=0" if option.c_j > 0 else ""
+    if isinstance(d, JunctionDiode):
+        lines += ["* junction diode from the design's i_s, n, r_s; C_j constant (M = 0)",
+                  "DB a vb DBOOT",
+                  f".model DBOOT D(IS={_n(d.i_s)} N={_n(d.n)} RS={_n(d.r_s)}{cj})"]
+    else:
+        # the sharp junction adds n·V_T·ln(1 + i/IS) to the drop; V_F is reduced by that at the
+        # average diode current, so the drop matches v_f + r_d·i to about 1 mV over the conduction range
+        s_avg = period_schedule(design)
+        i_avg = design.driver.i_q + charge_per_turn_on(design) * np.count_nonzero(s_avg.hs_turn_on) / s_avg.period
+        v_j = SHARP_N * thermal_voltage(design.checks.t_amb) * math.log1p(i_avg / SHARP_IS)
+        lines += ["* straight-line diode (v_f + r_d*i): a sharp ideal junction in series with a source and r_d;",
+                  f"* the source is V_F less the junction's own drop at the average diode current ({_n(v_j)} V);"
+                  " C_j constant (M = 0)",
+                  "DB a k1 DBOOT",
+                  f"VF k1 k2 DC {_n(d.v_f - v_j)}",
+                  f"RD k2 vb {_n(max(d.r_d, R_MIN))}",
+                  f".model DBOOT D(IS={_n(SHARP_IS)} N={_n(SHARP_N)}{cj})"]
+    if option.i_leak > 0:
+        lines += ["* diode reverse leakage while SW is high (from vb back to the anode)",
+                  f"VHI swhi 0 {_pwl(_sw_high_pwl(design, plan))}",
+                  f"GLK vb a swhi 0 {_n(option.i_leak)}"]
+    if option.q_rr > 0:
+        s = plan.schedule
+        v_sw = np.where(s.hs_on & ~plan.delivered, design.bridge.v_sw_low, s.v_sw)
+        high = v_sw > 0.5 * design.bridge.v_bus
+        prev = np.concatenate(([False], high[:-1]))
+        k = np.flatnonzero(high & ~prev & (s.dt > 0))
+        if k.size:
+            lines.append("* diode recovery charge Q_rr at each SW rising edge")
+            lines += _charge_pulses("IRR", "vb", "a", s, k, option.q_rr, design.bridge.t_edge, plan.t_stop)
+    lines += [f"* C_boot: {_n(option.c)} F nominal, {_n(circ.c)} F effective at the '{corner}' corner",
+              f"CBOOT vb cb {_n(circ.c)} IC=0",
+              f"RESR cb vs {_n(max(option.esr, R_MIN))}"]
+    return lines
+
+
+def _pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> list[str]:
+    from .options.charge_pump import CIRCUITS, pump_durations
+    circ = CIRCUITS[option.ratio]
+    r = plan.result
+    v_in = option.v_in if option.v_in is not None else design.aux.v_dd
+    d = pump_durations(option.f_cp, option.dead_time_cp)
+    t_cp = float(d.sum())
+    t0 = plan.t_pump0
+    tr = t0  # control edges: 1e-2 of the shortest phase, as explorer.scnet.to_spice
+    domain_crossing = circ.ratio == "1:1"
+    ref_in = "0" if domain_crossing else "vs"
+    lines = [f"* --- charge pump {circ.ratio} clocked at {_n(option.f_cp)} Hz "
+             f"(phases: charge, dead, transfer, dead)"]
+    if domain_crossing:
+        lines.append("* 1:1: the flying capacitor charges from the ground-referenced input and transfers "
+                     "across C_out in the SW domain")
+    else:
+        lines.append("* the input rail is referred to the switch node, as the model assumes "
+                     "(explorer.options.charge_pump)")
+    lines.append(f"VIN in {ref_in} DC {_n(v_in)}")
+    starts = (0.0, float(d[:2].sum()))
+    for p, st in zip((1, 2), starts):
+        lines.append(f"VPH{p} ph{p} 0 PULSE(0 1 {_n(t0 + st - tr / 2)} {_n(tr)} {_n(tr)} "
+                     f"{_n(float(d[2 * (p - 1)]) - tr)} {_n(t_cp)})")
+    lines.append(f".model SWCP SW(VT=0.5 VH=0 RON={_n(max(option.r_on, R_MIN))} ROFF={_n(R_OFF)})")
+    node = {"in": "in", "t": "t", "b": "fb", "out": "vb"}
+    for name, a, b_, phase in circ.switches:
+        p = 1 if phase == 0 else 2
+        gnd = "0" if (domain_crossing and p == 1) else "vs"
+        na, nb = (node.get(x, gnd) for x in (a, b_))
+        lines.append(f"S{name.upper()} {na} {nb} ph{p} 0 SWCP")
+    c_fly = float(r.extra["c_fly_eff"])
+    c_out = float(r.extra["c_out_eff"])
+    lines += [f"* C_fly: {_n(option.c_fly.c)} F nominal, {_n(c_fly)} F effective",
+              f"CFLY t cf {_n(c_fly)} IC=0",
+              f"RFLY cf fb {_n(max(option.c_fly.esr, R_MIN))}",
+              f"* C_out: {_n(option.c_out.c)} F nominal, {_n(c_out)} F effective",
+              f"COUT vb co {_n(c_out)} IC=0",
+              f"RCOUT co vs {_n(max(option.c_out.esr, R_MIN))}"]
+    return lines
+
+
+def _isolated_lines(design: Design, option: IsolatedOption, plan: NetlistPlan) -> list[str]:
+    c_out = float(plan.result.capacitors[0].c_eff)
+    t1 = option.t_start
+    t2 = t1 + max(option.t_ramp, 1e-3 * design.bridge.t_edge)
+    pts = [(0.0, 0.0)] + ([(t1, 0.0)] if t1 > 0 else []) + [(t2, option.v_out)]
+    if plan.t_stop > t2:
+        pts.append((plan.t_stop, option.v_out))
+    return ["* --- isolated module: source (delay t_start, ramp t_ramp) behind r_out, C_out with ESR",
+            f"VMOD m vs {_pwl(pts)}",
+            f"RMOD m vb {_n(max(option.r_out, R_MIN))}",
+            f"* C_out: {_n(option.c_out.c)} F nominal, {_n(c_out)} F effective",
+            f"COUT vb co {_n(c_out)} IC=0",
+            f"RCOUT co vs {_n(max(option.c_out.esr, R_MIN))}",
+            "* isolation capacitance from the SW domain across the barrier; i(VCM) is the common-mode current",
+            f"CISO vs iso {_n(option.c_iso)}",
+            "VCM iso 0 DC 0"]
+
+
+# --------------------------------------------------------------------------- probes and export
+
+def netlist_probes(design: Design, label: str) -> dict:
+    """Vector expressions to read from an exported netlist, by meaning.
+
+    Keys: ``"rail"`` (V_B − V_S at the terminals), ``"cap"`` (the rail's
+    capacitor without its ESR drop, the state the models report), ``"sw"``
+    (the switch node); for an isolated option also ``"i_cm"`` (common-mode
+    current through C_iso) and for a pump ``"fly"`` (the flying capacitor).
+    """
+    option = _option(design, label)
+    p = {"rail": "v(vb)-v(vs)", "sw": "v(vs)"}
+    if isinstance(option, BootstrapOption):
+        p["cap"] = "v(vb)-v(cb)"
+    else:
+        p["cap"] = "v(vb)-v(co)"
+    if isinstance(option, ChargePumpOption):
+        p["fly"] = "v(t)-v(cf)"
+    if isinstance(option, IsolatedOption):
+        p["i_cm"] = "i(vcm)"
+    return p
+
+
+def _slug(label: str) -> str:
+    s = re.sub(r"[^A-Za-z0-9]+", "_", label).strip("_").lower()
+    return s or "option"
+
+
+def _fmt_opt(x, unit):
+    return "n/a" if x is None else f"{x:.6g} {unit}"
+
+
+def export_netlist(design: Design, label: str, *, n_cycles: int | None = None, corner: str = "nominal",
+                   standalone: bool = False) -> str:
+    """A complete SPICE netlist of one option driven by the design's schedule.
+
+    Parameters
+    ----------
+    design : Design
+    label : str
+        Label of the option to export.
+    n_cycles : int, optional
+        Switching periods of the start-up schedule to simulate (see
+        :func:`netlist_plan`; the default covers the start-up, the rail's
+        settling and :data:`STEADY_PERIODS` analysis periods).
+    corner : {"nominal", "min", "max"}
+        Capacitance corner: capacitors are written at their effective value
+        (tolerance, temperature class, DC bias) as the model uses it.
+    standalone : bool
+        Append a ``.control`` block (run, ``wrdata`` of time and the rail to
+        ``<label>.txt``, quit) and ``.end``. Without it the text ends at the
+        ``.tran`` line, as :func:`explorer.spice.run_transient` expects.
+
+    Returns
+    -------
+    str
+        The netlist (first line is the title, as SPICE requires). The header
+        names the design, the caution, the nodes to probe and the model's own
+        figures for comparison.
+
+    Raises
+    ------
+    DesignError
+        For an unknown label, a bad ``n_cycles`` or an unknown corner.
+
+    Examples
+    --------
+    >>> from explorer import demo_design
+    >>> text = export_netlist(demo_design(), "bootstrap 220n", n_cycles=20)
+    >>> text.splitlines()[0]
+    '* explorer netlist: bootstrap 220n (bootstrap)'
+    >>> ".end" in text.split()
+    False
+    """
+    if corner not in ("nominal", "min", "max"):
+        raise DesignError("corner", "expected 'nominal', 'min' or 'max'", corner)
+    option = _option(design, label)
+    plan = netlist_plan(design, label, n_cycles=n_cycles, corner=corner)
+    r = plan.result
+    probes = netlist_probes(design, label)
+    b = design.bridge
+    head = [f"* explorer netlist: {_ascii(option.label)} ({option.kind})",
+            f"* Generated by explorer from the design \"{_ascii(design.title)}\", option "
+            f"\"{_ascii(option.label)}\", capacitance corner '{corner}'.",
+            f"* CAUTION: {_CAUTION}.",
+            "* Simulates start-up from dead capacitors (uic) through the design's start-up schedule:",
+            f"*   pre-charge {_n(b.precharge)} s, soft-start {_n(b.soft_start)} s, {plan.n_cycles} switching "
+            f"periods of {_n(plan.schedule.t_switch)} s, edges t_edge = {_n(b.t_edge)} s;",
+            f"*   {int(np.count_nonzero(plan.delivered))} of {int(np.count_nonzero(plan.schedule.hs_on))} HS pulses "
+            "delivered (the rest withheld by UVLO, as the model decides).",
+            "* Probe:",
+            f"*   {probes['rail']}  floating rail V_BS at the driver's terminals",
+            f"*   {probes['cap']}  rail capacitor voltage without its ESR drop (the models' rail)",
+            f"*   {probes['sw']}  switch node; v(hs) 1 while the high side is on"]
+    if "fly" in probes:
+        head.append(f"*   {probes['fly']}  flying capacitor voltage")
+    if "i_cm" in probes:
+        head.append(f"*   {probes['i_cm']}  common-mode current through the isolation capacitance")
+    head.append(f"* Steady state: the last {STEADY_PERIODS} analysis periods, from t = {_n(plan.t_steady)} s.")
+    if r.v_rail is not None:
+        head.append(f"* Model figures for comparison: rail min {_fmt_opt(r.v_rail.min, 'V')}, max "
+                    f"{_fmt_opt(r.v_rail.max, 'V')}, mean {_fmt_opt(r.v_rail.mean, 'V')}; time to UVLO-on "
+                    f"{_fmt_opt(plan.t_uvlo_model, 's')}.")
+    if isinstance(option, ChargePumpOption):
+        head.append("* (the model's pump rail extremes are a bound over every relative phase of the PWM and "
+                    "the pump clock; this circuit runs one phase)")
+    lines = head
+    lines += _bridge_lines(design, plan)
+    if isinstance(option, BootstrapOption):
+        lines += _bootstrap_lines(design, option, plan, corner)
+    elif isinstance(option, ChargePumpOption):
+        lines += _pump_lines(design, option, plan)
+    elif isinstance(option, IsolatedOption):
+        lines += _isolated_lines(design, option, plan)
+    else:  # pragma: no cover - the registry has no other kinds
+        raise DesignError("kind", "no netlist writer for this option kind", option.kind)
+    t_amb = _n(design.checks.t_amb)
+    lines += ["* --- analysis",
+              f".options reltol={_n(RELTOL)} abstol=1e-12 vntol=1e-6 method=gear temp={t_amb} tnom={t_amb}",
+              f".tran {_n(plan.t_step)} {_n(plan.t_stop)} 0 {_n(plan.t_step)} uic"]
+    text = "\n".join(lines) + "\n"
+    if standalone:
+        vecs = " ".join(dict.fromkeys([probes["rail"], probes["cap"], probes["sw"]]))
+        text += (".control\nset noaskquit\nset wr_singlescale\nset wr_vecnames\nrun\n"
+                 f"wrdata {_slug(option.label)}.txt {vecs}\nquit\n.endc\n.end\n")
+    return text
+
+
+def export_all(design: Design, *, corner: str = "nominal", standalone: bool = False) -> dict:
+    """:func:`export_netlist` of every option: label → netlist text."""
+    return {o.label: export_netlist(design, o.label, corner=corner, standalone=standalone)
+            for o in design.options}
