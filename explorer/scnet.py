@@ -46,6 +46,7 @@ and raises :class:`~explorer.errors.DesignError`.
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 from functools import cached_property
 from typing import Union
@@ -126,6 +127,59 @@ def _expm(a: np.ndarray) -> np.ndarray:
     return expm(flat).reshape(a.shape)
 
 
+def _phi(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """(e^x − 1)/x and (e^x − 1 − x)/x², with their Taylor series for |x| < 0.1 (error < 1e-16)."""
+    small = np.abs(x) < 0.1
+    xs = np.where(small, 1.0, x)
+    em1 = np.expm1(xs)
+    f1 = em1 / xs
+    f2 = (em1 - xs) / (xs * xs)
+    # series: Σ x^k/(k+1)! and Σ x^k/(k+2)!, k = 0..9
+    s1 = np.zeros_like(x)
+    s2 = np.zeros_like(x)
+    for k in range(9, -1, -1):
+        s1 = s1 * x + 1.0 / math.factorial(k + 1)
+        s2 = s2 * x + 1.0 / math.factorial(k + 2)
+    return np.where(small, s1, f1), np.where(small, s2, f2)
+
+
+def _solve_checked(A: np.ndarray, B: np.ndarray, cond_max: float, problem: str) -> np.ndarray:
+    """A⁻¹·B over leading batch dimensions; DesignError(problem) when any A has a 1-norm
+    condition number above cond_max (cheaper than the SVD condition number over a batch,
+    and within a factor n of it)."""
+    try:
+        inv = np.linalg.inv(A)
+    except np.linalg.LinAlgError:
+        raise DesignError("network", problem) from None
+    cond = np.abs(A).sum(axis=-2).max(axis=-1) * np.abs(inv).sum(axis=-2).max(axis=-1)
+    if not np.all(cond <= cond_max):
+        raise DesignError("network", problem)
+    return inv @ B
+
+
+def _modal_maps(modes, nx: int, nu: int, d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """E and S of every phase from the modes (:attr:`Network.modes`) for durations d (..., P)."""
+    lam, V, Vinv, VN = modes
+    t = d[..., None]
+    x = lam * t  # (..., P, nx)
+    f1, f2 = _phi(x)
+    e = np.exp(x)
+    p1 = f1 * t
+    p2 = f2 * t * t
+    nz = nx + nu
+    shape = np.broadcast_shapes(lam.shape[:-1], d.shape)
+    E = np.zeros(shape + (nz, nz))
+    S = np.zeros(shape + (nz, nz))
+    E[..., :nx, :nx] = (V * e[..., None, :]) @ Vinv
+    E[..., :nx, nx:] = (V * p1[..., None, :]) @ VN
+    S[..., :nx, :nx] = (V * p1[..., None, :]) @ Vinv
+    S[..., :nx, nx:] = (V * p2[..., None, :]) @ VN
+    iu = np.arange(nx, nz)
+    E[..., iu, iu] = 1.0
+    S[..., iu, iu] = d[..., None]
+    return E, S
+
+
 @dataclass(frozen=True)
 class Network:
     """A linear switched-capacitor network with a fixed cycle of phases.
@@ -165,9 +219,13 @@ class Network:
         for e in self.elements:
             if e.a == e.b:
                 raise DesignError(f"network.{e.name}", "both terminals on the same node", e.a)
-            if isinstance(e, Cap) and not (e.c > 0 and e.esr >= 0):
+            if isinstance(e, Cap) and not (np.all(np.asarray(e.c) > 0) and np.all(np.asarray(e.esr) >= 0)):
                 raise DesignError(f"network.{e.name}", "expected c > 0 F and esr \u2265 0 \u03a9", (e.c, e.esr))
-            if isinstance(e, Res) and not e.r > 0:
+            if isinstance(e, Cap) and np.ndim(e.esr) and np.any(np.asarray(e.esr) == 0) \
+                    and not np.all(np.asarray(e.esr) == 0):
+                raise DesignError(f"network.{e.name}.esr", "in a batch the ESR must be zero for every member or "
+                                  "for none (it changes the topology)", e.esr)
+            if isinstance(e, Res) and not np.all(np.asarray(e.r) > 0):
                 raise DesignError(f"network.{e.name}", "expected r > 0 \u03a9", e.r)
             if isinstance(e, (VSrc, ISrc)) and e.input not in self.inputs:
                 raise DesignError(f"network.{e.name}", f"input not declared; inputs: {self.inputs}", e.input)
@@ -214,10 +272,43 @@ class Network:
         """One :class:`PhaseSystem` per phase."""
         return tuple(self._phase_system(p) for p in range(self.n_phases))
 
+    def _shape_of(self, resistive_only: bool) -> tuple:
+        vals = []
+        for e in self.elements:
+            if isinstance(e, Cap):
+                vals += [e.esr] if resistive_only else [e.c, e.esr]
+            elif isinstance(e, Res):
+                vals.append(e.r)
+        try:
+            return np.broadcast_shapes(*(np.shape(v) for v in vals))
+        except ValueError:
+            raise DesignError("network", "element values of a batch must broadcast to one shape",
+                              [np.shape(v) for v in vals]) from None
+
+    @cached_property
+    def batch_shape(self) -> tuple:
+        """Common shape of the element values (``()`` for one network; see the module notes)."""
+        return self._shape_of(False)
+
+    @cached_property
+    def _g_shape(self) -> tuple:
+        """Shape of the resistances alone: the nodal analysis is done once per distinct resistive network."""
+        return self._shape_of(True)
+
+    @cached_property
+    def _F(self) -> np.ndarray:
+        return np.stack([s.F for s in self.systems], axis=-3)
+
+    def stacked(self, rows=None) -> tuple[np.ndarray, np.ndarray]:
+        """F of every phase, shape (*batch, P, n_z, n_z), and K's ``rows`` (all if None), (*batch, P, m, n_z)."""
+        K = np.stack([s.K if rows is None else s.K[..., rows, :] for s in self.systems], axis=-3)
+        return self._F, K
+
     def _phase_system(self, p: int) -> PhaseSystem:
         nodes = self.nodes
         idx = {n: i for i, n in enumerate(nodes)}
         nn, nx, nu = len(nodes), self.n_x, self.n_u
+        bs = self._g_shape  # Y, W and K do not depend on the capacitances; F broadcasts to the batch
         cap_idx = {e.name: i for i, e in enumerate(self.caps)}
         inp = {n: i for i, n in enumerate(self.inputs)}
         # connectivity for anchoring floating groups
@@ -232,11 +323,18 @@ class Network:
         def union(a, b):
             parent[find(a)] = find(b)
 
+        def ideal_cap(e):
+            return not np.any(np.asarray(e.esr) > 0)
+
+        def val(x):
+            """An element value as an array that broadcasts against (*batch, n) rows."""
+            return np.asarray(x, dtype=float)[..., None]
+
         ideal = []  # (a, b, kind, ref) branches with a current unknown
         for e in self.elements:
             if isinstance(e, Cap):
                 union(e.a, e.b)
-                if e.esr == 0:
+                if ideal_cap(e):
                     ideal.append((e.a, e.b, "x", cap_idx[e.name]))
             elif isinstance(e, Res):
                 if e.on(p):
@@ -259,8 +357,8 @@ class Network:
             ideal.append((members[0], GROUND, "0", 0))
         nj = len(ideal)
         n_z = nx + nu
-        Y = np.zeros((nn + nj, nn + nj))
-        R = np.zeros((nn + nj, n_z))
+        Y = np.zeros(bs + (nn + nj, nn + nj))
+        R = np.zeros(bs + (nn + nj, n_z))
 
         def stamp_g(a, b, g):
             for n1, s1 in ((a, 1), (b, -1)):
@@ -268,41 +366,42 @@ class Network:
                     continue
                 for n2, s2 in ((a, 1), (b, -1)):
                     if n2 != GROUND:
-                        Y[idx[n1], idx[n2]] += s1 * s2 * g
+                        Y[..., idx[n1], idx[n2]] += s1 * s2 * g
 
         for e in self.elements:
             if isinstance(e, Res) and e.on(p):
-                stamp_g(e.a, e.b, 1.0 / e.r)
-            elif isinstance(e, Cap) and e.esr > 0:
-                g = 1.0 / e.esr
+                stamp_g(e.a, e.b, 1.0 / np.asarray(e.r, dtype=float))
+            elif isinstance(e, Cap) and not ideal_cap(e):
+                g = 1.0 / np.asarray(e.esr, dtype=float)
                 stamp_g(e.a, e.b, g)
                 k = cap_idx[e.name]
                 if e.a != GROUND:
-                    R[idx[e.a], k] += g
+                    R[..., idx[e.a], k] += g
                 if e.b != GROUND:
-                    R[idx[e.b], k] -= g
+                    R[..., idx[e.b], k] -= g
             elif isinstance(e, ISrc):
                 k = nx + inp[e.input]
                 if e.a != GROUND:
-                    R[idx[e.a], k] -= 1.0
+                    R[..., idx[e.a], k] -= 1.0
                 if e.b != GROUND:
-                    R[idx[e.b], k] += 1.0
+                    R[..., idx[e.b], k] += 1.0
         for j, (a, b, kind, ref) in enumerate(ideal):
             r = nn + j
             if a != GROUND:
-                Y[idx[a], r] += 1.0
-                Y[r, idx[a]] += 1.0
+                Y[..., idx[a], r] += 1.0
+                Y[..., r, idx[a]] += 1.0
             if b != GROUND:
-                Y[idx[b], r] -= 1.0
-                Y[r, idx[b]] -= 1.0
+                Y[..., idx[b], r] -= 1.0
+                Y[..., r, idx[b]] -= 1.0
             if kind == "x":
-                R[r, ref] = 1.0
+                R[..., r, ref] = 1.0
             elif kind == "u":
-                R[r, nx + ref] = 1.0
-        if Y.size and np.linalg.cond(Y) > 1e13:
-            raise DesignError("network", f"phase {p} has a loop of capacitors without ESR and voltage "
-                              "sources with no resistance in it (no unique solution)")
-        W = np.linalg.solve(Y, R) if Y.size else np.zeros((0, n_z))
+                R[..., r, nx + ref] = 1.0
+        if Y.size:
+            W = _solve_checked(Y, R, 1e13, f"phase {p} has a loop of capacitors without ESR and voltage "
+                               "sources with no resistance in it (no unique solution)")
+        else:
+            W = np.zeros(bs + (0, n_z))
         jrow = {}
         for j, (a, b, kind, ref) in enumerate(ideal):
             if kind == "x":
@@ -311,50 +410,59 @@ class Network:
                 jrow[("u", ref)] = nn + j
 
         def vdiff(a, b):
-            row = np.zeros(n_z)
+            row = np.zeros(bs + (n_z,))
             if a != GROUND:
-                row += W[idx[a]]
+                row = row + W[..., idx[a], :]
             if b != GROUND:
-                row -= W[idx[b]]
+                row = row - W[..., idx[b], :]
             return row
 
-        K = np.zeros((len(self.probes), n_z))
-        K[:nn] = W[:nn]
-        icap = np.zeros((nx, n_z))
+        K = np.zeros(bs + (len(self.probes), n_z))
+        K[..., :nn, :] = W[..., :nn, :]
+        icap = np.zeros(bs + (nx, n_z))
         for i, e in enumerate(self.elements):
-            row = np.zeros(n_z)
+            row = np.zeros(bs + (n_z,))
             if isinstance(e, Res):
                 if e.on(p):
-                    row = vdiff(e.a, e.b) / e.r
+                    row = vdiff(e.a, e.b) / val(e.r)
             elif isinstance(e, Cap):
                 k = cap_idx[e.name]
-                if e.esr > 0:
+                if not ideal_cap(e):
                     row = vdiff(e.a, e.b)
-                    row[k] -= 1.0
-                    row = row / e.esr
+                    row[..., k] -= 1.0
+                    row = row / val(e.esr)
                 else:
-                    row = W[jrow[("x", k)]].copy()
-                icap[k] = row
+                    row = W[..., jrow[("x", k)], :].copy()
+                icap[..., k, :] = row
             elif isinstance(e, VSrc):
-                row = W[jrow[("u", inp[e.input])]].copy()
+                row = W[..., jrow[("u", inp[e.input])], :].copy()
             elif isinstance(e, ISrc):
-                row[nx + inp[e.input]] = 1.0
-            K[nn + i] = row
+                row[..., nx + inp[e.input]] = 1.0
+            K[..., nn + i, :] = row
         ne = len(self.elements)
         for k in range(nx):
-            K[nn + ne + k, k] = 1.0
-        F = np.zeros((n_z, n_z))
-        cvals = np.array([e.c for e in self.caps])
-        F[:nx] = icap / cvals[:, None]
+            K[..., nn + ne + k, k] = 1.0
+        F = np.zeros(self.batch_shape + (n_z, n_z))
+        if nx:
+            cvals = np.stack([np.broadcast_to(np.asarray(e.c, dtype=float), self.batch_shape)
+                              for e in self.caps], axis=-1)
+            F[..., :nx, :] = icap / cvals[..., :, None]
         return PhaseSystem(F=F, K=K)
 
     # ------------------------------------------------------------------ maps
-    def phase_maps(self, durations) -> tuple[np.ndarray, np.ndarray]:
+    def phase_maps(self, durations, *, method: str = "auto") -> tuple[np.ndarray, np.ndarray]:
         """Exact transition and integral matrices of every phase.
 
         Parameters
         ----------
         durations : array_like, shape (..., n_phases) [s]
+            Broadcasts against the network's :attr:`batch_shape`.
+        method : {"auto", "modal", "expm"}
+            ``"modal"``: closed form through the eigen-decomposition of the
+            state matrix (see :meth:`modes`); ``"expm"``: Van Loan's block
+            matrix exponential (scipy); ``"auto"``: modal when the state matrix
+            is that of a reciprocal RC network (always, for networks of this
+            module), else expm.
 
         Returns
         -------
@@ -368,13 +476,51 @@ class Network:
             raise DesignError("durations", f"expected {self.n_phases} phase durations", d.shape)
         if np.any(d < 0) or not np.all(np.isfinite(d)):
             raise DesignError("durations", "phase durations must be finite and \u2265 0 s")
+        if method not in ("auto", "modal", "expm"):
+            raise DesignError("method", "expected 'auto', 'modal' or 'expm'", method)
+        modes = None if method == "expm" else self.modes
+        if method == "modal" and modes is None:
+            raise DesignError("method", "the state matrix is not that of a reciprocal RC network", method)
+        if modes is not None:
+            return _modal_maps(modes, self.n_x, self.n_u, d)
         nz = self.n_x + self.n_u
-        Fs = np.stack([s.F for s in self.systems])  # (P, nz, nz)
-        A = np.zeros(d.shape + (2 * nz, 2 * nz))
+        Fs = self._F  # (*batch, P, nz, nz)
+        shape = np.broadcast_shapes(Fs.shape[:-2], d.shape)
+        A = np.zeros(shape + (2 * nz, 2 * nz))
         A[..., :nz, :nz] = Fs * d[..., None, None]
         A[..., :nz, nz:] = np.eye(nz) * d[..., None, None]
         B = _expm(A)
         return B[..., :nz, :nz], B[..., :nz, nz:]
+
+    @cached_property
+    def modes(self):
+        """Eigen-decomposition of every phase's state matrix M (dx/dt = M·x + N·u), or None.
+
+        The capacitor currents of a reciprocal resistive network are i = −G·x + …
+        with G symmetric positive semi-definite, so M = −C⁻¹·G and
+        C^½·M·C^−½ is symmetric: its eigenvalues λ are real and ≤ 0 and its
+        eigenvectors orthonormal (no defective case). With M = V·Λ·V⁻¹ each phase
+        has the closed forms e^{Mt} = V·e^{Λt}·V⁻¹,
+        ∫_0^t e^{Ms} ds = V·φ₁(Λ, t)·V⁻¹ and ∫_0^t∫_0^s e^{Mr} dr ds = V·φ₂(Λ, t)·V⁻¹
+        with φ₁ = (e^{λt} − 1)/λ and φ₂ = (e^{λt} − 1 − λt)/λ² (series near λt = 0).
+        Returns (λ, V, V⁻¹, V⁻¹·N) stacked (*batch, P, …), or None when the
+        symmetry does not hold to 1e-9 (then :meth:`phase_maps` uses expm).
+        """
+        nx = self.n_x
+        F = self._F
+        M = F[..., :nx, :nx]
+        N = F[..., :nx, nx:]
+        c = np.stack([np.broadcast_to(np.asarray(e.c, dtype=float), self.batch_shape) for e in self.caps],
+                     axis=-1)[..., None, :] if nx else np.ones(self.batch_shape + (1, 0))
+        sq = np.sqrt(c)  # (*batch, 1, nx)
+        Ms = sq[..., :, None] * M / sq[..., None, :]
+        asym = np.abs(Ms - np.swapaxes(Ms, -1, -2)).max(initial=0.0)
+        if asym > 1e-9 * max(np.abs(Ms).max(initial=0.0), 1e-300):
+            return None
+        lam, Q = np.linalg.eigh(0.5 * (Ms + np.swapaxes(Ms, -1, -2)))
+        V = Q / sq[..., :, None]
+        Vinv = np.swapaxes(Q, -1, -2) * sq[..., None, :]
+        return lam, V, Vinv, Vinv @ N
 
     def propagate(self, x0, u, durations):
         """States after running the phases once from ``x0`` (a cycle, or part of one).
@@ -439,14 +585,13 @@ class PeriodicSolution:
         return self.z0[..., 0, :self.net.n_x]
 
     def _K(self, names):
-        rows = self.net.probe_index(names)
-        return np.stack([s.K[rows] for s in self.net.systems])  # (P, m, nz)
+        return self.net.stacked(self.net.probe_index(names))[1]  # (*batch, P, m, nz)
 
     def integral(self, names) -> np.ndarray:
         """∫ y dt over one cycle for each probe, shape (..., m) [V·s or C]."""
         K = self._K(names)
         iz = np.einsum("...pij,...pj->...pi", self.S, self.z0)
-        return np.einsum("pmj,...pj->...m", K, iz)
+        return np.einsum("...pmj,...pj->...m", K, iz)
 
     def mean(self, names) -> np.ndarray:
         """Cycle average of each probe [V or A]."""
@@ -466,17 +611,15 @@ class PeriodicSolution:
         Returns (t, y) with t shape (..., P·(n+1)) [s] and y shape (..., m, P·(n+1)).
         """
         K = self._K(names)
-        nz = self.z0.shape[-1]
-        F = np.stack([s.F for s in self.net.systems])
         d = self.durations
-        Es = _expm(F * (d / n)[..., None, None])  # (..., P, nz, nz)
+        Es, _ = self.net.phase_maps(d / n)  # (..., P, nz, nz)
         zs = [self.z0]
         z = self.z0
         for _ in range(n):
             z = np.einsum("...pij,...pj->...pi", Es, z)
             zs.append(z)
         Z = np.stack(zs, axis=-2)  # (..., P, n+1, nz)
-        y = np.einsum("pmj,...pkj->...mpk", K, Z)
+        y = np.einsum("...pmj,...pkj->...mpk", K, Z)
         t0 = np.concatenate([np.zeros(d.shape[:-1] + (1,)), np.cumsum(d, axis=-1)[..., :-1]], axis=-1)
         t = t0[..., :, None] + d[..., :, None] * np.linspace(0.0, 1.0, n + 1)
         sh = y.shape[:-2] + (-1,)
@@ -484,12 +627,12 @@ class PeriodicSolution:
 
     def at_phase_starts(self, names) -> np.ndarray:
         """Each probe at the start of each phase (just after the switching), shape (..., m, P)."""
-        return np.einsum("pmj,...pj->...mp", self._K(names), self.z0)
+        return np.einsum("...pmj,...pj->...mp", self._K(names), self.z0)
 
     def at_phase_ends(self, names) -> np.ndarray:
         """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""
         zend = np.einsum("...pij,...pj->...pi", self.E, self.z0)
-        return np.einsum("pmj,...pj->...mp", self._K(names), zend)
+        return np.einsum("...pmj,...pj->...mp", self._K(names), zend)
 
 
 def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarray:
@@ -508,11 +651,9 @@ def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarra
     ndarray (..., P, m)
         For a current probe times a resistance, the energy dissipated [J].
     """
-    rows = net.probe_index(names)
-    K = np.stack([s.K[rows] for s in net.systems])
+    F, K = net.stacked(net.probe_index(names))
     z0 = np.asarray(z_start, float)
     nz = z0.shape[-1]
-    F = np.stack([s.F for s in net.systems])
     d = np.asarray(durations, float)
     # Van Loan's block exponential on a short step h = t/2^k (its −Fᵀ block grows as e^{|F|h},
     # so h is kept where that is harmless), then doubling: G(2h) = G(h) + E(h)·G(h)·E(h)ᵀ.
@@ -529,7 +670,7 @@ def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarra
     for _ in range(k):
         G = G + E @ G @ np.swapaxes(E, -1, -2)
         E = E @ E
-    return np.einsum("pmi,...pij,pmj->...pm", K, G, K)
+    return np.einsum("...pmi,...pij,...pmj->...pm", K, G, K)
 
 
 def periodic_steady_state(net: Network, durations, u) -> PeriodicSolution:
@@ -553,20 +694,22 @@ def periodic_steady_state(net: Network, durations, u) -> PeriodicSolution:
     nx = net.n_x
     u = np.asarray(u, dtype=float)
     d = np.asarray(durations, dtype=float)
-    u = np.broadcast_to(u, d.shape[:-1] + (net.n_u,))
+    u = np.broadcast_to(u, np.broadcast_shapes(d.shape[:-1], net.batch_shape, u.shape[:-1]) + (net.n_u,))
     Phi = tot[..., :nx, :nx]
     Gam = tot[..., :nx, nx:]
     A = np.eye(nx) - Phi
-    if nx and np.any(np.linalg.cond(A) > 1e12):
-        raise DesignError("network", "the cycle has no unique periodic steady state (a capacitor's "
-                          "charge is never changed by any phase)")
-    x0 = np.linalg.solve(A, (Gam @ u[..., None]))[..., 0] if nx else np.zeros(d.shape[:-1] + (0,))
+    if nx:
+        x0 = _solve_checked(A, Gam @ u[..., None], 1e12, "the cycle has no unique periodic steady state "
+                            "(a capacitor's charge is never changed by any phase)")[..., 0]
+    else:
+        x0 = np.zeros(u.shape[:-1] + (0,))
     z = np.concatenate([x0, u], axis=-1)
     zs = []
     for p in range(net.n_phases):
         zs.append(z)
         z = np.einsum("...ij,...j->...i", E[..., p, :, :], z)
-    return PeriodicSolution(net=net, durations=np.asarray(d), z0=np.stack(zs, axis=-2), E=E, S=S)
+    return PeriodicSolution(net=net, durations=np.broadcast_to(d, u.shape[:-1] + d.shape[-1:]),
+                            z0=np.stack(zs, axis=-2), E=E, S=S)
 
 
 # --------------------------------------------------------------------------- start-up
@@ -640,13 +783,23 @@ def startup(net: Network, durations, u, x0=None, *, cycles) -> StartupSolution:
     With x_ss = (I − Φ)⁻¹·Γ·u, x_k = x_ss + Φ^k·(x₀ − x_ss), and Φ^k comes from
     Φ's eigenvalues, so a thousand cycles cost one vector operation.
     """
+    if net.batch_shape != ():
+        raise DesignError("network", "start-up takes one network (scalar element values)", net.batch_shape)
     E, S, tot = cycle_map(net, np.asarray(durations, float))
     nx = net.n_x
     u = np.asarray(u, dtype=float)
     x0 = np.zeros(nx) if x0 is None else np.asarray(x0, dtype=float)
     k = np.asarray(cycles, dtype=np.int64)
     Phi, Gam = tot[:nx, :nx], tot[:nx, nx:]
-    xss = np.linalg.solve(np.eye(nx) - Phi, Gam @ u)
+    A, b = np.eye(nx) - Phi, Gam @ u
+    if nx and np.linalg.cond(A) > 1e12:
+        # a charge that no phase changes (Φ has an eigenvalue 1): any consistent x_ss will do
+        xss = np.linalg.lstsq(A, b, rcond=None)[0]
+        if not np.allclose(A @ xss, b, rtol=1e-9, atol=1e-12 * (np.abs(b).max(initial=0.0) + 1.0)):
+            raise DesignError("network", "the inputs drive a charge that no phase can settle (no steady "
+                              "state to start toward)")
+    else:
+        xss = np.linalg.solve(A, b)
     xk = xss[None, :] + _powers_apply(Phi, x0 - xss, k)
     z = np.concatenate([xk, np.broadcast_to(u, (k.size, u.size))], axis=1)
     zs = []
@@ -685,6 +838,8 @@ def to_spice(net: Network, durations, u, *, cycles: int, x0=None, title: str = "
     """
     from .spice import spice_number as n
 
+    if net.batch_shape != ():
+        raise DesignError("network", "a netlist takes one network (scalar element values)", net.batch_shape)
     d = np.asarray(durations, float)
     T = float(d.sum())
     x0 = np.zeros(net.n_x) if x0 is None else np.asarray(x0, float)

@@ -71,7 +71,7 @@ from ..scnet import Cap, ISrc, Network, Res, VSrc, periodic_steady_state, startu
 
 __all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
            "r_out_exact", "r_out_sqrt", "r_out_limits", "r_out_engine", "rail_from_r_out",
-           "pulse_train_extremes", "evaluate_option"]
+           "pulse_train_extremes", "evaluate_option", "rail_min_batch"]
 
 PHI1, DEAD1, PHI2, DEAD2 = 0, 1, 2, 3
 
@@ -296,7 +296,9 @@ def r_out_limits(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0
 def r_out_engine(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0):
     """R_out from the engine: the output held by an ideal source, R_out = −∂V_out/∂I_out [Ω].
 
-    Batched over ``f_cp`` (array). Also returns the ideal ratio M = V_out/V_in
+    Batched over ``f_cp``, ``c_fly``, ``r_on``, ``esr_fly`` and ``dead_time_cp``
+    (arrays that broadcast together; element values batch the engine's
+    networks). Also returns the ideal ratio M = V_out/V_in
     at zero current found by the engine.
 
     Returns
@@ -304,7 +306,10 @@ def r_out_engine(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0
     r_out : float or ndarray [Ω]
     m : float or ndarray [-]
     """
-    net = pump_network(ratio, c_fly=c_fly, r_on=r_on, esr_fly=esr_fly, output="source")
+    def col(x):  # element values broadcast against the two input columns below
+        return np.asarray(x, dtype=float)[..., None] if np.ndim(x) else x
+
+    net = pump_network(ratio, c_fly=col(c_fly), r_on=col(r_on), esr_fly=col(esr_fly), output="source")
     d = pump_durations(f_cp, dead_time_cp)
     # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0)
     d2 = np.stack([d, d], axis=-2)
@@ -373,7 +378,7 @@ def pulse_train_extremes(q, c_out, r_th, t_p):
 
 @dataclass(frozen=True)
 class _Pump:
-    """The resolved pump of one option (effective values)."""
+    """The resolved pump of one option (effective values; v_in, c_fly, c_out may be arrays of samples)."""
 
     circ: PumpCircuit
     v_in: float
@@ -386,13 +391,22 @@ class _Pump:
     r_on: float
 
 
-def _resolve(design: Design, opt: ChargePumpOption, corner: str) -> _Pump:
+def _resolve(design: Design, opt: ChargePumpOption, corner: str, *, k_c=None, k_v=None) -> _Pump:
+    """Effective pump values; ``k_c``, ``k_v`` (arrays) scale the nominal capacitances and V_in per sample.
+
+    With factors the arithmetic is that of :func:`explorer.tolerance.apply_factors`
+    followed by the nominal corner (c·k_c, then × the DC-bias factor; V_in·k_v).
+    """
     circ = _circuit(opt.ratio)
     v_in = opt.v_in if opt.v_in is not None else design.aux.v_dd
+    if k_v is not None:
+        v_in = v_in * k_v
 
     def ceff(cap, v, name):
-        return float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=parse_dielectric(cap.dielectric, name),
-                                 v_applied=v, v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
+        c = capacitance(cap.c if k_c is None else cap.c * k_c, c_tol=cap.c_tol,
+                        dielectric=parse_dielectric(cap.dielectric, name), v_applied=v, v_rating=cap.v_rating,
+                        dc_bias=cap.dc_bias, corner=corner)
+        return float(c) if np.ndim(c) == 0 else np.asarray(c, dtype=float)
 
     return _Pump(circ=circ, v_in=v_in, f_cp=opt.f_cp, durations=pump_durations(opt.f_cp, opt.dead_time_cp),
                  c_fly=ceff(opt.c_fly, circ.v_fly * v_in, "c_fly.dielectric"),
@@ -401,6 +415,75 @@ def _resolve(design: Design, opt: ChargePumpOption, corner: str) -> _Pump:
 
 
 SWITCHES = ("i(s1)", "i(s2)", "i(s3)", "i(s4)")
+
+
+@dataclass(frozen=True)
+class _Load:
+    """The rail's load over the bridge schedule (q_pulse and i0 may be arrays of samples).
+
+    t_a [s] analysis period; n_on HS turn-ons in it; q_pulse [C] charge per turn-on;
+    i0 [A] constant part of the average load; g_load [S] the R_GS share (duty/R_GS);
+    r_eq [Ω] its equivalent resistor (None without R_GS).
+    """
+
+    t_a: float
+    n_on: int
+    q_pulse: float | np.ndarray
+    i0: float | np.ndarray
+    g_load: float
+    r_eq: float | None
+
+
+def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
+    """Average load and pulse charge; ``k_q``, ``k_i`` scale Q_G and I_Q per sample (as apply_factors)."""
+    t_a = sched.period
+    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    q_g = design.gate.q_g if k_q is None else design.gate.q_g * k_q
+    i_q = design.driver.i_q if k_i is None else design.driver.i_q * k_i
+    q_pulse = q_g + design.driver.q_ls if k_q is not None else charge_per_turn_on(design)
+    t_on = float(sched.dt[sched.hs_on].sum())
+    i0 = i_q + n_on * q_pulse / t_a
+    r_gs = design.gate.r_gs
+    g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
+    return _Load(t_a=t_a, n_on=n_on, q_pulse=q_pulse, i0=i0, g_load=g_load,
+                 r_eq=1.0 / g_load if g_load > 0 else None)
+
+
+def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
+    """Engine R_out and the periodic steady state under the average load (batched over array values).
+
+    Returns (r_out [Ω], m_engine [-], network, PeriodicSolution).
+    """
+    circ = pump.circ
+    r_out, m_engine = r_out_engine(pump.f_cp, pump.c_fly, pump.r_on, ratio=circ.ratio,
+                                   dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
+    net = pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
+                       c_out=pump.c_out, esr_out=pump.esr_out, r_load=load.r_eq)
+    u = np.stack(np.broadcast_arrays(np.asarray(pump.v_in, dtype=float), np.asarray(load.i0, dtype=float)),
+                 axis=-1)
+    return r_out, m_engine, net, periodic_steady_state(net, pump.durations, u)
+
+
+def _rail_bounds(sol, pump: _Pump, load: _Load, r_out) -> dict:
+    """Rail extremes: the pump's steady-state waveform plus the gate-charge pulse train.
+
+    Worst-case relative phase of the two clocks (module notes):
+    V_min = min(pump) + y_min, V_max = max(pump) + y_max [V]. Works on scalars
+    and on arrays of samples alike.
+    """
+    t_w, y = sol.samples(["v(out)"], n=32)
+    v_w = y[..., 0, :]
+    if load.n_on > 0:
+        r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
+        y_min, y_max = pulse_train_extremes(load.q_pulse, pump.c_out, r_th, load.t_a / load.n_on)
+    else:
+        y_min = y_max = 0.0
+    lo, hi = v_w.min(axis=-1), v_w.max(axis=-1)
+    out = {"t": t_w, "v": v_w, "v_pump_min": lo, "v_pump_max": hi, "y_min": y_min, "y_max": y_max,
+           "v_min": lo + y_min, "v_max": hi + y_max}
+    if np.ndim(lo) == 0:
+        out = {k: (float(v) if k not in ("t", "v") else v) for k, v in out.items()}
+    return out
 
 
 def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "nominal") -> OptionResult:
@@ -429,26 +512,15 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     v_in = pump.v_in
     v_ideal = circ.m * v_in
     sched = period_schedule(design)
-    t_a = sched.period
-    n_on = int(np.count_nonzero(sched.hs_turn_on))
-    q_pulse = charge_per_turn_on(design)
-    t_on = float(sched.dt[sched.hs_on].sum())
-    i0 = design.driver.i_q + n_on * q_pulse / t_a
-    r_gs = design.gate.r_gs
-    g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
-    r_eq = 1.0 / g_load if g_load > 0 else None
+    load = _rail_load(design, sched)
+    t_a, n_on, q_pulse, i0, g_load, r_eq = load.t_a, load.n_on, load.q_pulse, load.i0, load.g_load, load.r_eq
 
-    # --- output impedance: exact from the engine, and the published limits
-    r_out, m_engine = r_out_engine(pump.f_cp, pump.c_fly, pump.r_on, ratio=circ.ratio,
-                                   dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
+    # --- output impedance (exact, from the engine) and steady state under the average load
+    r_out, m_engine, net, sol = _steady(pump, option, load)
     duty_cp = float(phase_duty(pump.f_cp, option.dead_time_cp))
     rs = float(r_ssl(pump.c_fly, pump.f_cp, ratio=circ.ratio))
     rf = float(r_fsl(pump.r_on, ratio=circ.ratio, duty=duty_cp, esr_fly=pump.esr_fly))
 
-    # --- steady state under the average load (engine)
-    net = pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
-                       c_out=pump.c_out, esr_out=pump.esr_out, r_load=r_eq)
-    sol = periodic_steady_state(net, pump.durations, [v_in, i0])
     probes = ["v(out)", "x(c_fly)", "x(c_out)", "i(c_fly)", "i(c_out)", "i(v_in)", "v(b)"] + list(SWITCHES)
     t_w, y = sol.samples(probes, n=32)
     v_out_w, xfly_w, xout_w = y[0], y[1], y[2]
@@ -462,13 +534,9 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     i_peak_ss = np.maximum(np.abs(starts).max(axis=1), np.abs(ends[:6]).max(axis=1))
 
     # --- the pulse train, worst-case relative phase
-    if n_on > 0:
-        r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
-        y_min, y_max = pulse_train_extremes(q_pulse, pump.c_out, r_th, t_a / n_on)
-    else:
-        y_min = y_max = 0.0
-    v_min = float(v_out_w.min()) + y_min
-    v_max = float(v_out_w.max()) + y_max
+    rail = _rail_bounds(sol, pump, load, r_out)
+    y_min, y_max = rail["y_min"], rail["y_max"]
+    v_min, v_max = rail["v_min"], rail["v_max"]
 
     # --- power and losses
     p_in = v_in * i_in
@@ -703,3 +771,29 @@ def _load_limits(design, pump, circ, r_out, v_out_w, v_mean, i0, g_load, q_pulse
     qm = solve(lambda x: v_min(design.driver.q_ls + x * design.gate.q_g, 1.0) - req)
     q_g_max = None if qm is None else qm * design.gate.q_g
     return {"f_sw_max": f_sw_max, "q_g_max": q_g_max}
+
+
+def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndarray:
+    """Steady-state rail minimum for many spread samples in one batched engine solve [V].
+
+    ``factors`` is an :class:`explorer.tolerance.Factors` of equal-length
+    arrays. Sample ``i`` is what :func:`evaluate_option` gives for the design
+    perturbed by :func:`explorer.tolerance.apply_factors` with ``factors.at(i)``:
+    both capacitors × k_c with the DC-bias factor at the sample's V_in, V_in ×
+    v_dd, gate charge × q_g and quiescent current × i_q (v_f and temperature do
+    not enter a pump). The samples are one batch of networks of the same
+    topology (arrays of element values, see :mod:`explorer.scnet`), solved at
+    once: R_out, the periodic steady state and the rail extremes.
+    """
+    if not isinstance(option, ChargePumpOption):
+        raise DesignError("option", "expected a charge_pump option", type(option).__name__)
+    k_c = np.atleast_1d(np.asarray(factors.k_c, dtype=float))
+    n = k_c.size
+
+    def col(x):
+        return np.broadcast_to(np.asarray(x, dtype=float), (n,))
+
+    pump = _resolve(design, option, "nominal", k_c=k_c, k_v=col(factors.v_dd))
+    load = _rail_load(design, period_schedule(design), k_q=col(factors.q_g), k_i=col(factors.i_q))
+    r_out, _, _, sol = _steady(pump, option, load)
+    return np.asarray(_rail_bounds(sol, pump, load, r_out)["v_min"], dtype=float).reshape(n)
