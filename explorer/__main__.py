@@ -1,4 +1,4 @@
-"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE]``.
+"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH]``.
 
 Exit codes: 0 success, 2 bad input (one line ``error: <field path>: <problem>``
 on stderr, never a traceback).
@@ -33,6 +33,12 @@ def _parser() -> argparse.ArgumentParser:
     e.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
     e.add_argument("--json", action="store_true", help="print the comparison as explorer-result JSON")
     e.add_argument("--rank", default="overhead", choices=sorted(RANKINGS), help="ranking rule")
+    n = sub.add_parser("netlist", help="write the SPICE netlist of one option, driven by the design's schedule")
+    n.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
+    n.add_argument("--label", required=True, help="label of the option to export")
+    n.add_argument("--out", help="write to this file instead of standard output")
+    n.add_argument("--cycles", type=int, help="switching periods to simulate (default: start-up plus a few periods)")
+    n.add_argument("--corner", default="nominal", choices=("nominal", "min", "max"), help="capacitance corner")
     return p
 
 
@@ -51,6 +57,8 @@ def main(argv=None) -> int:
             src = sys.stdin.read() if args.file == "-" else args.file
             if args.file == "-" and not src.lstrip().startswith("{"):
                 raise DesignError("", "standard input does not hold a JSON object")
+            if args.command == "netlist":
+                return _netlist(args, load_design(src), caught)
             result = evaluate(load_design(src), rank=args.rank)
             if args.json:
                 sys.stdout.write(result.to_json(indent=2) + "\n")
@@ -62,6 +70,24 @@ def main(argv=None) -> int:
     except DesignError as e:
         sys.stderr.write(f"error: {e}\n")
         return 2
+
+
+def _netlist(args, design, caught) -> int:
+    """``netlist``: the option's netlist with its control block, to a file or standard output."""
+    from .netlist import export_netlist
+
+    text = export_netlist(design, args.label, n_cycles=args.cycles, corner=args.corner, standalone=True)
+    if args.out:
+        try:
+            with open(args.out, "w", encoding="ascii") as fh:
+                fh.write(text)
+        except OSError as e:
+            raise DesignError("--out", f"cannot write the file ({e.strerror})", args.out) from None
+    else:
+        sys.stdout.write(text)
+    for w in caught:
+        sys.stderr.write(f"warning: {w.message}\n")
+    return 0
 
 
 if __name__ == "__main__":

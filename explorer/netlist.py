@@ -89,6 +89,8 @@ R_OFF = 1e6
 #: Saturation current [A] and emission coefficient [-] of the sharp junction that stands for
 #: the knee of a straight-line diode.
 SHARP_IS, SHARP_N = 1e-14, 0.01
+#: Start of the pump clock after t = 0, in pump periods [-].
+PUMP_DELAY = 0.25
 #: Smallest resistance written where the design allows zero [Ω].
 R_MIN = 1e-6
 
@@ -118,7 +120,8 @@ class NetlistPlan:
     t_steady : float [s]
         Start of the last ``STEADY_PERIODS`` analysis periods (steady-state window).
     t_pump0 : float [s]
-        Start of the pump clock's first phase (0 for the other kinds).
+        Start of the pump clock's first phase (0 for the other kinds): :data:`PUMP_DELAY`
+        pump periods plus the control edge of :func:`explorer.scnet.spice_t0`.
     t_uvlo_model : float or None [s]
         Model's time to UVLO-on, in the netlist's time frame.
     result : OptionResult
@@ -194,7 +197,9 @@ def netlist_plan(design: Design, label: str, *, n_cycles: int | None = None,
         from .options.charge_pump import pump_durations
         from .scnet import spice_t0
         durations = pump_durations(option.f_cp, option.dead_time_cp)
-        t_pump0 = spice_t0(durations)
+        # a quarter period late, so that for commensurate clocks the pump's edges do not fall on
+        # the PWM's (a coincidence shifts ngspice's rail by about 0.05 %; the clocks are asynchronous)
+        t_pump0 = PUMP_DELAY * float(durations.sum()) + spice_t0(durations)
     if t_uvlo is not None:
         t_uvlo = t_uvlo + t_pump0
     if n_cycles is None:
@@ -277,13 +282,13 @@ def _steps(t0: np.ndarray, dt: np.ndarray, levels: np.ndarray, edge: float, star
 
 
 def _pulses(times: np.ndarray, widths: np.ndarray, height: float, t_stop: float):
-    """PWL points of rectangular pulses starting at ``times`` (rise and fall 1e-3 of the width)."""
+    """PWL points of pulses starting at ``times``, area ``height·width`` (rise and fall 1e-3 of the width)."""
     pts = [(0.0, 0.0)]
     for a, w in zip(times, widths):
         r = 1e-3 * w
         if a > pts[-1][0]:
             pts.append((a, 0.0))
-        pts += [(a + r, height), (a + w - r, height), (a + w, 0.0)]
+        pts += [(a + r, height), (a + w, height), (a + w + r, 0.0)]
     if t_stop > pts[-1][0]:
         pts.append((t_stop, 0.0))
     return pts
@@ -392,13 +397,14 @@ def _bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan,
 
 def _pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> list[str]:
     from .options.charge_pump import CIRCUITS, pump_durations
+    from .scnet import spice_t0
     circ = CIRCUITS[option.ratio]
     r = plan.result
     v_in = option.v_in if option.v_in is not None else design.aux.v_dd
     d = pump_durations(option.f_cp, option.dead_time_cp)
     t_cp = float(d.sum())
     t0 = plan.t_pump0
-    tr = t0  # control edges: 1e-2 of the shortest phase, as explorer.scnet.to_spice
+    tr = spice_t0(d)  # control edges: 1e-2 of the shortest phase, as explorer.scnet.to_spice
     domain_crossing = circ.ratio == "1:1"
     ref_in = "0" if domain_crossing else "vs"
     lines = [f"* --- charge pump {circ.ratio} clocked at {_n(option.f_cp)} Hz "
