@@ -143,6 +143,52 @@ def _phi(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     return np.where(small, s1, f1), np.where(small, s2, f2)
 
 
+def _exp_sum_roots(b: np.ndarray, lam: np.ndarray, T: np.ndarray) -> np.ndarray:
+    """Real roots in (0, T) of f(t) = Σ_i b_i·e^{λ_i t} (n terms), shape (..., n − 1), NaN where absent.
+
+    Such a sum has at most n − 1 real roots (Laguerre's extension of Descartes'
+    rule of signs; Pólya & Szegő, "Problems and Theorems in Analysis II", part V,
+    problem 75). With λ₁ the largest exponent, g = e^{−λ₁t}·f has the roots of f
+    and its derivative is an (n − 1)-term sum of the same kind, so the roots of
+    g′ (found recursively) split (0, T) into intervals on which g is monotone;
+    each holds at most one root, found by bisection to the last bit. Two terms
+    have the closed form t = ln(−b₁/b₂)/(λ₂ − λ₁). Exponents λ_i − λ₁ ≤ 0 keep
+    every exponential ≤ 1.
+    """
+    n = b.shape[-1]
+    shape = np.broadcast_shapes(b.shape[:-1], lam.shape[:-1], np.shape(T))
+    if n <= 1:
+        return np.full(shape + (0,), np.nan)
+    order = np.argsort(-lam, axis=-1)
+    lam = np.take_along_axis(np.broadcast_to(lam, shape + (n,)), np.broadcast_to(order, shape + (n,)), -1)
+    b = np.take_along_axis(np.broadcast_to(b, shape + (n,)), np.broadcast_to(order, shape + (n,)), -1)
+    b1, c, mu = b[..., 0], b[..., 1:], lam[..., 1:] - lam[..., :1]
+    T = np.broadcast_to(T, shape)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        if n == 2:
+            t = np.log(-b1 / c[..., 0]) / mu[..., 0]
+            ok = (mu[..., 0] < 0) & (t > 0) & (t < T)
+            return np.where(ok, t, np.nan)[..., None]
+
+    def g(t):
+        return b1[..., None] + np.sum(c[..., None, :] * np.exp(mu[..., None, :] * t[..., None]), axis=-1)
+
+    crit = _exp_sum_roots(c * mu, mu, T)
+    edges = np.sort(np.concatenate([np.zeros(shape + (1,)), np.where(np.isnan(crit), T[..., None], crit),
+                                    T[..., None]], axis=-1), axis=-1)
+    lo, hi = edges[..., :-1], edges[..., 1:]
+    g_lo, g_hi = g(lo), g(hi)
+    has = np.sign(g_lo) * np.sign(g_hi) < 0
+    for _ in range(80):
+        mid = 0.5 * (lo + hi)
+        g_mid = g(mid)
+        left = np.sign(g_mid) == np.sign(g_lo)
+        lo = np.where(left, mid, lo)
+        g_lo = np.where(left, g_mid, g_lo)
+        hi = np.where(left, hi, mid)
+    return np.where(has, 0.5 * (lo + hi), np.nan)
+
+
 def _solve_checked(A: np.ndarray, B: np.ndarray, cond_max: float, problem: str) -> np.ndarray:
     """A⁻¹·B over leading batch dimensions; DesignError(problem) when any A has a 1-norm
     condition number above cond_max (cheaper than the SVD condition number over a batch,
@@ -628,6 +674,41 @@ class PeriodicSolution:
     def at_phase_starts(self, names) -> np.ndarray:
         """Each probe at the start of each phase (just after the switching), shape (..., m, P)."""
         return np.einsum("...pmj,...pj->...mp", self._K(names), self.z0)
+
+    def extrema(self, names) -> tuple[np.ndarray, np.ndarray]:
+        """Exact lowest and highest value of each probe over the cycle, each of shape (..., m).
+
+        Within phase p, in the modes of :attr:`Network.modes` (M = V·Λ·V⁻¹,
+        w = V⁻¹·x(0), g = V⁻¹·N·u), a probe is
+        y(t) = k·(e^{Λt}·w + φ₁(Λ, t)·g) + k_u·u with k = K_x·V, so
+        y′(t) = Σ_i k_i·(λ_i·w_i + g_i)·e^{λ_i t}: a sum of n_x exponentials,
+        whose zeros in the phase (at most n_x − 1; closed form for n_x ≤ 2, see
+        :func:`_exp_sum_roots`) and the phase's two ends are the only candidates.
+        Both ends of each phase count (a probe may step at a switching instant).
+        """
+        net = self.net
+        modes = net.modes
+        if modes is None:
+            raise DesignError("network", "exact extrema need the modal form of a reciprocal RC network")
+        lam, V, Vinv, VN = modes
+        nx = net.n_x
+        K = self._K(names)
+        x0 = self.z0[..., :nx]
+        u = self.z0[..., 0, nx:]
+        w = np.einsum("...pij,...pj->...pi", Vinv, x0)
+        gv = np.einsum("...pij,...j->...pi", VN, u)
+        k = np.einsum("...pmi,...pij->...pmj", K[..., :nx], V)
+        ku = np.einsum("...pmj,...j->...pm", K[..., nx:], u)
+        b = k * (lam * w + gv)[..., None, :]
+        d = self.durations
+        roots = _exp_sum_roots(b, lam[..., None, :], d[..., None])
+        zeros = np.zeros(roots.shape[:-1] + (1,))
+        t = np.concatenate([zeros, np.where(np.isnan(roots), 0.0, roots), zeros + d[..., None, None]], axis=-1)
+        x = lam[..., None, None, :] * t[..., None]  # (..., P, m, c, nx)
+        f1, _ = _phi(x)
+        modal = np.exp(x) * w[..., None, None, :] + f1 * t[..., None] * gv[..., None, None, :]
+        y = np.einsum("...pmi,...pmci->...pmc", k, modal) + ku[..., None]
+        return y.min(axis=(-1, -3)), y.max(axis=(-1, -3))
 
     def at_phase_ends(self, names) -> np.ndarray:
         """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""

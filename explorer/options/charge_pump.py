@@ -467,22 +467,23 @@ def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
 def _rail_bounds(sol, pump: _Pump, load: _Load, r_out) -> dict:
     """Rail extremes: the pump's steady-state waveform plus the gate-charge pulse train.
 
+    The pump's extremes are exact (:meth:`explorer.scnet.PeriodicSolution.extrema`:
+    the zeros of the closed-form derivative in each phase, not samples).
+
     Worst-case relative phase of the two clocks (module notes):
     V_min = min(pump) + y_min, V_max = max(pump) + y_max [V]. Works on scalars
     and on arrays of samples alike.
     """
-    t_w, y = sol.samples(["v(out)"], n=32)
-    v_w = y[..., 0, :]
+    lo, hi = (a[..., 0] for a in sol.extrema(["v(out)"]))
     if load.n_on > 0:
         r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
         y_min, y_max = pulse_train_extremes(load.q_pulse, pump.c_out, r_th, load.t_a / load.n_on)
     else:
         y_min = y_max = 0.0
-    lo, hi = v_w.min(axis=-1), v_w.max(axis=-1)
-    out = {"t": t_w, "v": v_w, "v_pump_min": lo, "v_pump_max": hi, "y_min": y_min, "y_max": y_max,
+    out = {"v_pump_min": lo, "v_pump_max": hi, "y_min": y_min, "y_max": y_max,
            "v_min": lo + y_min, "v_max": hi + y_max}
     if np.ndim(lo) == 0:
-        out = {k: (float(v) if k not in ("t", "v") else v) for k, v in out.items()}
+        out = {k: float(v) for k, v in out.items()}
     return out
 
 
@@ -521,9 +522,9 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     rs = float(r_ssl(pump.c_fly, pump.f_cp, ratio=circ.ratio))
     rf = float(r_fsl(pump.r_on, ratio=circ.ratio, duty=duty_cp, esr_fly=pump.esr_fly))
 
-    probes = ["v(out)", "x(c_fly)", "x(c_out)", "i(c_fly)", "i(c_out)", "i(v_in)", "v(b)"] + list(SWITCHES)
-    t_w, y = sol.samples(probes, n=32)
-    v_out_w, xfly_w, xout_w = y[0], y[1], y[2]
+    t_w, y = sol.samples(["v(out)"], n=32)
+    v_out_w = y[0]  # the plotted waveform; extremes are exact (PeriodicSolution.extrema)
+    x_lo, x_hi = sol.extrema(["x(c_fly)", "x(c_out)"])
     mean = sol.mean(["v(out)", "i(v_in)"])
     v_mean = float(mean[0])
     i_in = -float(mean[1])
@@ -571,10 +572,10 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     checks = []
     caps = []
     for name, xw, i_rms, i_pk, cap, c_eff, extra_rip in (
-            ("c_fly", xfly_w, i_fly_rms, float(i_peak_ss[4]), option.c_fly, pump.c_fly, 0.0),
-            ("c_out", xout_w, i_out_rms, float(i_peak_ss[5]), option.c_out, pump.c_out, y_max - y_min)):
-        v_hi = max(float(xw.max()) + (y_max if name == "c_out" else 0.0), st["x_max"][name])
-        ripple = float(xw.max() - xw.min()) + extra_rip
+            ("c_fly", 0, i_fly_rms, float(i_peak_ss[4]), option.c_fly, pump.c_fly, 0.0),
+            ("c_out", 1, i_out_rms, float(i_peak_ss[5]), option.c_out, pump.c_out, y_max - y_min)):
+        v_hi = max(float(x_hi[xw]) + (y_max if name == "c_out" else 0.0), st["x_max"][name])
+        ripple = float(x_hi[xw] - x_lo[xw]) + extra_rip
         i_pk = max(i_pk, st["i_cap_peak"][name])
         if name == "c_out" and n_on > 0:
             # the gate pulse, taken as a rectangle of width t_edge (estimate)
@@ -591,7 +592,8 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
 
     # --- duty and load limits
     req = required_rail(design)
-    lim = _load_limits(design, pump, circ, r_out, v_out_w, v_mean, i0, g_load, q_pulse, n_on, t_a, req)
+    lim = _load_limits(design, pump, circ, r_out, rail["v_pump_min"], v_mean, i0, g_load, q_pulse, n_on, t_a,
+                       req)
     feasible_duty = v_min >= req
     duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
                       t_ls_min=None,
@@ -625,7 +627,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         "p_i2r": (i0 + v_mean * g_load) ** 2 * r_out,
         "p_load_engine": p_load_engine, "energy_residual": p_in - p_sw - p_esr - p_load_engine,
         "q_pulse": q_pulse, "pulse_dip": -y_min, "pulse_rise": y_max,
-        "v_pump_min": float(v_out_w.min()), "v_pump_max": float(v_out_w.max()),
+        "v_pump_min": rail["v_pump_min"], "v_pump_max": rail["v_pump_max"],
         "v_block_switch": v_bus + v_in,
         "domain_crossing_worst": p_cross_worst, "sw_high_fraction": d_high,
         "f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
@@ -712,10 +714,8 @@ def _startup(net: Network, pump: _Pump, v_in: float, design: Design, from_aux: b
 
 def _refine(net: Network, z: np.ndarray, p: int, dur: float, thr: float, n: int = 64) -> float:
     """Time within phase p at which v(out) first reaches thr (sampled, linear interpolation)."""
-    from scipy.linalg import expm
-
     sysp = net.systems[p]
-    Es = expm(sysp.F * (dur / n))
+    Es = net.phase_maps(np.full(net.n_phases, dur / n))[0][p]
     k = sysp.K[net.probes["v(out)"]]
     v_prev = float(k @ z)
     for j in range(1, n + 1):
@@ -728,7 +728,7 @@ def _refine(net: Network, z: np.ndarray, p: int, dur: float, thr: float, n: int 
     return dur
 
 
-def _load_limits(design, pump, circ, r_out, v_out_w, v_mean, i0, g_load, q_pulse, n_on, t_a, req) -> dict:
+def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pulse, n_on, t_a, req) -> dict:
     """Highest f_sw and highest Q_G at which the rail minimum stays at the requirement.
 
     Averaged model (:func:`rail_from_r_out`) with the pump ripple below the mean
@@ -737,7 +737,7 @@ def _load_limits(design, pump, circ, r_out, v_out_w, v_mean, i0, g_load, q_pulse
     schedule's shape (duty, turn-ons per period) is kept as f_sw scales.
     """
     i_tot = i0 + v_mean * g_load
-    ripple_per_amp = (v_mean - float(v_out_w.min())) / i_tot if i_tot > 0 else 0.0
+    ripple_per_amp = (v_mean - v_pump_min) / i_tot if i_tot > 0 else 0.0
     r_eq = 1.0 / g_load if g_load > 0 else None
     r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
     i_q = design.driver.i_q
