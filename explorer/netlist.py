@@ -161,7 +161,8 @@ def _settle_time(design: Design, option, result, corner: str) -> float:
         from .options.bootstrap import bootstrap_circuit
         circ = bootstrap_circuit(design, option, corner)
         s = period_schedule(design)
-        low = float(s.dt[~s.sw_high].sum() / s.period)  # the loop only refreshes while SW is low
+        # the loop only refreshes while SW is at the low-side level or below (not while it rests at V_out)
+        low = float(s.dt[s.v_sw <= max(design.bridge.v_sw_low, 0.0)].sum() / s.period)
         return SETTLE_TAU * circ.r_tot * circ.c / max(low, 1e-3)
     if isinstance(option, ChargePumpOption):
         return SETTLE_TAU * float(result.r_out) * float(result.extra["c_out_eff"])

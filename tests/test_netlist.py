@@ -135,6 +135,34 @@ def test_isolated_against_ngspice(short_demo, ngspice):
     assert ng["t_uvlo"] == pytest.approx(r.startup.t_uvlo, rel=3e-2)
 
 
+#: Other bridge legs (invented variants of the demo) with the same short start-up.
+TOPOLOGIES = {
+    "sync_boost": {"bridge.topology": "sync_boost", "bridge.v_in": 40, "bridge.v_out": None},
+    "half_bridge": {"bridge.topology": "half_bridge", "bridge.v_out": None, "bridge.duty": 0.5},
+    "full_bridge_90": {"bridge.topology": "full_bridge", "bridge.v_out": None, "bridge.duty": 0.9},
+    "light_load_buck": {"bridge.mode": "light_load", "bridge.ls_pulse": 0.3e-6, "bridge.skip_cycles": 2},
+    "three_phase": {"bridge.topology": "three_phase", "bridge.v_out": None, "bridge.m": 0.9,
+                    "bridge.f_o": 20e3, "bridge.phi": 0.5},
+}
+
+
+@pytest.mark.ngspice
+@pytest.mark.parametrize("topology", sorted(TOPOLOGIES))
+@pytest.mark.parametrize("label", LABELS[:2])
+def test_other_bridge_legs_against_ngspice(topology, label, ngspice):
+    # reference: ngspice 39 transient of the exported netlist; the option issues' tolerances
+    # (bootstrap 0.5 % rail, 3 % time; pump 1 % rail mean and minimum)
+    design = replace_fields(demo_design(), {**SHORT, **TOPOLOGIES[topology]})
+    ng = ngspice_figures(design, label)
+    r = ng["plan"].result
+    assert ng["min"] == pytest.approx(r.v_rail.min, rel=5e-3 if label == LABELS[0] else 1e-2)
+    if label == LABELS[0]:
+        assert ng["max"] == pytest.approx(r.v_rail.max, rel=5e-3)
+        assert ng["t_uvlo"] == pytest.approx(r.startup.t_uvlo, rel=3e-2)
+    else:
+        assert ng["mean"] == pytest.approx(r.v_rail.mean, rel=1e-2)
+
+
 @pytest.mark.ngspice
 def test_every_demo_netlist_runs(ngspice):
     # the unmodified demo design: each option's netlist (20 switching periods) runs in ngspice without errors
@@ -225,20 +253,34 @@ def test_pwl_times_increase(texts, label):
         assert np.all(np.diff(pts[:, 0]) > 0), name
 
 
+@pytest.mark.parametrize("topology", sorted(TOPOLOGIES) + ["line_leg"])
+def test_other_bridge_legs_write_valid_sources(topology):
+    changes = TOPOLOGIES.get(topology, {"bridge.topology": "line_leg", "bridge.v_out": None,
+                                        "bridge.f_line": 50.0})
+    design = replace_fields(demo_design(), {**SHORT, **changes})
+    for label in LABELS:
+        text = export_netlist(design, label, n_cycles=3)
+        for name in re.findall(r"^(\w+) \S+ \S+ PWL\(", text, flags=re.M):
+            assert np.all(np.diff(_pwl_points(text, name)[:, 0]) > 0), (label, name)
+        _check_gate_charge(design, label, text, n_cycles=3)
+
+
+def _check_gate_charge(design, label, text, **kw):
+    plan = netlist_plan(design, label, **kw)
+    d = plan.delivered
+    n_on = int(np.count_nonzero(d & ~np.concatenate(([False], d[:-1]))))
+    q = 0.0
+    for name in re.findall(r"^(IG\d+) ", text, flags=re.M):
+        pts = _pwl_points(text, name)
+        q += np.trapezoid(pts[:, 1], pts[:, 0])
+    assert q == pytest.approx(n_on * (design.gate.q_g + design.driver.q_ls), rel=1e-9, abs=1e-18), label
+    return n_on
+
+
 def test_gate_charge_pulses_carry_q_per_delivered_turn_on(short_demo, texts):
     # charge in the gate-load sources = (Q_G + Q_LS) × delivered HS turn-ons (charge conservation)
     for label in LABELS:
-        text = texts[label]
-        plan = netlist_plan(short_demo, label)
-        d = plan.delivered
-        n_on = int(np.count_nonzero(d & ~np.concatenate(([False], d[:-1]))))
-        q = 0.0
-        for name in re.findall(r"^(IG\d+) ", text, flags=re.M):
-            pts = _pwl_points(text, name)
-            q += np.trapezoid(pts[:, 1], pts[:, 0])
-        expected = n_on * (short_demo.gate.q_g + short_demo.driver.q_ls)
-        assert n_on > 0
-        assert q == pytest.approx(expected, rel=1e-9), label
+        assert _check_gate_charge(short_demo, label, texts[label]) > 0
 
 
 def test_switch_node_follows_the_schedule(short_demo, texts):
