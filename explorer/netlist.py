@@ -317,7 +317,7 @@ def _charge_pulses(name: str, a: str, b: str, s: Schedule, k: np.ndarray, q: flo
 
 # --------------------------------------------------------------------------- shared parts
 
-def _bridge_lines(design: Design, plan: NetlistPlan, *, extra_on=None) -> list[str]:
+def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
     """Switch node, HS-on control node and the gate load between vb and vs."""
     b, s = design.bridge, plan.schedule
     v_low = b.v_sw_low
@@ -556,6 +556,10 @@ def export_netlist(design: Design, label: str, *, n_cycles: int | None = None, c
     if "i_cm" in probes:
         head.append(f"*   {probes['i_cm']}  common-mode current through the isolation capacitance")
     head.append(f"* Steady state: the last {STEADY_PERIODS} analysis periods, from t = {_n(plan.t_steady)} s.")
+    t_ss = b.soft_start if b.topology not in ("half_bridge", "line_leg") else 0.0
+    if plan.t_steady < max(t_ss, plan.t_uvlo_model or 0.0):
+        head.append("* Note: this span ends before the start-up does (soft-start or UVLO-on), so its last "
+                    "periods are not yet the steady state.")
     if r.v_rail is not None:
         head.append(f"* Model figures for comparison: rail min {_fmt_opt(r.v_rail.min, 'V')}, max "
                     f"{_fmt_opt(r.v_rail.max, 'V')}, mean {_fmt_opt(r.v_rail.mean, 'V')}; time to UVLO-on "
