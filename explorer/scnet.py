@@ -33,8 +33,24 @@ and dissipated energies are exact, not sampled. The periodic steady state is
 the fixed point x₀ = Φ·x₀ + Γ·u of the one-cycle map, solved directly; start-up
 from given voltages is the recurrence x_{k+1} = Φ·x_k + Γ·u evaluated in
 closed form through the eigenvalues of Φ for all k at once. Phase durations may
-carry leading batch dimensions (e.g. a sweep of clock frequencies); the matrix
-exponentials are then evaluated as one stacked call.
+carry leading batch dimensions (e.g. a sweep of clock frequencies).
+
+Batches of networks. Element values (``Cap.c``, ``Cap.esr``, ``Res.r``) may be
+numpy arrays that broadcast to one shape, :attr:`Network.batch_shape`: the
+network is then that many networks of one topology, solved together (nodal
+analysis stacked over the resistances' shape only, state matrices stacked
+(*batch, P, n_z, n_z), one batched periodic solve). This is how Monte Carlo
+evaluates 10⁴ spread samples at once. Start-up and netlists take one network.
+
+Closed-form phase maps. The state matrix of a reciprocal RC network is
+M = −C⁻¹·G with G symmetric positive semi-definite, so C^½·M·C^−½ is symmetric
+and M = V·Λ·V⁻¹ with real λ ≤ 0 (:attr:`Network.modes`). The phase maps are
+then e^{Mt}, ∫e^{Ms}ds and ∫∫e^{Mr}dr ds in closed form from e^{λt} and the
+φ-functions (e^{λt} − 1)/λ, (e^{λt} − 1 − λt)/λ² — the same quantities as
+Van Loan's block exponential, which remains available (``method="expm"``,
+scipy) and is the fallback for a state matrix without that symmetry. The same
+modes give exact extrema of any probe over the cycle
+(:meth:`PeriodicSolution.extrema`).
 
 A node group that no element ties to the reference in some phase (a flying
 capacitor during a dead time) has no defined common-mode potential; it is
