@@ -268,6 +268,8 @@ class Checks:
                          lo=0.0, hi=100.0)
     cap_derating: float = _f("-", "fraction of a capacitor's rating usable", 0.8, lo=0.0, lo_open=True, hi=1.0)
     diode_derating: float = _f("-", "fraction of a diode's V_RRM usable", 0.8, lo=0.0, lo_open=True, hi=1.0)
+    switch_derating: float = _f("-", "fraction of a pump switch's blocking-voltage rating usable", 0.8, lo=0.0,
+                                lo_open=True, hi=1.0)
     cmti_margin: float = _f("-", "required ratio of driver CMTI to the edge dv/dt", 2.0, lo=1.0, hi=100.0)
     t_amb: float = _f("\u00b0C", "nominal temperature", 25.0, lo=-273.0, hi=300.0)
     t_min: float = _f("\u00b0C", "lowest temperature of the envelope", -40.0, lo=-273.0, hi=300.0)
@@ -350,6 +352,8 @@ class ChargePumpOption:
     q_g_sw: float = _f("C", "gate charge of one pump switch", 0.0, **NONNEG)
     v_g_sw: float | None = _f("V", "gate-drive voltage of the pump switches (null = v_in)", None,
                               nullable=True, **POS)
+    v_rating_sw: float | None = _f("V", "blocking-voltage rating of the pump switches (null = not checked)", None,
+                                   nullable=True, **POS)
 
     def _check(self, path: str) -> None:
         if 2 * self.dead_time_cp >= 1.0 / self.f_cp:

@@ -590,6 +590,17 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
             checks.append(Check(f"{name} voltage", v_hi, lim, "max", "V",
                                 f"{name} voltage stays within its derated rating"))
 
+    # --- the domain-crossing switches block V_bus + V_in (the module notes)
+    v_block = v_bus + v_in
+    if option.v_rating_sw is not None:
+        lim_sw = option.v_rating_sw * design.checks.switch_derating
+        checks.append(Check("switch blocking voltage", v_block, lim_sw, "max", "V",
+                            "pump switches block V_bus + V_in within their derated rating"))
+        if v_block > lim_sw:
+            warnings.append(f"the pump switches must block V_bus + V_in = {v_block:g} V, above "
+                            f"{design.checks.switch_derating:g} \u00d7 their {option.v_rating_sw:g} V rating "
+                            f"= {lim_sw:g} V")
+
     # --- duty and load limits
     req = required_rail(design)
     lim = _load_limits(design, pump, circ, r_out, rail["v_pump_min"], v_mean, i0, g_load, q_pulse, n_on, t_a,
@@ -628,7 +639,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         "p_load_engine": p_load_engine, "energy_residual": p_in - p_sw - p_esr - p_load_engine,
         "q_pulse": q_pulse, "pulse_dip": -y_min, "pulse_rise": y_max,
         "v_pump_min": rail["v_pump_min"], "v_pump_max": rail["v_pump_max"],
-        "v_block_switch": v_bus + v_in,
+        "v_block_switch": v_block,
         "domain_crossing_worst": p_cross_worst, "sw_high_fraction": d_high,
         "f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
         "switch_i_rms": [float(v) for v in i_sw_rms], "switch_i_peak": [float(v) for v in i_peak_ss[:4]],
