@@ -412,7 +412,9 @@ def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> d
         budget -= v * float(sched.dt[sched.hs_on].sum()) / sched.period / design.gate.r_gs
     rate = np.count_nonzero(sched.hs_turn_on) / sched.period
     if rate == 0 or budget <= 0:
-        return {"f_sw_max": None if budget <= 0 else math.inf, "q_g_max": None if budget <= 0 else math.inf}
+        # None both where no f_sw/Q_G fits the rating and where any does (no HS turn-ons): the
+        # result contract has no infinities (explorer.results: None where unbounded)
+        return {"f_sw_max": None, "q_g_max": None}
     q = charge_per_turn_on(design)
     return {"f_sw_max": design.bridge.f_sw * budget / (rate * q),
             "q_g_max": budget / rate - design.driver.q_ls}
