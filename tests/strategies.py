@@ -5,7 +5,16 @@ The generated designs are meant to be valid by construction over wide but legal 
 that still break a consistency rule must be refused with a DesignError, never anything else.
 """
 
+import dataclasses
+import math
+
+import numpy as np
 from hypothesis import strategies as st
+
+TOPOLOGIES = ["sync_buck", "sync_boost", "half_bridge", "full_bridge", "three_phase", "line_leg"]
+KINDS = ["bootstrap", "charge_pump", "isolated"]
+#: Start-up cycles drawn by default (the design's own range reaches 1e6; the fuzz run keeps it short).
+STARTUP_CYCLES = (50, 500, 2000)
 
 
 def logu(lo, hi):
@@ -15,16 +24,15 @@ def logu(lo, hi):
 
 
 @st.composite
-def bridges(draw):
-    topo = draw(st.sampled_from(["sync_buck", "sync_boost", "half_bridge", "full_bridge", "three_phase",
-                                 "line_leg"]))
+def bridges(draw, topologies=None, startup_cycles=STARTUP_CYCLES):
+    topo = draw(st.sampled_from(list(topologies or TOPOLOGIES)))
     v_bus = draw(logu(5, 1000))
     f_sw = draw(logu(1e3, 5e6))
     T = 1 / f_sw
     b = {"topology": topo, "v_bus": v_bus, "f_sw": f_sw, "dead_time": draw(st.floats(0, 0.05)) * T,
          "t_edge": draw(st.floats(0.001, 0.05)) * T, "soft_start": draw(st.sampled_from([0, 10 * T, 200 * T])),
          "precharge": draw(st.sampled_from([0, 0.2 * T])), "v_undershoot": draw(st.sampled_from([0, 0.7, 2])),
-         "startup_cycles": draw(st.sampled_from([50, 500, 2000]))}
+         "startup_cycles": draw(st.sampled_from(list(startup_cycles)))}
     x = draw(st.floats(0.02, 0.98))
     if topo == "sync_buck":
         b["v_out"] = x * v_bus
@@ -53,8 +61,8 @@ def capacitor(draw, lo=1e-9, hi=1e-3, v=25):
 
 
 @st.composite
-def options(draw, i):
-    kind = draw(st.sampled_from(["bootstrap", "charge_pump", "isolated"]))
+def options(draw, i, kinds=None):
+    kind = draw(st.sampled_from(list(kinds or KINDS)))
     if kind == "bootstrap":
         cap = capacitor(draw)
         if draw(st.booleans()):
@@ -80,17 +88,41 @@ def options(draw, i):
 
 
 @st.composite
-def designs(draw, max_options=3):
+def designs(draw, max_options=3, *, kinds=None, topologies=None, startup_cycles=STARTUP_CYCLES):
+    """A design-file dict; ``kinds``/``topologies`` restrict the draw, ``startup_cycles`` its choices."""
     uvlo_on = draw(st.floats(4, 12))
     n = draw(st.integers(1, max_options))
     return {
         "format": "explorer-design", "version": 1, "title": "fuzz (generated)",
-        "bridge": draw(bridges()),
+        "bridge": draw(bridges(topologies, startup_cycles)),
         "gate": {"q_g": draw(logu(1e-10, 1e-6)), "v_gs_max": 20.0, "v_gs_on_min": draw(st.floats(3, 10)),
                  "r_gs": draw(st.sampled_from([None, 10e3, 100e3]))},
         "driver": {"i_q": draw(logu(1e-7, 1e-2)), "q_ls": draw(st.sampled_from([0, 1e-9])), "uvlo_on": uvlo_on,
                    "uvlo_off": uvlo_on * draw(st.floats(0.7, 0.98)), "v_bs_max": 22.0,
                    "t_on_min": draw(st.sampled_from([0, 50e-9]))},
         "aux": {"v_dd": draw(st.floats(5, 18)), "c_dd": draw(logu(1e-7, 1e-3)), "v_dd_tol": 0.05},
-        "options": [draw(options(i)) for i in range(n)],
+        "options": [draw(options(i, kinds)) for i in range(n)],
     }
+
+
+def nonfinite_paths(obj, path="result") -> list:
+    """Paths of every NaN or infinity inside a result object (dataclasses, dicts, sequences, arrays).
+
+    Walks the objects themselves, not ``to_dict()``, which would turn NaN into None.
+    """
+    bad: list = []
+    stack = [(obj, path)]
+    while stack:
+        x, p = stack.pop()
+        if dataclasses.is_dataclass(x) and not isinstance(x, type):
+            stack.extend((getattr(x, f.name), f"{p}.{f.name}") for f in dataclasses.fields(x))
+        elif isinstance(x, dict):
+            stack.extend((v, f"{p}[{k!r}]") for k, v in x.items())
+        elif isinstance(x, (list, tuple)):
+            stack.extend((v, f"{p}[{i}]") for i, v in enumerate(x))
+        elif isinstance(x, np.ndarray):
+            if x.dtype.kind in "fc" and not np.all(np.isfinite(x)):
+                bad.append(p)
+        elif isinstance(x, (float, np.floating)) and not math.isfinite(x):
+            bad.append(p)
+    return bad
