@@ -2,16 +2,24 @@
 
 Run from the repository root::
 
-    python3 bench/bench_bootstrap.py
+    python3 bench/bench_bootstrap.py            # model figures only
+    python3 bench/bench_bootstrap.py --ngspice  # also the ngspice speed ratio (minutes)
 
-Prints, for the demo design (an invented scenario) with its straight-line
-diode and with an exponential junction diode in its place:
+Prints:
 
-* steady state + start-up (2,000 cycles) + duty limits, median of many runs;
-* the whole ``evaluate_option`` (adds stress, power and checks), median;
-* the margin map: steady-state rail minimum over an f_sw × duty grid, points per second;
-* ngspice on the same start-up circuit (2,000 cycles, same pulses), one run,
-  and the speed ratio ngspice / model.
+* for the demo design (an invented scenario) with its straight-line diode and
+  with an exponential junction diode in its place: steady state + start-up
+  (2,000 cycles) + duty limits, median of many runs; the whole
+  ``evaluate_option``; the margin map (steady-state rail minimum over an
+  f_sw × duty grid) in points per second;
+* ``evaluate_option`` of a set of designs of every topology and both diode
+  kinds (all invented scenarios, chosen to include the hard cases: a
+  three-phase leg at a low output frequency, standstill, a line-frequency leg
+  at 50 Hz with 100 kHz switching whose rail drops out every line cycle, a
+  light-load buck with skipped cycles, a full bridge at 100 % command), median
+  and worst of several runs; the target is 50 ms for every design;
+* with ``--ngspice``: ngspice on the same start-up circuit (2,000 cycles, same
+  pulses), one run, and the speed ratio ngspice / model.
 """
 
 from __future__ import annotations
@@ -31,6 +39,8 @@ from explorer.loads import required_rail  # noqa: E402
 from explorer.options import bootstrap as B  # noqa: E402
 from explorer.spice import ngspice_path  # noqa: E402
 
+JUNCTION = {"i_s": 1e-8, "n": 1.5, "r_s": 0.3}
+
 
 def _median_ms(fn, repeat: int) -> float:
     fn()
@@ -45,8 +55,42 @@ def _median_ms(fn, repeat: int) -> float:
 def _designs():
     d = demo_design()
     dd = d.to_dict()
-    dd["options"][0]["diode"] = {"i_s": 1e-8, "n": 1.5, "r_s": 0.3}
+    dd["options"][0]["diode"] = dict(JUNCTION)
     return {"straight-line diode": d, "exponential diode": load_design(dd)}
+
+
+def _variant(bridge: dict, option: dict | None = None, junction: bool = False, **sections):
+    """The demo design (invented scenario) with its bridge and option changed."""
+    dd = demo_design().to_dict()
+    dd["options"] = dd["options"][:1]
+    dd["bridge"].update(bridge)
+    dd["options"][0].update(option or {})
+    if junction:
+        dd["options"][0]["diode"] = dict(JUNCTION)
+    for sec, upd in sections.items():
+        dd[sec].update(upd)
+    return load_design(dd)
+
+
+#: Designs of every topology (invented scenarios), keyed by a short name.
+CASES = {
+    "buck ccm 200 kHz (demo)": dict(bridge={}),
+    "buck light load, 10 skipped": dict(bridge={"mode": "light_load", "ls_pulse": 1e-6, "skip_cycles": 10}),
+    "boost 24->48 V": dict(bridge={"topology": "sync_boost", "v_in": 24.0, "v_out": None}),
+    "half bridge 500 kHz": dict(bridge={"topology": "half_bridge", "f_sw": 500e3, "v_out": None}),
+    "full bridge 100 % command": dict(bridge={"topology": "full_bridge", "duty": 1.0, "v_out": None}),
+    "three-phase 20 kHz, f_o 50 Hz, m 1.1": dict(bridge={"topology": "three_phase", "f_sw": 20e3, "m": 1.1,
+                                                         "f_o": 50.0, "v_out": None, "phi": 0.5}),
+    "three-phase 100 kHz, f_o 1 Hz": dict(bridge={"topology": "three_phase", "f_sw": 100e3, "m": 0.95,
+                                                  "f_o": 1.0, "v_out": None}),
+    "three-phase standstill, 47 nF": dict(bridge={"topology": "three_phase", "f_sw": 20e3, "m": 1.0,
+                                                  "f_o": 0.0, "v_out": None}, option={"c": 47e-9}),
+    "line leg 50 Hz / 100 kHz, 220 nF": dict(bridge={"topology": "line_leg", "f_sw": 100e3, "f_line": 50.0,
+                                                   "v_out": None}, option={"c": 220e-9}),
+    "line leg 50 Hz / 100 kHz, 100 uF": dict(bridge={"topology": "line_leg", "f_sw": 100e3, "f_line": 50.0,
+                                                     "v_out": None},
+                                             option={"c": 100e-6, "v_rating": 25.0}),
+}
 
 
 def _core(design):
@@ -79,7 +123,18 @@ def _ngspice_seconds(design) -> float | None:
         return time.perf_counter() - t
 
 
+def _times_ms(fn, repeat: int):
+    fn()
+    ts = []
+    for _ in range(repeat):
+        t = time.perf_counter()
+        fn()
+        ts.append(time.perf_counter() - t)
+    return 1e3 * float(np.median(ts)), 1e3 * float(np.max(ts))
+
+
 def main() -> None:
+    with_spice = "--ngspice" in sys.argv
     print("bootstrap model benchmark (demo design, an invented scenario; "
           f"{demo_design().bridge.startup_cycles} start-up cycles)")
     for name, d in _designs().items():
@@ -93,14 +148,25 @@ def main() -> None:
         B.rail_min_map(d, d.options[0], f, h)
         dt = time.perf_counter() - t
         print(f"  {name:20s} margin map 1000 x 1000:           {dt:7.3f} s  = {1e6 / dt:,.0f} points/s")
-        t_sp = _ngspice_seconds(d)
-        if t_sp is None:
-            print("  ngspice not installed: no speed ratio")
-        else:
+        if with_spice:
+            t_sp = _ngspice_seconds(d)
+            if t_sp is None:
+                print("  ngspice not installed: no speed ratio")
+                continue
             su = _median_ms(lambda: B.startup(d, d.options[0]), 30)
             print(f"  {name:20s} ngspice start-up (one run):      {t_sp:7.2f} s; model start-up {su:.2f} ms; "
-                  f"ratio {t_sp / (su / 1e3):,.0f}x (start-up only), {t_sp / (core / 1e3):,.0f}x (with steady state "
-                  "and duty limits)")
+                  f"ratio {t_sp / (su / 1e3):,.0f}x (start-up only), {t_sp / (core / 1e3):,.0f}x (with steady "
+                  "state and duty limits)")
+    print("evaluate_option over designs of every topology (invented scenarios), target <= 50 ms each")
+    worst = 0.0
+    for name, spec in CASES.items():
+        for junction in (False, True):
+            d = _variant(junction=junction, **spec)
+            med, mx = _times_ms(lambda: B.evaluate_option(d, d.options[0]), 5)
+            worst = max(worst, med)
+            kind = "exponential" if junction else "straight-line"
+            print(f"  {name:38s} {kind:13s} median {med:8.2f} ms  max {mx:8.2f} ms")
+    print(f"  slowest median: {worst:.2f} ms")
 
 
 if __name__ == "__main__":

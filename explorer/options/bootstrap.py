@@ -171,20 +171,26 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
 def _ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool):
     """Level and HS state of the previous interval of non-zero length (zero-length ones are skipped)."""
     n = dt.shape[-1]
-    lev = np.array(v_sw, dtype=float, copy=True)
-    hs = np.array(hs_on, dtype=bool, copy=True)
+    v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
+    hs_on = np.broadcast_to(np.asarray(hs_on, dtype=bool), dt.shape)
     zero = dt <= 0
     if np.any(zero):
-        # zero-length intervals inherit their predecessor's state (twice round for periodic wrap)
-        for _ in range(2 if periodic else 1):
-            for k in range(n):
-                km = k - 1
-                if km < 0 and not periodic:
-                    src_l, src_h = np.full(lev.shape[:-1], v_prev0), np.full(lev.shape[:-1], hs_prev0)
-                else:
-                    src_l, src_h = lev[..., km], hs[..., km]
-                lev[..., k] = np.where(zero[..., k], src_l, lev[..., k])
-                hs[..., k] = np.where(zero[..., k], src_h, hs[..., k])
+        # zero-length intervals inherit the state of the nearest earlier live interval (cyclically when
+        # periodic, else the state before the first): an index forward fill, no loop over intervals
+        idx = np.where(zero, -1, np.arange(n))
+        last = np.maximum.accumulate(idx, axis=-1)
+        if periodic:
+            wrap = last[..., -1:]
+            last = np.where(last < 0, np.where(wrap < 0, n - 1, wrap), last)
+            lev = np.take_along_axis(v_sw, last, axis=-1)
+            hs = np.take_along_axis(hs_on, last, axis=-1)
+        else:
+            safe = np.maximum(last, 0)
+            lev = np.where(last < 0, v_prev0, np.take_along_axis(v_sw, safe, axis=-1))
+            hs = np.where(last < 0, hs_prev0, np.take_along_axis(hs_on, safe, axis=-1))
+    else:
+        lev = np.array(v_sw, dtype=float)
+        hs = np.array(hs_on, dtype=bool)
     if periodic:
         prev_l = np.roll(lev, 1, axis=-1)
         prev_h = np.roll(hs, 1, axis=-1)
@@ -332,6 +338,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     v_start = np.empty(n)
     v_end = np.empty(n)
     delivered = np.zeros(n, dtype=bool)
+    state = np.zeros(n, dtype=bool)  # driver enabled (out of UVLO) in each accepted interval
     p = 0
     v = 0.0
     enabled = False
@@ -343,38 +350,43 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     while p < n:
         q_end = min(n, p + window)
         sl = slice(p, q_end)
-        hs = s.hs_on[sl] & enabled
-        vsw = np.where(s.hs_on[sl] & ~enabled, circ.v_sw_low, s.v_sw[sl])
+        pred = _predict_enabled(state, s.cycle, p, q_end, enabled)
+        hs = s.hs_on[sl] & pred
+        vsw = np.where(s.hs_on[sl] & ~pred, circ.v_sw_low, s.v_sw[sl])
         loop = schedule_loop(circ, s.dt[sl], vsw, hs, periodic=False, v_prev0=prev_l, hs_prev0=prev_h)
         orb = propagate(loop, v, tol=STARTUP_TOL)
         segments += 1
-        if enabled:
-            low = (orb.v_start < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)
-        else:
-            low = orb.v_end >= drv.uvlo_on
-        hit = np.flatnonzero(low)
-        stop = (hit[0] + 1) if hit.size else (q_end - p)
+        # the UVLO rule, sampled at interval boundaries: an enabled driver drops out when the rail is
+        # below UVLO-off at either end of an interval; a disabled one restarts once it ends at UVLO-on
+        nxt = np.where(pred, ~((orb.v_start < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)),
+                       orb.v_end >= drv.uvlo_on)
+        bad = np.flatnonzero(nxt[:-1] != pred[1:])
+        stop = int(bad[0]) + 1 if bad.size else q_end - p
         k = slice(p, p + stop)
         v_pre[k] = orb.v_pre[:stop]
         v_start[k] = orb.v_start[:stop]
         v_end[k] = orb.v_end[:stop]
         delivered[k] = hs[:stop]
+        state[k] = pred[:stop]
         live = np.flatnonzero(s.dt[p:p + stop] > 0)
         if live.size:
             prev_l = float(vsw[live[-1]])
             prev_h = bool(hs[live[-1]])
         v = float(orb.v_end[stop - 1])
-        if hit.size:
-            kk = p + hit[0]
-            if not enabled and t_uvlo is None:
-                sub = schedule_loop(circ, s.dt[kk:kk + 1], vsw[hit[0]:hit[0] + 1], hs[hit[0]:hit[0] + 1],
-                                    periodic=False)
-                dtc = crossing_time(orb.v_start[hit[0]:hit[0] + 1], drv.uvlo_on, sub)[0]
+        if t_uvlo is None:
+            up = np.flatnonzero(~pred[:stop] & nxt[:stop])
+            if up.size:
+                j = int(up[0])
+                kk = p + j
+                sub = schedule_loop(circ, s.dt[kk:kk + 1], vsw[j:j + 1], hs[j:j + 1], periodic=False)
+                dtc = crossing_time(orb.v_start[j:j + 1], drv.uvlo_on, sub)[0]
                 t_uvlo = float(s.t_start[kk] + (dtc if np.isfinite(dtc) else s.dt[kk]))
                 k_uvlo = int(kk)
-            enabled = not enabled
-            # first enabling: the rest in one piece (the usual case has no later event)
-            window = n if (enabled and segments <= 2) else 256
+        enabled = bool(nxt[stop - 1])
+        # a wrong guess costs the rest of the window: restart short, grow while the guesses hold
+        if bad.size:
+            # after the first restart with a held state the rest usually goes in one piece
+            window = n if (enabled and t_uvlo is not None and segments <= 2) else max(256, 2 * stop)
         else:
             window *= 2
         p += stop
@@ -382,6 +394,35 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
                              periodic=False)
     i_start = _diode_current(v_start, loop_all, circ)
     return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments)
+
+
+def _predict_enabled(state, cycle, p, q_end, enabled):
+    """Guess of the UVLO state over intervals ``p … q_end − 1`` from the accepted history.
+
+    Once the rail drops out and recovers in a repeating pattern (a line leg whose rail falls below
+    UVLO-off every line period), the last switching period's pattern is repeated; otherwise the
+    present state is held. The guess only sets how far one solve reaches: every interval is
+    checked against the UVLO rule and the run is cut at the first wrong guess, so the result is
+    the same as stepping interval by interval.
+    """
+    m = q_end - p
+    pred = np.full(m, enabled)
+    if p == 0:
+        return pred
+    h = state[max(0, p - 8192):p]
+    rise = np.flatnonzero(h[1:] & ~h[:-1])
+    if rise.size >= 2:  # period of the drop-out pattern: the distance between the last two restarts
+        period = int(rise[-1] - rise[-2])
+    else:  # else the last switching period, if the state changed in it
+        period = int(np.count_nonzero(cycle[:p] == cycle[p - 1]))
+    if period <= 0 or period > h.size:
+        return pred
+    hist = h[h.size - period:]
+    if hist.all() or not hist.any():
+        return pred
+    pred = np.resize(hist, m)  # periodic continuation
+    pred[0] = enabled
+    return pred
 
 
 def _diode_current(v, loop: Loop, circ: BootstrapCircuit) -> np.ndarray:
