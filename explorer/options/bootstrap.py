@@ -388,7 +388,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
             # after the first restart with a held state the rest usually goes in one piece
             window = n if (enabled and t_uvlo is not None and segments <= 2) else max(256, 2 * stop)
         else:
-            window *= 2
+            window *= 4
         p += stop
     loop_all = schedule_loop(circ, s.dt, np.where(s.hs_on & ~delivered, circ.v_sw_low, s.v_sw), delivered,
                              periodic=False)
