@@ -13,7 +13,11 @@ the reference) and a fixed cycle of ``n_phases`` phases:
 Inputs are constant within a phase. In each phase the resistive network seen by
 the capacitor voltages is solved by modified nodal analysis (Ho, Ruehli &
 Brennan, "The modified nodal approach to network analysis", IEEE Trans.
-Circuits and Systems 22(6), 1975, doi:10.1109/TCS.1975.1084079), which gives
+Circuits and Systems 22(6), 1975, doi:10.1109/TCS.1975.1084079) with a
+branch-current unknown for every capacitor (v_a − v_b − ESR·i = x), closed
+switch or resistor (v_a − v_b − R·i = 0) and voltage source, so element
+currents are solved for directly and a milliohm ESR or R_on costs no digits
+(a 1/R stamp followed by (v_a − v_b − x)/ESR does); this gives
 linear state equations
 
     dx/dt = M_p·x + N_p·u,    y = K_p·[x; u]
@@ -283,10 +287,6 @@ class Network:
                 raise DesignError(f"network.{e.name}", "both terminals on the same node", e.a)
             if isinstance(e, Cap) and not (np.all(np.asarray(e.c) > 0) and np.all(np.asarray(e.esr) >= 0)):
                 raise DesignError(f"network.{e.name}", "expected c > 0 F and esr \u2265 0 \u03a9", (e.c, e.esr))
-            if isinstance(e, Cap) and np.ndim(e.esr) and np.any(np.asarray(e.esr) == 0) \
-                    and not np.all(np.asarray(e.esr) == 0):
-                raise DesignError(f"network.{e.name}.esr", "in a batch the ESR must be zero for every member or "
-                                  "for none (it changes the topology)", e.esr)
             if isinstance(e, Res) and not np.all(np.asarray(e.r) > 0):
                 raise DesignError(f"network.{e.name}", "expected r > 0 \u03a9", e.r)
             if isinstance(e, (VSrc, ISrc)) and e.input not in self.inputs:
@@ -385,25 +385,21 @@ class Network:
         def union(a, b):
             parent[find(a)] = find(b)
 
-        def ideal_cap(e):
-            return not np.any(np.asarray(e.esr) > 0)
-
-        def val(x):
-            """An element value as an array that broadcasts against (*batch, n) rows."""
-            return np.asarray(x, dtype=float)[..., None]
-
-        ideal = []  # (a, b, kind, ref) branches with a current unknown
+        # every capacitor (x in series with its ESR), closed switch/resistor and voltage source has a
+        # branch-current unknown, so currents are solved for directly: no 1/R stamps and no
+        # (v_a − v_b − x)/ESR differences, which lose digits for small ESR or R
+        branches = []  # (a, b, kind, ref, resistance or None)
         for e in self.elements:
             if isinstance(e, Cap):
                 union(e.a, e.b)
-                if ideal_cap(e):
-                    ideal.append((e.a, e.b, "x", cap_idx[e.name]))
+                branches.append((e.a, e.b, "x", cap_idx[e.name], e.esr))
             elif isinstance(e, Res):
                 if e.on(p):
                     union(e.a, e.b)
+                    branches.append((e.a, e.b, "r", e.name, e.r))
             elif isinstance(e, VSrc):
                 union(e.a, e.b)
-                ideal.append((e.a, e.b, "u", inp[e.input]))
+                branches.append((e.a, e.b, "u", inp[e.input], None))
         groups: dict = {}
         for n in nodes:
             groups.setdefault(find(n), []).append(n)
@@ -416,45 +412,30 @@ class Network:
                 if isinstance(e, ISrc) and ((e.a in ms) != (e.b in ms)):
                     raise DesignError(f"network.{e.name}", f"in phase {p} the current source feeds nodes "
                                       f"{sorted(ms)} that nothing else connects to the reference")
-            ideal.append((members[0], GROUND, "0", 0))
-        nj = len(ideal)
+            branches.append((members[0], GROUND, "0", 0, None))
+        nj = len(branches)
         n_z = nx + nu
         Y = np.zeros(bs + (nn + nj, nn + nj))
         R = np.zeros(bs + (nn + nj, n_z))
-
-        def stamp_g(a, b, g):
-            for n1, s1 in ((a, 1), (b, -1)):
-                if n1 == GROUND:
-                    continue
-                for n2, s2 in ((a, 1), (b, -1)):
-                    if n2 != GROUND:
-                        Y[..., idx[n1], idx[n2]] += s1 * s2 * g
-
         for e in self.elements:
-            if isinstance(e, Res) and e.on(p):
-                stamp_g(e.a, e.b, 1.0 / np.asarray(e.r, dtype=float))
-            elif isinstance(e, Cap) and not ideal_cap(e):
-                g = 1.0 / np.asarray(e.esr, dtype=float)
-                stamp_g(e.a, e.b, g)
-                k = cap_idx[e.name]
-                if e.a != GROUND:
-                    R[..., idx[e.a], k] += g
-                if e.b != GROUND:
-                    R[..., idx[e.b], k] -= g
-            elif isinstance(e, ISrc):
+            if isinstance(e, ISrc):
                 k = nx + inp[e.input]
                 if e.a != GROUND:
                     R[..., idx[e.a], k] -= 1.0
                 if e.b != GROUND:
                     R[..., idx[e.b], k] += 1.0
-        for j, (a, b, kind, ref) in enumerate(ideal):
+        jrow = {}
+        for j, (a, b, kind, ref, res) in enumerate(branches):
             r = nn + j
+            jrow[(kind, ref)] = r
             if a != GROUND:
                 Y[..., idx[a], r] += 1.0
                 Y[..., r, idx[a]] += 1.0
             if b != GROUND:
                 Y[..., idx[b], r] -= 1.0
                 Y[..., r, idx[b]] -= 1.0
+            if res is not None:
+                Y[..., r, r] = -np.asarray(res, dtype=float)  # v_a − v_b − R·i = x (capacitor) or 0
             if kind == "x":
                 R[..., r, ref] = 1.0
             elif kind == "u":
@@ -464,20 +445,6 @@ class Network:
                                "sources with no resistance in it (no unique solution)")
         else:
             W = np.zeros(bs + (0, n_z))
-        jrow = {}
-        for j, (a, b, kind, ref) in enumerate(ideal):
-            if kind == "x":
-                jrow[("x", ref)] = nn + j
-            elif kind == "u":
-                jrow[("u", ref)] = nn + j
-
-        def vdiff(a, b):
-            row = np.zeros(bs + (n_z,))
-            if a != GROUND:
-                row = row + W[..., idx[a], :]
-            if b != GROUND:
-                row = row - W[..., idx[b], :]
-            return row
 
         K = np.zeros(bs + (len(self.probes), n_z))
         K[..., :nn, :] = W[..., :nn, :]
@@ -486,18 +453,13 @@ class Network:
             row = np.zeros(bs + (n_z,))
             if isinstance(e, Res):
                 if e.on(p):
-                    row = vdiff(e.a, e.b) / val(e.r)
+                    row = W[..., jrow[("r", e.name)], :]
             elif isinstance(e, Cap):
                 k = cap_idx[e.name]
-                if not ideal_cap(e):
-                    row = vdiff(e.a, e.b)
-                    row[..., k] -= 1.0
-                    row = row / val(e.esr)
-                else:
-                    row = W[..., jrow[("x", k)], :].copy()
+                row = W[..., jrow[("x", k)], :]
                 icap[..., k, :] = row
             elif isinstance(e, VSrc):
-                row = W[..., jrow[("u", inp[e.input])], :].copy()
+                row = W[..., jrow[("u", inp[e.input])], :]
             elif isinstance(e, ISrc):
                 row[..., nx + inp[e.input]] = 1.0
             K[..., nn + i, :] = row
