@@ -780,22 +780,54 @@ def _junction_integrals(v0, v1, loop: Loop, r_ext) -> dict:
     ds = np.where(same, np.log(np.where(same, d1, 1.0) / np.where(same, d0, 1.0)), 0.0)
     prim = p1 * (w1 ** 2 - w0 ** 2) / 2 + p0 * (w1 - w0) + A * np.log(w1 / w0) + Bc * ds
     i2_d = np.maximum(-R * c * prim, 0.0)
-    # ∫V dt and ∫V² dt by Gauss–Legendre in s = ln|w − w_I| (dt/ds = −RC·(w + 1)/w)
-    sigma = np.where(w0 >= w_i, 1.0, -1.0)
-    moving = same & (d0 != d1)
-    s0 = np.log(np.where(moving, d0, 1.0))
-    s1 = np.log(np.where(moving, d1, np.e))
-    half = 0.5 * (s1 - s0)
-    mid = 0.5 * (s1 + s0)
-    sn = mid[:, None] + half[:, None] * _GL_X
-    wn = w_i[:, None] + sigma[:, None] * np.exp(sn)
-    wn = np.where(moving[:, None], wn, 1.0)
+    # ∫V dt and ∫V² dt by Gauss–Legendre: in s = ln|w − w_I| (dt/ds = −RC·(w + 1)/w) near the
+    # equilibrium, and in λ = ln w (dt/dλ = −RC·(w + 1)/(w − w_I), nearly constant) where the diode
+    # current is far below the load (w < w_I/2), since there dt/ds grows like 1/w and a rule in s
+    # alone misses most of the interval
     nodes = Loop(dt=dt[:, None], v_src=loop.v_src[:, None], c=c[:, None], r=R[:, None],
                  i_s=i_s[:, None], n_vt=th[:, None], diode="junction")
+    rc = (R * c)[:, None]
+    sigma = np.where(w0 >= w_i, 1.0, -1.0)
+    moving = same & (d0 != d1)
+    w_m = np.where(sigma < 0, np.clip(0.5 * w_i, np.minimum(w0, w1), np.maximum(w0, w1)), w0)
+    int_v = np.zeros(w0.shape)
+    int_v2 = np.zeros(w0.shape)
+    t_q = np.zeros(w0.shape)  # time the two rules cover
+    # part in λ from w0 to w_m (empty unless below the equilibrium and under w_I/2)
+    lam_part = moving & (sigma < 0) & (w_m != w0)
+    if np.any(lam_part):
+        l0 = np.log(np.where(lam_part, w0, 1.0))
+        l1 = np.log(np.where(lam_part, w_m, 1.0))
+        half, mid = 0.5 * (l1 - l0), 0.5 * (l1 + l0)
+        wn = np.exp(mid[:, None] + half[:, None] * _GL_X)
+        vn = _v_of_w(wn, nodes)
+        dtdx = -rc * (wn + 1) / (wn - w_i[:, None])
+        int_v += np.where(lam_part, np.sum(_GL_W * vn * dtdx, axis=-1) * half, 0.0)
+        int_v2 += np.where(lam_part, np.sum(_GL_W * vn ** 2 * dtdx, axis=-1) * half, 0.0)
+        t_q += np.where(lam_part, np.sum(_GL_W * dtdx, axis=-1) * half, 0.0)
+    # part in s from w_m to w1
+    d_m = np.abs(w_m - w_i)
+    s_part = moving & (d_m > 0) & (d_m != d1)
+    s0 = np.log(np.where(s_part, d_m, 1.0))
+    # closer than 1e-9·w_I to the equilibrium the rail is within ~1e-9·n·V_T of v1: that time goes to
+    # the remainder below, so the rule spans only the part where the rail moves
+    s_floor = np.log(1e-9 * w_i)
+    s1 = np.log(np.where(s_part, np.maximum(d1, np.exp(np.minimum(s_floor, s0))), np.e))
+    half = 0.5 * (s1 - s0)
+    mid = 0.5 * (s1 + s0)
+    wn = w_i[:, None] + sigma[:, None] * np.exp(mid[:, None] + half[:, None] * _GL_X)
+    wn = np.where(s_part[:, None], wn, 1.0)
     vn = _v_of_w(wn, nodes)
-    dtds = -R[:, None] * c[:, None] * (wn + 1) / wn
-    int_v = np.where(moving, np.sum(_GL_W * vn * dtds, axis=-1) * half, v0 * dt)
-    int_v2 = np.where(moving, np.sum(_GL_W * vn ** 2 * dtds, axis=-1) * half, v0 ** 2 * dt)
+    dtds = -rc * (wn + 1) / wn
+    int_v += np.where(s_part, np.sum(_GL_W * vn * dtds, axis=-1) * half, 0.0)
+    int_v2 += np.where(s_part, np.sum(_GL_W * vn ** 2 * dtds, axis=-1) * half, 0.0)
+    t_q += np.where(s_part, np.sum(_GL_W * dtds, axis=-1) * half, 0.0)
+    # a rail that reaches its equilibrium within rounding sits at v1 for the time the rules do not cover
+    rest = np.clip(dt - t_q, 0.0, None)
+    int_v += rest * v1
+    int_v2 += rest * v1 ** 2
+    int_v = np.where(moving, int_v, v0 * dt)
+    int_v2 = np.where(moving, int_v2, v0 ** 2 * dt)
     # capacitor current i_C = i_d − I
     i2_c = np.maximum(i2_d - 2 * i_load * q_d + i_load ** 2 * dt, 0.0)
     # diode energy = v_src·q_d − ∫V·i_d − r_ext·∫i², with ∫V·i_d = C(V1² − V0²)/2 + I·∫V

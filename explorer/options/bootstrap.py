@@ -727,6 +727,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
                         "current no longer holds; the minimum is shown as 0 V)")
             extra["v_min_model"] = v_min
             v_min = 0.0
+            v_max, v_mean = max(v_max, 0.0), max(v_mean, 0.0)
         rail = RailStats(v_min, v_max, v_mean)
         t_wave = np.repeat(sched.t_start, 2)
         v_wave = np.column_stack((orb.v_pre, orb.v_start)).ravel()
@@ -844,6 +845,16 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
         losses = {"resistor": float(np.sum(ints["e_r"])) / T, "diode": float(np.sum(ints["e_d"])) / T,
                   "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T}
         eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
+        if "v_min_model" in extra:  # a collapsed rail: the power figures of the model do not hold
+            eff = None
+        if circ.diode == "junction" and np.any((np.asarray(loop.v_src) > 0) & (np.asarray(loop.g_load) > 0)):
+            # the junction map's exact solution takes a constant load current while the diode conducts
+            msg = ("the junction-diode model leaves out the gate pull-down R_GS in intervals where the "
+                   "diode conducts while the high side is on (V_bus below V_DD): the power figures are "
+                   "not charge-balanced and no efficiency is given")
+            warnings.warn(msg, ModelValidityWarning, stacklevel=2)
+            warn.append(msg)
+            eff = None
         extra.update({"q_diode_per_period": q_d, "energy_switch_node": e_sw / T})
 
     # ---- checks
