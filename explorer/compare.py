@@ -107,6 +107,8 @@ class Comparison:
         rows = [
             ("kind", cell(lambda r: r.kind)),
             ("verdict", cell(lambda r: ("OK " if r.feasible else "FAIL ") + r.verdict)),
+            ("checks by family", cell(lambda r: " ".join(
+                f"{_FAMILY_SHORT.get(k, k)}:{'ok' if v['ok'] else 'FAIL'}" for k, v in r.families().items()))),
             ("rail min / max", cell(lambda r: f"{format_eng(r.v_rail.min, 'V')} / {format_eng(r.v_rail.max, 'V')}")),
             ("efficiency", cell(lambda r: pct(r.efficiency))),
             ("delivered / drawn", cell(lambda r: f"{format_eng(r.p_delivered, 'W')} / {format_eng(r.p_drawn, 'W')}")),
@@ -171,6 +173,9 @@ class Comparison:
                 + (f"<ul>{warn}</ul>" if warn else "")
                 + f"<p style='font-size:smaller'>{e(CAUTION)}</p></div>")
 
+
+_FAMILY_SHORT = {"efficiency": "power", "stress": "stress", "startup": "start", "duty": "duty",
+                 "isolation": "iso", "other": "other"}
 
 #: How the duty-limit figures in the topology's own terms read in a table (key → template).
 _TOPOLOGY_TERMS = {

@@ -14,7 +14,7 @@ from dataclasses import dataclass, field, fields
 import numpy as np
 
 __all__ = ["RailStats", "Startup", "DutyLimits", "CapacitorStress", "Check", "OptionResult",
-           "clean", "verdict_from"]
+           "clean", "verdict_from", "FAMILIES", "family_of"]
 
 
 def clean(x):
@@ -160,6 +160,24 @@ class Check(_Dict):
         return d
 
 
+#: The comparison's families of figures and the check names (or name prefixes) that belong to each.
+FAMILIES = {
+    "efficiency": ("load_rating",),
+    "stress": ("cap_voltage_", "diode_v_rrm", "switch_v_block", "rail_max_v_bs", "rail_max_v_gs"),
+    "startup": ("startup_uvlo",),
+    "duty": ("rail_min",),
+    "isolation": ("cmti", "v_iso"),
+}
+
+
+def family_of(check_name: str) -> str:
+    """The family a check belongs to (``"other"`` if none)."""
+    for fam, names in FAMILIES.items():
+        if any(check_name == n or (n.endswith("_") and check_name.startswith(n)) for n in names):
+            return fam
+    return "other"
+
+
 def verdict_from(checks, warnings=()) -> tuple[bool, str]:
     """Feasibility and a plain-words verdict from a list of checks."""
     failed = [c for c in checks if not c.ok]
@@ -242,9 +260,29 @@ class OptionResult(_Dict):
             return None
         return min(self.checks, key=lambda c: c.margin / (abs(c.limit) or 1.0))
 
+    def families(self) -> dict:
+        """Verdict per family of figures (efficiency, stress, startup, duty, isolation).
+
+        Each entry: ``ok`` (every check of the family passes), ``margin`` and
+        ``unit`` of its tightest check, and ``verdict`` in plain words. Families
+        without checks are left out.
+        """
+        out: dict = {}
+        for c in self.checks:
+            out.setdefault(family_of(c.name), []).append(c)
+        res = {}
+        for fam in [f for f in (*FAMILIES, "other") if f in out]:
+            cs = out[fam]
+            tight = min(cs, key=lambda c: c.margin / (abs(c.limit) or 1.0))
+            bad = [c for c in cs if not c.ok]
+            res[fam] = {"ok": not bad, "margin": clean(tight.margin), "unit": tight.unit, "check": tight.name,
+                        "verdict": ("fails: " + "; ".join(c.text for c in bad)) if bad else f"holds: {tight.text}"}
+        return res
+
     def to_dict(self, waveforms: bool = False) -> dict:
         d = super().to_dict(waveforms)
         d["overhead"] = clean(self.overhead)
+        d["families"] = self.families()
         return d
 
     @classmethod

@@ -362,7 +362,7 @@ def test_demo_result_is_complete(demo):
     assert (r.duty.min, r.duty.max, r.duty.hold_up) == (0.0, 1.0, None)
     names = {c.name for c in r.checks}
     assert names == {"rail_min", "startup_uvlo", "rail_max_v_gs", "rail_max_v_bs", "load_rating", "cmti", "v_iso",
-                     "c_out_voltage"}
+                     "cap_voltage_c_out"}
     assert r.v_rail.min <= r.v_rail.mean <= r.v_rail.max
     assert r.t.size == r.v.size > 0
     json.dumps(r.to_dict(), allow_nan=False)
@@ -390,13 +390,13 @@ def test_overvoltage_checks(demo):
     r = _run(d)
     assert not next(c for c in r.checks if c.name == "rail_max_v_gs").ok
     r = _run(_set(demo, c_out={"c": 4.7e-6, "v_rating": 12.0}))
-    c = next(c for c in r.checks if c.name == "c_out_voltage")
+    c = next(c for c in r.checks if c.name == "cap_voltage_c_out")
     assert not c.ok and c.limit == pytest.approx(0.8 * 12.0)
 
 
 def test_missing_rating_is_warned(demo):
     r = _run(_set(demo, c_out=4.7e-6))
-    assert "c_out_voltage" not in {c.name for c in r.checks}
+    assert "cap_voltage_c_out" not in {c.name for c in r.checks}
     assert any("no voltage rating" in w for w in r.warnings)
 
 

@@ -587,14 +587,14 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
                                     ripple=ripple, i_rms=i_rms, i_peak=i_pk))
         if cap.v_rating is not None:
             lim = cap.v_rating * design.checks.cap_derating
-            checks.append(Check(f"{name} voltage", v_hi, lim, "max", "V",
+            checks.append(Check(f"cap_voltage_{name}", v_hi, lim, "max", "V",
                                 f"{name} voltage stays within its derated rating"))
 
     # --- the domain-crossing switches block V_bus + V_in (the module notes)
     v_block = v_bus + v_in
     if option.v_rating_sw is not None:
         lim_sw = option.v_rating_sw * design.checks.switch_derating
-        checks.append(Check("switch blocking voltage", v_block, lim_sw, "max", "V",
+        checks.append(Check("switch_v_block", v_block, lim_sw, "max", "V",
                             "pump switches block V_bus + V_in within their derated rating"))
         if v_block > lim_sw:
             warnings.append(f"the pump switches must block V_bus + V_in = {v_block:g} V, above "
@@ -611,13 +611,13 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
                       topology={"f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
                                 "note": "a pump needs no refresh: any HS duty 0..100 % while the load holds"})
 
-    checks.insert(0, Check("rail minimum", v_min, req, "min", "V",
+    checks.insert(0, Check("rail_min", v_min, req, "min", "V",
                            "rail minimum stays above max(UVLO off, V_GS needed) + margin"))
-    checks.append(Check("rail maximum vs V_BS max", v_max, design.driver.v_bs_max, "max", "V",
+    checks.append(Check("rail_max_v_bs", v_max, design.driver.v_bs_max, "max", "V",
                          "rail stays below the driver's V_BS absolute maximum"))
-    checks.append(Check("rail maximum vs V_GS max", v_max, design.gate.v_gs_max, "max", "V",
+    checks.append(Check("rail_max_v_gs", v_max, design.gate.v_gs_max, "max", "V",
                         "rail stays below the gate's V_GS rating"))
-    checks.append(Check("start-up reaches UVLO on", st["v_final"], design.driver.uvlo_on, "min", "V",
+    checks.append(Check("startup_uvlo", st["v_final"], design.driver.uvlo_on, "min", "V",
                         "the pump alone brings the rail up to the UVLO rising threshold"))
     if collapsed:
         warnings.append("the pump cannot carry the gate-drive load: its mean rail would fall below 0 V "

@@ -550,7 +550,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
               f"isolation working voltage covers the peak {v_barrier:.4g} V across the barrier"),
     ]
     if cap.v_rating is not None:
-        checks.append(Check("c_out_voltage", v_max, cap.v_rating * chk.cap_derating, "max", "V",
+        checks.append(Check("cap_voltage_c_out", v_max, cap.v_rating * chk.cap_derating, "max", "V",
                             f"c_out voltage stays within {chk.cap_derating:g} \u00d7 its rating "
                             f"{cap.v_rating:.4g} V"))
     else:
