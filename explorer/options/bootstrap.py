@@ -860,21 +860,21 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     # ---- checks
     checks = []
     if refreshed:
-        checks.append(Check("rail minimum", v_min, need, "min", "V",
+        checks.append(Check("rail_min", v_min, need, "min", "V",
                             f"steady-state rail stays above max(UVLO-off, V_GS needed) + margin = {_fmt(need, 'V')}"))
     else:
-        checks.append(Check("rail minimum", 0.0, need, "min", "V", "the rail is refreshed in steady state"))
-    checks.append(Check("rail maximum vs V_BS(max)", v_cap_max, drv.v_bs_max, "max", "V",
+        checks.append(Check("rail_min", 0.0, need, "min", "V", "the rail is refreshed in steady state"))
+    checks.append(Check("rail_max_v_bs", v_cap_max, drv.v_bs_max, "max", "V",
                         "rail maximum (V_DD at its tolerance, SW undershoot) stays below the driver's V_BS(max)"))
-    checks.append(Check("rail maximum vs V_GS(max)", v_cap_max, design.gate.v_gs_max, "max", "V",
+    checks.append(Check("rail_max_v_gs", v_cap_max, design.gate.v_gs_max, "max", "V",
                         "rail maximum stays below the gate's V_GS(max)"))
     if option.v_rating is not None:
-        checks.append(Check("C_boot voltage", v_cap_max, option.v_rating * chk.cap_derating, "max", "V",
+        checks.append(Check("cap_voltage_C_boot", v_cap_max, option.v_rating * chk.cap_derating, "max", "V",
                             "bootstrap capacitor voltage within its derated rating"))
     if option.v_rrm is not None:
-        checks.append(Check("diode reverse voltage", v_rev, option.v_rrm * chk.diode_derating, "max", "V",
+        checks.append(Check("diode_v_rrm", v_rev, option.v_rrm * chk.diode_derating, "max", "V",
                             "diode V_RRM covers V_bus + V_DD after derating"))
-    checks.append(Check("start-up", float(np.max(su.v_end, initial=0.0)), drv.uvlo_on, "min", "V",
+    checks.append(Check("startup_uvlo", float(np.max(su.v_end, initial=0.0)), drv.uvlo_on, "min", "V",
                         "the rail reaches UVLO-on during start-up"))
     feasible, verdict = verdict_from(checks, warn)
     return OptionResult(label=option.label, kind=option.kind, feasible=feasible, verdict=verdict,
