@@ -136,3 +136,19 @@ def test_exact_extrema_bound_the_engine_samples():
         assert np.all(hi >= y.max(axis=-1) - 1e-12 * scale)
         assert_allclose(lo, y.min(axis=-1), rtol=1e-6, atol=1e-9 * scale.max())
         assert_allclose(hi, y.max(axis=-1), rtol=1e-6, atol=1e-9 * scale.max())
+
+
+def test_own_matrix_exponential_matches_scipy():
+    # reference software: scipy.linalg.expm (Al-Mohy & Higham 2009); ours is Higham 2005's Padé(13)
+    # scaling and squaring, so the two agree to rounding over norms from 1e-3 to 30
+    import scipy.linalg as sl
+
+    from explorer.scnet import _expm
+    rng = np.random.default_rng(0)
+    for scale in (1e-3, 0.1, 1.0, 5.0, 30.0):
+        a = rng.standard_normal((5, 6, 6)) * scale
+        ref = np.stack([sl.expm(x) for x in a])
+        got = _expm(a)
+        err = np.abs(got - ref).max(axis=(-2, -1)) / np.abs(ref).max(axis=(-2, -1))
+        assert err.max() < 1e-12
+        assert np.allclose(_expm(a[0]), ref[0], rtol=1e-12, atol=1e-12 * np.abs(ref[0]).max())
