@@ -1,4 +1,4 @@
-"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH]``.
+"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH] | envelope FILE [--samples N] [--seed S] [--json] [--strict]``.
 
 Exit codes: 0 success, 2 bad input (one line ``error: <field path>: <problem>``
 on stderr, never a traceback).
@@ -39,6 +39,15 @@ def _parser() -> argparse.ArgumentParser:
     n.add_argument("--out", help="write to this file instead of standard output")
     n.add_argument("--cycles", type=int, help="switching periods to simulate (default: start-up plus a few periods)")
     n.add_argument("--corner", default="nominal", choices=("nominal", "min", "max"), help="capacitance corner")
+    v = sub.add_parser("envelope", help="worst-case corners and Monte Carlo of the rail for each option")
+    v.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
+    v.add_argument("--label", action="append", help="option to analyse (repeatable; default: all)")
+    v.add_argument("--samples", type=int, default=10_000, help="Monte Carlo samples per option (default 10000)")
+    v.add_argument("--seed", type=int, default=0, help="random seed (same seed, same numbers)")
+    v.add_argument("--json", action="store_true", help="print the figures as JSON")
+    v.add_argument("--quiet", action="store_true", help="no progress on standard error (for CI logs)")
+    v.add_argument("--strict", action="store_true",
+                   help="exit with code 1 when an analysed option fails its margin at the worst corner")
     return p
 
 
@@ -59,6 +68,8 @@ def main(argv=None) -> int:
                 raise DesignError("", "standard input does not hold a JSON object")
             if args.command == "netlist":
                 return _netlist(args, load_design(src), caught)
+            if args.command == "envelope":
+                return _envelope(args, load_design(src), caught)
             result = evaluate(load_design(src), rank=args.rank)
             if args.json:
                 sys.stdout.write(result.to_json(indent=2) + "\n")
@@ -88,6 +99,44 @@ def _netlist(args, design, caught) -> int:
     for w in caught:
         sys.stderr.write(f"warning: {w.message}\n")
     return 0
+
+
+def _envelope(args, design, caught) -> int:
+    """``envelope``: worst corner and Monte Carlo per option, as text or JSON."""
+    from .tolerance import monte_carlo, worst_case
+    from .units import format_eng
+
+    labels = args.label or [o.label for o in design.options]
+    for lab in labels:
+        design.option(lab)
+    if not 1 <= args.samples <= 10_000_000:
+        raise DesignError("--samples", "expected a whole number from 1 to 10000000", args.samples)
+    rows = []
+    for lab in labels:
+        def progress(done, total, lab=lab):
+            if not args.quiet:
+                sys.stderr.write(f"\rMonte Carlo {lab}: {done}/{total}")
+                if done == total:
+                    sys.stderr.write("\n")
+        w = worst_case(design, lab)
+        mc = monte_carlo(design, lab, args.samples, seed=args.seed, progress=progress)
+        rows.append({"worst_case": w.to_dict(), "monte_carlo": mc.to_dict()})
+    if args.json:
+        sys.stdout.write(json.dumps({"format": "explorer-envelope", "version": 1, "title": design.title,
+                                     "options": rows}, indent=2) + "\n")
+    else:
+        for r in rows:
+            w, m = r["worst_case"], r["monte_carlo"]
+            sys.stdout.write(
+                f"{w['label']}: worst corner rail min {format_eng(w['rail_min'], 'V')} "
+                f"(margin {w['margin']:+.3g} V, {'holds' if w['holds'] else 'FAILS'}) at {w['corner']}; "
+                f"P(rail < UVLO off) = {m['p_trip']:.4g} "
+                f"[{100 * m['confidence']:g} % interval {m['ci'][0]:.3g} .. {m['ci'][1]:.3g}] "
+                f"over {m['n']} samples, seed {m['seed']}\n")
+    for w in caught:
+        sys.stderr.write(f"warning: {w.message}\n")
+    failed = [r for r in rows if not r["worst_case"]["holds"]]
+    return 1 if (args.strict and failed) else 0
 
 
 if __name__ == "__main__":

@@ -74,3 +74,31 @@ def test_stdin():
     r = run("evaluate", "-", "--json", stdin=json.dumps(DEMO))
     assert r.returncode == 0, r.stderr
     assert json.loads(r.stdout)["title"] == DEMO["title"]
+
+
+def test_envelope_command(tmp_path):
+    p = tmp_path / "demo.json"
+    p.write_text(json.dumps(DEMO))
+    r = run("envelope", str(p), "--samples", "300", "--seed", "2", "--json", "--quiet")
+    assert r.returncode == 0, r.stderr
+    assert r.stderr == ""  # quiet: no progress lines in CI logs
+    out = json.loads(r.stdout)
+    assert out["format"] == "explorer-envelope"
+    assert [o["worst_case"]["label"] for o in out["options"]] == [o["label"] for o in DEMO["options"]]
+    again = run("envelope", str(p), "--samples", "300", "--seed", "2", "--json", "--quiet")
+    assert again.stdout == r.stdout  # same seed, same numbers
+    noisy = run("envelope", str(p), "--samples", "50", "--label", "pump 1:1")
+    assert "Monte Carlo pump 1:1: 50/50" in noisy.stderr
+
+
+def test_envelope_strict_exit_code_and_bad_input(tmp_path):
+    d = json.loads(json.dumps(DEMO))
+    d["bridge"]["v_out"] = 47.5  # the bootstrap cannot refresh at 99 % duty
+    p = tmp_path / "tight.json"
+    p.write_text(json.dumps(d))
+    r = run("envelope", str(p), "--samples", "100", "--label", "bootstrap 220n", "--quiet", "--strict")
+    assert r.returncode == 1 and "FAILS" in r.stdout
+    r = run("envelope", str(p), "--samples", "0")
+    assert r.returncode == 2 and r.stderr.strip() == "error: --samples: expected a whole number from 1 to 10000000 (got 0)"
+    r = run("envelope", str(p), "--label", "nope")
+    assert r.returncode == 2 and r.stderr.startswith("error: options: no option labelled 'nope'")
