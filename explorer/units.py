@@ -21,7 +21,8 @@ PREFIXES: dict[str, float] = {
 }
 
 _NUMBER = re.compile(
-    r"^\s*(?P<num>[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(?P<suf>[a-zA-Z\u00b5\u03bc]?)\s*$"
+    r"^\s*(?P<num>[+-]?(?:\d+(?:\.\d*)?|\.\d+)(?:[eE][+-]?\d+)?)\s*(?P<suf>[a-zA-Z\u00b5\u03bc]?)\s*$",
+    re.ASCII,  # ASCII digits and spaces only: look-alike digits from other scripts are refused
 )
 
 _FORMAT_PREFIXES = [("T", 1e12), ("G", 1e9), ("M", 1e6), ("k", 1e3), ("", 1.0),

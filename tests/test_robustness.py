@@ -42,3 +42,13 @@ def test_isolated_with_no_hs_turn_on_reports_no_infinity():
     res = r.options[0]
     assert res.duty.topology["f_sw_max"] is None and res.duty.topology["q_g_max"] is None
     assert nonfinite_paths(res) == []
+
+
+@pytest.mark.parametrize("text", ["\uff12\uff10\uff10k", "\u0662\u0660\u0660k", "200\u00a0k"])
+def test_look_alike_digits_are_refused(text):
+    """Regression (hostile-input review): ``\\d`` matched digits of every script, so full-width
+    '２００k' or Arabic-Indic '٢٠٠k' was read as 200 kHz although it is not what the format allows
+    (ASCII numbers with an SI suffix)."""
+    with pytest.raises(explorer.DesignError) as e:
+        explorer.parse_eng(text, "bridge.f_sw")
+    assert e.value.path == "bridge.f_sw"
