@@ -599,7 +599,7 @@ def load_design(source: Union[str, os.PathLike, dict, Design]) -> Design:
         return source
     if isinstance(source, dict):
         return _design_from_dict(source)
-    if isinstance(source, str) and source.lstrip().startswith("{"):
+    if isinstance(source, str) and source.lstrip().startswith(("{", "[")):
         text = source
     else:
         try:
@@ -616,12 +616,23 @@ def load_design(source: Union[str, os.PathLike, dict, Design]) -> Design:
     if len(text) > MAX_FILE_BYTES:
         raise DesignError("", f"design text is longer than {MAX_FILE_BYTES} characters")
     try:
-        data = json.loads(text, parse_constant=_reject_constant)
+        data = json.loads(text, parse_constant=_reject_constant, object_pairs_hook=_unique_keys)
     except json.JSONDecodeError as e:
-        raise DesignError("", f"not valid JSON: {e.msg} at line {e.lineno} column {e.colno}") from None
+        raise DesignError("", f"not valid JSON: {e.msg} (line {e.lineno}, column {e.colno})") from None
     except RecursionError:
         raise DesignError("", f"nested deeper than {MAX_DEPTH} levels; not a design file") from None
     return _design_from_dict(data)
+
+
+def _unique_keys(pairs: list) -> dict:
+    """JSON object hook: a key written twice is refused (json.loads would silently keep the last)."""
+    out: dict = {}
+    for key, value in pairs:
+        if key in out:
+            raise DesignError(str(key), "written twice in the same object; keep one (a hand-edited file "
+                              "would otherwise silently use the last)")
+        out[key] = value
+    return out
 
 
 def _reject_constant(name: str):
