@@ -196,3 +196,41 @@ def test_demo_raises_no_validity_warning(demo):
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         evaluate_option(demo, demo.options[0])
+
+
+# --------------------------------------------------------------------------- three-phase limit bounds
+
+from explorer.options.bootstrap import (_full_fundamental_min, _fundamental_bounds,  # noqa: E402
+                                        _three_phase_terms)
+from explorer.loads import required_rail  # noqa: E402
+
+
+def _three_phase(f_sw=100e3, m=0.95, f_o=1.0, junction=False, **opt):
+    """An invented three-phase leg (the demo's gate load and driver)."""
+    return _variant(bridge={"topology": "three_phase", "f_sw": f_sw, "m": m, "f_o": f_o, "v_out": None,
+                            "phi": 0.3}, option=opt or None, junction=junction)
+
+
+@pytest.mark.parametrize("kw", [dict(), dict(c=47e-9), dict(c=1e-6, r=20.0), dict(junction=True, c=47e-9)])
+def test_fundamental_bounds_bracket_the_exact_minimum(kw):
+    # reference: the orbit over every switching period of the fundamental (the exact composed maps)
+    d = _three_phase(**kw)
+    circ = bootstrap_circuit(d, d.options[0])
+    cases = [(m, f_o) for m in (0.5, 0.95, 1.1) for f_o in (5.0, 1.0)]
+    lo, hi = _fundamental_bounds(d, circ, cases)
+    for (m, f_o), a, b in zip(cases, lo, hi):
+        exact = _full_fundamental_min(d, circ, m, f_o)
+        assert a <= exact + 1e-9 and exact <= b + 1e-9
+
+
+def test_lowest_output_frequency_is_searched_to_the_legal_limit():
+    # a leg that holds at 1 Hz but not at standstill: the search goes below the old f_sw/2e4 floor and
+    # the rail minimum at the answer (exact, every switching period) meets the requirement
+    d = _three_phase(f_sw=20e3, m=1.0, f_o=1.0, c=10e-6, v_rating=25.0)
+    circ = bootstrap_circuit(d, d.options[0])
+    need = required_rail(d)
+    terms = _three_phase_terms(d, circ, need)
+    f = terms["f_o_min"]
+    assert f is not None and 0 < f < d.bridge.f_sw / 2e4
+    assert _full_fundamental_min(d, circ, d.bridge.m, f) >= need
+    assert _full_fundamental_min(d, circ, d.bridge.m, 0.0) < need

@@ -59,7 +59,7 @@ from ..design import BootstrapOption, Design, JunctionDiode
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
-from ..schedule import Schedule, hs_duty_per_period, period_schedule, startup_schedule
+from ..schedule import Schedule, hs_duty_per_period, nominal_duty, period_schedule, startup_schedule
 from ..spice import spice_number
 
 __all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_state", "startup",
@@ -598,65 +598,221 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
 
 # --------------------------------------------------------------------------- topology terms
 
-#: Lowest output frequency searched for ``f_o_min``, as f_sw / this many switching periods.
-F_O_SEARCH_PERIODS = 2e4
+#: Lowest legal output frequency, as f_sw / this many switching periods (the design file's limit).
+F_O_SEARCH_PERIODS = 2e6
 
 
-def _three_phase_min(design, circ, m, f_o):
-    """Steady-state rail minimum over a whole fundamental for each modulation index in ``m`` [V]."""
+def _full_fundamental_min(design, circ, m, f_o):
+    """Steady-state rail minimum over a whole fundamental, every interval solved (reference path) [V]."""
     b = design.bridge
     n = max(1, int(round(b.f_sw / f_o))) if f_o else 1
     k = np.arange(n)
-    rows = []
-    for mi in np.atleast_1d(m):
-        t_hs, t_ls, la, lb = hs_duty_per_period(dataclasses.replace(b, m=float(mi), f_o=f_o), k, np.ones(n))
-        rows.append(np.stack([t_hs, t_ls, la, lb]))
-    arr = np.array(rows)
-    dt, v, hs = duty_slots(design, arr[:, 0], arr[:, 1], arr[:, 2], arr[:, 3], 1.0 / b.f_sw)
+    t_hs, t_ls, la, lb = hs_duty_per_period(dataclasses.replace(b, m=float(m), f_o=f_o), k, np.ones(n))
+    dt, v, hs = duty_slots(design, t_hs, t_ls, la, lb, 1.0 / b.f_sw)
     loop = schedule_loop(circ, dt, v, hs, periodic=True)
-    vm = _solve_orbit(_bc(loop)).v_min
-    return np.where(np.isfinite(vm), vm, -np.inf)
+    vm = float(_solve_orbit(_bc(loop)).v_min)
+    return vm if math.isfinite(vm) else -math.inf
+
+
+def _worst_period(design, circ, t_hs_max):
+    """One switching period that discharges the rail at least as much as any period with HS on-time ≤ t_hs_max.
+
+    HS on for ``t_hs_max`` (the whole period when no LS slot is left), both dead
+    times at the bus (no refresh, leakage on), the LS slot the rest of the
+    period, and every edge charge taken at the HS turn-on *and* again at the
+    last dead time (the recovery and junction charge a period can draw, none
+    returned). Its rate of change is at every instant at most that of any such
+    period and its cumulative charge removal at least as large, so by the
+    comparison principle for first-order ODEs (Hartman, *Ordinary Differential
+    Equations*, 2nd ed., SIAM 2002, ch. III, §4) its period map lies below
+    every such period map (used as a bound, never as a result).
+
+    Parameters
+    ----------
+    t_hs_max : ndarray [s], shape ``(rows,)``
+
+    Returns
+    -------
+    Loop of shape ``(rows, 4)`` (broadcast).
+    """
+    b = design.bridge
+    T = 1.0 / b.f_sw
+    td = b.dead_time
+    t_hs = np.asarray(t_hs_max, dtype=float)
+    t_ls = T - t_hs - 2 * td
+    full = t_ls <= 0.0
+    dt = np.stack([np.where(full, T, np.maximum(t_hs, 0.0)), np.where(full, 0.0, td),
+                   np.where(full, 0.0, t_ls), np.where(full, 0.0, td)], axis=-1)
+    low = min(circ.v_sw_low, -b.v_undershoot)
+    q_edge = circ.q_rr + circ.c_j * (b.v_bus - low)
+    hi_leak = circ.i_leak
+    ls_leak = circ.i_leak if circ.v_sw_low > 0.5 * b.v_bus else 0.0
+    loop = Loop(dt=dt, v_src=circ.v_dd - np.array([b.v_bus, b.v_bus, circ.v_sw_low, b.v_bus]), c=circ.c,
+                r=circ.r_tot, i_load=circ.i_q + np.array([hi_leak, hi_leak, ls_leak, hi_leak]),
+                g_load=np.array([circ.g_gs, 0.0, 0.0, 0.0]),
+                q_step=np.array([circ.q_on + q_edge, 0.0, 0.0, q_edge]), v_f=circ.v_f, i_s=circ.i_s,
+                n_vt=circ.n_vt, diode=circ.diode)
+    return _bc(loop)
+
+
+def _rail_ceiling(design, circ):
+    """An upper bound of the rail in steady state [V]: the highest charge target plus the junction charge."""
+    b = design.bridge
+    low = min(circ.v_sw_low, -b.v_undershoot)
+    return circ.v_dd - low - circ.v_f + circ.c_j * (b.v_bus - low) / circ.c
+
+
+def _peak_span(bridge, n):
+    """Index range [lo, hi] of the highest duty over a fundamental of ``n`` periods (sine PWM)."""
+    if bridge.third_harmonic:  # sin θ + sin 3θ/6 peaks at π/3 and 2π/3 and falls monotonically outside
+        return n / 6.0, n / 3.0
+    return n / 4.0, n / 4.0
+
+
+def _three_phase_min(design, circ, m, f_o):
+    """Steady-state rail minimum over a whole fundamental for each modulation index in ``m`` [V] (exact)."""
+    return np.array([_full_fundamental_min(design, circ, float(mi), f_o) for mi in np.atleast_1d(m)])
+
+
+def _fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
+    """Lower and upper bounds of the rail minimum over a fundamental for each ``(m, f_o)`` [V].
+
+    * Lower: the periodic minimum of :func:`_worst_period` at the peak duty. Its
+      period map lies below every period map of the fundamental and all maps are
+      increasing contractions, so the orbit cannot go below it.
+    * Upper: the least value over short windows of periods (at the peak duty and
+      at three later angles, where a lagging or clipped rail bottoms out) of the
+      trajectory started at :func:`_rail_ceiling` ``burn`` periods before the
+      window. The maps are increasing, so that trajectory lies above the orbit,
+      and the orbit's minimum over the fundamental is at most its value there.
+
+    Both cost a few thousand switching periods whatever ``f_sw/f_o``; they
+    decide a limit search wherever the threshold lies outside [lower, upper].
+    """
+    b = design.bridge
+    T = 1.0 / b.f_sw
+    u_top = _rail_ceiling(design, circ)
+    peak_hs = []
+    arrs = []
+    owner = []
+    for i, (mi, f_o) in enumerate(cases):
+        br = dataclasses.replace(b, m=float(mi), f_o=f_o)
+        peak_hs.append(nominal_duty(br) * T - b.dead_time)
+        n = max(1, int(round(b.f_sw / f_o))) if f_o else 1
+        c_lo, c_hi = _peak_span(b, n)
+        for shift in (0.0, n / 64, n / 16, n / 8):
+            k1 = int(math.floor(c_lo + (c_hi - c_lo if shift else 0.0) + shift)) - core // 3
+            k = np.arange(k1 - burn - 1, k1 + core + int(math.ceil(c_hi - c_lo)))
+            arrs.append(hs_duty_per_period(br, k, np.ones(k.size)))
+            owner.append(i)
+    worst = _worst_period(design, circ, np.array(peak_hs))
+    lower = steady_rail(worst.dt, worst.v_src, c=worst.c, r=worst.r, v_f=worst.v_f, i_load=worst.i_load,
+                        g_load=worst.g_load, q_step=worst.q_step, diode=worst.diode, i_s=worst.i_s,
+                        n_vt=worst.n_vt).v_min
+    lower = np.where(np.isfinite(lower), lower, -np.inf)
+    size = min(a[0].size for a in arrs)
+    t_hs, t_ls, la, lb = (np.array([a[j][-size:] for a in arrs]) for j in range(4))
+    dt, v, hs = duty_slots(design, t_hs, t_ls, la, lb, T)
+    loop = _bc(schedule_loop(circ, dt, v, hs, periodic=False))
+    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
+    loop = Loop(**{nm: getattr(loop, nm)[:, 4:] for nm in names}, diode=loop.diode)
+    orb = propagate(loop, np.full(len(arrs), u_top))
+    row_min = np.minimum(np.minimum(orb.v_pre.min(axis=-1), orb.v_start.min(axis=-1)), orb.v_end.min(axis=-1))
+    row_min = np.where(np.isfinite(row_min), row_min, np.inf)
+    upper = np.full(len(cases), np.inf)
+    np.minimum.at(upper, np.array(owner), row_min)
+    return lower, upper
+
+
+def _passes(design, circ, cases, need):
+    """Whether the rail minimum over a fundamental stays at or above ``need`` for each ``(m, f_o)``.
+
+    ``cases`` must be ordered from the easiest to the hardest (m rising or f_o
+    falling): the rail minimum falls monotonically along them (tested), so once
+    one fails the rest fail. Each is decided by :func:`_fundamental_bounds` where
+    the threshold lies outside the bounds, else by the exact minimum of
+    :func:`_full_fundamental_min`.
+    """
+    n = np.array([max(1, int(round(design.bridge.f_sw / f_o))) if f_o else 1 for _, f_o in cases])
+    lower = np.full(len(cases), -np.inf)
+    upper = np.full(len(cases), np.inf)
+    big = np.flatnonzero(n > _BOUNDS_FROM)  # below this the exact solve is cheaper than the bounds
+    if big.size:
+        lower[big], upper[big] = _fundamental_bounds(design, circ, [cases[i] for i in big])
+    ok = np.zeros(len(cases), dtype=bool)
+    for i in range(len(cases)):
+        if lower[i] >= need:
+            ok[i] = True
+        elif upper[i] < need or not _full_fundamental_min(design, circ, *cases[i]) >= need:
+            break
+        else:
+            ok[i] = True
+    return ok
+
+
+#: Fundamentals of more switching periods than this are first screened by :func:`_fundamental_bounds`.
+_BOUNDS_FROM = 8192
 
 
 def _three_phase_terms(design, circ, need):
-    """Highest m at this f_o (grid rounds, then interpolation) and lowest f_o at this m (bisection)."""
+    """Highest m at this f_o (grid rounds, then interpolation) and lowest f_o at this m (grid rounds in log f_o).
+
+    The rail minimum falls as m rises and as f_o falls (tested with hypothesis).
+    Each grid point is decided by :func:`_passes` (bounds first, the exact
+    minimum only where they do not decide); the final bracket of m is
+    interpolated between exact minima. f_o is searched down to the lowest legal
+    value, f_sw / ``F_O_SEARCH_PERIODS``.
+    """
     b = design.bridge
     out = {}
     lo, hi = 0.0, 4 / math.pi
     m_max = None
+    bracket = None
     for _ in range(3):
         g = np.linspace(lo, hi, 17)
-        vm = _three_phase_min(design, circ, g, b.f_o)
-        ok = vm >= need
+        ok = _passes(design, circ, [(float(x), b.f_o) for x in g], need)
         if ok.all():
             m_max = float(hi)
+            bracket = None
             break
         if not ok[0]:
             m_max = None if lo == 0.0 else float(lo)
+            bracket = None
             break
         j = int(np.argmax(~ok))
-        lo, hi = g[j - 1], g[j]
-        m0, m1 = vm[j - 1], vm[j]
-        m_max = float(lo + (m0 - need) / (m0 - m1) * (hi - lo)) if np.isfinite(m1) and m0 != m1 else float(lo)
+        lo, hi = float(g[j - 1]), float(g[j])
+        bracket = (lo, hi)
+    if bracket is not None:
+        m0, m1 = (_full_fundamental_min(design, circ, x, b.f_o) for x in bracket)
+        frac = (m0 - need) / (m0 - m1) if np.isfinite(m1) and m0 != m1 else 0.0
+        m_max = float(lo + min(max(frac, 0.0), 1.0) * (hi - lo))
     out["m_max"] = m_max
-    if _three_phase_min(design, circ, b.m, 0.0)[0] >= need:
+    if _full_fundamental_min(design, circ, b.m, 0.0) >= need:
         out["f_o_min"] = 0.0
         return out
     f_hi = b.f_sw / 2.0
     f_lo = b.f_sw / F_O_SEARCH_PERIODS
-    if _three_phase_min(design, circ, b.m, f_hi)[0] < need:
-        out["f_o_min"] = None
-    elif _three_phase_min(design, circ, b.m, f_lo)[0] >= need:
-        out["f_o_min"] = f_lo
-        out["f_o_min_note"] = f"holds down to the lowest frequency searched, f_sw/{F_O_SEARCH_PERIODS:g}"
-    else:
-        for _ in range(14):  # bisection in log f_o: ratio (f_hi/f_lo)^(2^-14)
-            mid = math.sqrt(f_lo * f_hi)
-            if _three_phase_min(design, circ, b.m, mid)[0] >= need:
-                f_hi = mid
-            else:
-                f_lo = mid
-        out["f_o_min"] = f_hi
+    for r in range(4):  # grid rounds in log f_o, from high to low f_o: ratio (f_hi/f_lo)^(16^-4) at the end
+        g = np.geomspace(f_lo, f_hi, 17)
+        if r:
+            g = g[1:-1]  # the bracket ends are known
+        ok = _passes(design, circ, [(b.m, float(f)) for f in g[::-1]], need)[::-1]
+        if r == 0 and not ok[-1]:
+            out["f_o_min"] = None
+            return out
+        if r == 0 and ok[0]:
+            out["f_o_min"] = f_lo
+            out["f_o_min_note"] = (f"holds down to the lowest legal output frequency, "
+                                   f"f_sw/{F_O_SEARCH_PERIODS:g} (standstill fails)")
+            return out
+        j = int(np.argmax(ok))  # first passing point from below
+        if r:
+            lo_new = f_lo if j == 0 else float(g[j - 1])
+            f_hi = float(g[j]) if ok.any() else f_hi
+            f_lo = lo_new if ok.any() else float(g[-1])
+        else:
+            f_lo, f_hi = float(g[j - 1]), float(g[j])
+    out["f_o_min"] = f_hi
     return out
 
 
