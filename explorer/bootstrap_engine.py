@@ -45,6 +45,15 @@ and the state at the end of an interval is found by inverting ``Φ`` with a
 safeguarded Newton iteration to machine precision (for ``I = 0`` the inverse
 is itself a Wright omega function, used as the starting value).
 
+With a conductance load as well (the gate pull-down while the high side is
+on, where the diode can conduct because V_bus is below V_DD) the separated
+integral has no closed form: the elapsed time is integrated in
+``σ = ln|ln w − ln w_e|`` (``w_e`` the equilibrium), where the integrand is
+smooth on both sides of the equilibrium, by a composite Gauss–Legendre rule,
+and the end state found by a bracketed Newton iteration on it (see
+:class:`_JunctionG`; checked against solve_ivp to 1e-11 in the tests). The
+diode charge is then ``C·ΔV + I·Δt + G·∫V dt``, so charge balances exactly.
+
 Composition. One analysis period is the composition of the interval maps. The
 periodic solution (and a start-up trajectory) is found by Newton's method on
 the whole orbit (multiple shooting): each map is replaced by its tangent at the
@@ -356,7 +365,15 @@ def junction_map(v0, loop: Loop, v1_guess=None):
                       ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
                    diode="junction")
         g = None if v1_guess is None else np.broadcast_to(v1_guess, shape)[ab]
-        v1[ab], slope[ab] = _junction_on(v0[ab], sub, g)
+        loaded = sub.g_load > 0
+        v1_ab = np.empty(sub.dt.shape)
+        s_ab = np.empty(sub.dt.shape)
+        if np.any(~loaded):
+            v1_ab[~loaded], s_ab[~loaded] = _junction_on(v0[ab][~loaded], _take(sub, ~loaded),
+                                                         None if g is None else g[~loaded])
+        if np.any(loaded):
+            v1_ab[loaded], s_ab[loaded] = _junction_g_on(v0[ab][loaded], _take(sub, loaded))
+        v1[ab], slope[ab] = v1_ab, s_ab
     return v1, slope
 
 
@@ -453,6 +470,193 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
         if np.all((step <= 1e-14 * np.maximum(1.0, np.abs(x))) | ~active | (f == 0)):
             break
     return x
+
+
+# --------------------------------------------------------------------------- junction diode with a conductance load
+
+_GQ_X, _GQ_W = np.polynomial.legendre.leggauss(16)
+#: Graded panels of the composite Gauss–Legendre rule along σ (finest at the interval start).
+_GQ_PANELS = 8
+
+
+class _JunctionG:
+    """Junction loop with a conductance load G > 0 (1-D arrays of intervals), in λ = ln w.
+
+    ``C·dV/dt = h(λ)``, ``h = (θ/R)·w − i_s − I − G·V``, ``V = K − θ·(λ + w)``,
+    ``K = v_src + i_s·R + θ·ln(i_s·R/θ)`` (the Lambert-W loop current of the
+    module docstring). ``h`` increases with λ and has one root λ_e (the
+    equilibrium). With ``σ = ln|λ − λ_e|`` the time spent per unit σ,
+    ``q(σ) = C·θ·(1 + w)·|λ − λ_e|/|h|``, is smooth and positive on both sides
+    of the equilibrium (it tends to ``C·θ·(1 + w_e)/h'(λ_e)`` there and to a
+    linear function of λ far away), so the elapsed time ``∫ q dσ`` is computed
+    with a composite Gauss–Legendre rule (Abramowitz & Stegun 25.4.29) and the
+    end of an interval found by a bracketed Newton iteration on it.
+    """
+
+    def __init__(self, loop: Loop):
+        self.R, self.th, self.i_s = loop.r, loop.n_vt, loop.i_s
+        self.I, self.G, self.C = loop.i_load, loop.g_load, loop.c
+        self.K = loop.v_src + self.i_s * self.R + self.th * np.log(self.i_s * self.R / self.th)
+        self.lam_e = self._equilibrium()
+        w_e = np.exp(self.lam_e)
+        _, dh_e = self.h(self.lam_e)
+        self.w_e = w_e
+        self.dh_e = dh_e
+
+    def v(self, lam):
+        return self.K - self.th * (lam + np.exp(lam))
+
+    def h(self, lam, sl=slice(None)):
+        """h(λ) [A] and dh/dλ [A]."""
+        w = np.exp(lam)
+        v = self.K[sl] - self.th[sl] * (lam + w)
+        h = self.th[sl] / self.R[sl] * w - self.i_s[sl] - self.I[sl] - self.G[sl] * v
+        dh = self.th[sl] / self.R[sl] * w + self.G[sl] * self.th[sl] * (1.0 + w)
+        return h, dh
+
+    def _equilibrium(self):
+        w_i = self.R * (self.i_s + self.I) / self.th
+        x = np.log(w_i)
+        lo = x - 1.0
+        hi = np.maximum(x, 0.0) + 1.0
+        step = np.ones_like(x)
+        with np.errstate(over="ignore", invalid="ignore"):
+            for _ in range(80):  # widen until h(lo) < 0 < h(hi)
+                h_lo, _ = self.h(lo)
+                h_hi, _ = self.h(hi)
+                if np.all((h_lo < 0) & (h_hi > 0)):
+                    break
+                lo = np.where(h_lo < 0, lo, lo - step)
+                hi = np.where(h_hi > 0, hi, hi + step)
+                step *= 2.0
+        x = np.clip(x, lo, hi)
+        return _bracketed_newton(lambda z: self.h(z), x, lo, hi, np.ones(x.shape, dtype=bool), iters=100)
+
+    def lam_of_v(self, v):
+        """λ = ln w at rail voltage v (ln ω(y) = y − ω(y), so no underflow far above the source)."""
+        y = (self.K - v) / self.th  # w + ln w = y
+        return y - wright_omega(y)
+
+    def _nodes(self, sig0, sig1, sign):
+        """Composite rule nodes along σ from σ0 down to σ1: λ at the nodes and weights ·q (time per node)."""
+        P = _GQ_PANELS
+        L = (sig0 - sig1)[:, None]
+        k = np.arange(P + 1)
+        br = sig0[:, None] - L * (2.0 ** k - 1.0) / (2.0 ** P - 1.0)  # panels finest at the start
+        a, b = br[:, :-1, None], br[:, 1:, None]
+        half = 0.5 * (a - b)
+        mid = 0.5 * (a + b)
+        sig = (mid + half * _GQ_X).reshape(len(sig0), -1)
+        wts = (np.broadcast_to(half, half.shape[:-1] + (_GQ_X.size,)) * _GQ_W).reshape(len(sig0), -1)
+        d = sign[:, None] * np.exp(sig)
+        lam = self.lam_e[:, None] + d
+        w = np.exp(lam)
+        v = self.K[:, None] - self.th[:, None] * (lam + w)
+        h = self.h_d(d, (slice(None), None))
+        with np.errstate(divide="ignore", invalid="ignore"):
+            q = self.C[:, None] * self.th[:, None] * (1.0 + w) * np.abs(d) / np.abs(h)
+        q = np.where(np.isfinite(q), q, 0.0)
+        return lam, v, w, wts * q
+
+    def h_d(self, d, sl=slice(None)):
+        """h at λ = λ_e + d without cancellation: (θ/R + G·θ)·w_e·(e^d − 1) + G·θ·d (h(λ_e) = 0) [A]."""
+        th = self.th[sl]
+        return (th / self.R[sl] + self.G[sl] * th) * self.w_e[sl] * np.expm1(d) + self.G[sl] * th * d
+
+    def elapsed(self, sig0, sig1, sign):
+        return np.sum(self._nodes(sig0, sig1, sign)[3], axis=-1)
+
+    def q_at(self, sig, sign):
+        d = sign * np.exp(sig)
+        h = self.h_d(d)
+        return self.C * self.th * (1.0 + np.exp(self.lam_e + d)) * np.abs(d) / np.abs(h)
+
+    def solve(self, v0, dt):
+        """End state of each interval: σ1, sign, whether it reached the equilibrium within rounding."""
+        lam0 = self.lam_of_v(v0)
+        diff = lam0 - self.lam_e
+        sign = np.where(diff >= 0, 1.0, -1.0)
+        with np.errstate(divide="ignore"):
+            sig0 = np.log(np.abs(diff))
+        # below this σ the rail is within rounding of its equilibrium
+        floor = np.log(4e-16 * np.maximum(1.0, np.abs(self.lam_e)))
+        at_eq = ~(sig0 > floor)
+        sig0 = np.where(at_eq, floor, sig0)
+        t_floor = self.elapsed(sig0, floor, sign)
+        settles = (t_floor <= dt) | at_eq
+        x = np.where(settles, floor, sig0)
+        active = ~settles & (dt > 0)
+        if np.any(active):
+            ia = np.flatnonzero(active)
+            sub = _take_g(self, ia)
+            s0, sg, tt = sig0[ia], sign[ia], dt[ia]
+            lo = np.full(ia.shape, floor[ia])
+            hi = s0.copy()
+            guess = s0 - tt / np.maximum(sub.q_at(s0, sg), 1e-300)
+            guess = np.clip(guess, lo, hi)
+
+            def fun(z):
+                return tt - sub.elapsed(s0, z, sg), sub.q_at(z, sg)
+
+            # elapsed(z) falls as z rises: tt − elapsed is increasing in z
+            x[ia] = _bracketed_newton(fun, guess, lo, hi, np.ones(ia.shape, dtype=bool), iters=60)
+        x = np.where(dt > 0, x, sig0)
+        return sig0, x, sign, settles & (dt > 0)
+
+
+def _take_g(jg: _JunctionG, idx) -> _JunctionG:
+    out = object.__new__(_JunctionG)
+    for k in ("R", "th", "i_s", "I", "G", "C", "K", "lam_e", "w_e", "dh_e"):
+        setattr(out, k, getattr(jg, k)[idx])
+    return out
+
+
+def _junction_g_on(v0, loop: Loop):
+    """:func:`junction_map` for conducting-capable intervals with a conductance load (1-D arrays)."""
+    jg = _JunctionG(loop)
+    sig0, sig1, sign, _ = jg.solve(v0, loop.dt)
+    lam1 = jg.lam_e + sign * np.exp(sig1)
+    lam0 = jg.lam_e + sign * np.exp(sig0)
+    v1 = np.where(loop.dt > 0, jg.v(lam1), v0)
+    h0 = jg.h_d(sign * np.exp(sig0))
+    h1 = jg.h_d(sign * np.exp(sig1))
+    rate_e = jg.dh_e / (jg.C * jg.th * (1.0 + jg.w_e))  # linearised decay rate at the equilibrium
+    with np.errstate(divide="ignore", invalid="ignore"):
+        slope = np.where(np.abs(h0) > 0, h1 / h0, np.exp(-rate_e * loop.dt))
+    slope = np.where(np.isfinite(slope), np.clip(slope, 0.0, 1.0), np.exp(-rate_e * loop.dt))
+    return v1, slope
+
+
+def _junction_g_integrals(v0, loop: Loop, r_ext) -> dict:
+    """Integrals of junction intervals with a conductance load (see :func:`interval_integrals`)."""
+    jg = _JunctionG(loop)
+    c, dt, i_load, g_load, R = loop.c, loop.dt, loop.i_load, loop.g_load, loop.r
+    sig0, sig1, sign, _ = jg.solve(v0, dt)
+    lam, v, w, tw = jg._nodes(sig0, sig1, sign)
+    t_q = np.sum(tw, axis=-1)
+    lam1 = jg.lam_e + sign * np.exp(sig1)
+    v1 = jg.v(lam1)
+    rest = np.clip(dt - t_q, 0.0, None)  # time at the equilibrium within rounding
+    int_v = np.sum(tw * v, axis=-1) + rest * v1
+    int_v2 = np.sum(tw * v * v, axis=-1) + rest * v1 ** 2
+    i_d = jg.th[:, None] / R[:, None] * w - jg.i_s[:, None]
+    i_d1 = jg.th / R * np.exp(lam1) - jg.i_s
+    i2_d = np.sum(tw * i_d * i_d, axis=-1) + rest * i_d1 ** 2
+    moving = dt > 0
+    int_v = np.where(moving, int_v, 0.0)
+    int_v2 = np.where(moving, int_v2, 0.0)
+    i2_d = np.where(moving, i2_d, 0.0)
+    # the ODE itself: i_d = C·dV/dt + I + G·V, so the diode charge balances the loads exactly
+    q_d = c * (v1 - v0) + i_load * dt + g_load * int_v
+    q_d = np.where(moving, q_d, 0.0)
+    i2_c = np.maximum(i2_d - 2 * i_load * q_d - 2 * g_load * np.sum(tw * i_d * v, axis=-1)
+                      - 2 * g_load * rest * i_d1 * v1 + (i_load ** 2) * dt + 2 * i_load * g_load * int_v
+                      + g_load ** 2 * int_v2, 0.0)
+    int_vi = c * (v1 ** 2 - v0 ** 2) / 2 + i_load * int_v + g_load * int_v2
+    e_d = loop.v_src * q_d - int_vi - r_ext * i2_d
+    i_d0 = np.maximum(jg.th / R * np.exp(jg.lam_e + sign * np.exp(sig0)) - jg.i_s, 0.0)
+    return {"q_d": q_d, "i2_d": i2_d, "int_v": int_v, "int_v2": int_v2, "i2_c": i2_c, "e_d": e_d,
+            "i_d0": i_d0, "v1": np.where(moving, v1, v0)}
 
 
 def interval_map(v0, loop: Loop):
@@ -903,7 +1107,21 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
             sub = Loop(**{k: getattr(loop, k)[able] for k in
                           ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
                        diode="junction")
-            out = _junction_integrals(v0[able], v1[able], sub, r_ext[able])
+            loaded = sub.g_load > 0  # the pull-down loads the rail while the diode conducts
+            out = {k: np.zeros(sub.dt.shape) for k in ("q_d", "i2_d", "int_v", "int_v2", "i2_c", "e_d", "i_d0")}
+            v1_able = np.array(v1[able], dtype=float)
+            if np.any(~loaded):
+                out_0 = _junction_integrals(v0[able][~loaded], v1_able[~loaded], _take(sub, ~loaded),
+                                            r_ext[able][~loaded])
+                for name in out:
+                    out[name][~loaded] = out_0[name]
+            if np.any(loaded):
+                out_g = _junction_g_integrals(v0[able][loaded], _take(sub, loaded), r_ext[able][loaded])
+                for name in out:
+                    out[name][loaded] = out_g[name]
+                v1_able[loaded] = out_g["v1"]
+                v1 = np.array(v1, dtype=float)
+                v1[able] = v1_able
             for name, arr in (("q_d", q_d), ("i2_d", i2_d), ("int_v", int_v), ("int_v2", int_v2),
                               ("i2_c", i2_c), ("e_d", e_d), ("i_d0", i_d0)):
                 arr[able] = out[name]
@@ -941,6 +1159,18 @@ def crossing_time(v0, v_th, loop: Loop):
             s1 = np.log(np.abs(w1 - w_i))
             t = R * c * (_phi(s0, sg0, w0, w_i) - _phi(s1, sg1, w1, w_i))
             ok = (sg0 == sg1) & (sg0 > 0) & (v0 <= v_th) & (loop.v_src > 0)
+            loaded = (g_load > 0) & (loop.v_src > 0) & (v0 < v_th)
+            if np.any(loaded):  # with the pull-down: the elapsed-time integral of _JunctionG
+                sub = _take(loop, loaded)
+                jg = _JunctionG(sub)
+                d0 = jg.lam_of_v(v0[loaded]) - jg.lam_e
+                d1 = jg.lam_of_v(v_th[loaded]) - jg.lam_e
+                t_g = jg.elapsed(np.log(np.abs(d0)), np.log(np.abs(d1)), np.ones(d0.shape))
+                ok_g = (d0 > 0) & (d1 > 0)
+                t = np.array(t, dtype=float)
+                t[loaded] = t_g
+                ok = np.array(ok, dtype=bool)
+                ok[loaded] = ok_g
         t = np.where(v0 >= v_th, 0.0, t)
         ok = ok | (v0 >= v_th)
         ok &= (t >= 0) & (t <= loop.dt * (1 + 1e-12))

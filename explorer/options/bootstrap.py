@@ -1003,14 +1003,6 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
         eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
         if "v_min_model" in extra:  # a collapsed rail: the power figures of the model do not hold
             eff = None
-        if circ.diode == "junction" and np.any((np.asarray(loop.v_src) > 0) & (np.asarray(loop.g_load) > 0)):
-            # the junction map's exact solution takes a constant load current while the diode conducts
-            msg = ("the junction-diode model leaves out the gate pull-down R_GS in intervals where the "
-                   "diode conducts while the high side is on (V_bus below V_DD): the power figures are "
-                   "not charge-balanced and no efficiency is given")
-            warnings.warn(msg, ModelValidityWarning, stacklevel=2)
-            warn.append(msg)
-            eff = None
         extra.update({"q_diode_per_period": q_d, "energy_switch_node": e_sw / T})
 
     # ---- checks
