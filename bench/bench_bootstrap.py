@@ -4,6 +4,7 @@ Run from the repository root::
 
     python3 bench/bench_bootstrap.py            # model figures only
     python3 bench/bench_bootstrap.py --ngspice  # also the ngspice speed ratio (minutes)
+    python3 bench/bench_bootstrap.py --quick    # one run per design in the topology table
 
 Prints:
 
@@ -85,6 +86,11 @@ CASES = {
                                                   "f_o": 1.0, "v_out": None}),
     "three-phase standstill, 47 nF": dict(bridge={"topology": "three_phase", "f_sw": 20e3, "m": 1.0,
                                                   "f_o": 0.0, "v_out": None}, option={"c": 47e-9}),
+    "three-phase 100 kHz, f_o 0.05 Hz (f_sw/f_o 2e6)": dict(bridge={"topology": "three_phase", "f_sw": 100e3,
+                                                                     "m": 0.95, "f_o": 0.05, "v_out": None}),
+    "three-phase 20 kHz, f_o 1 Hz, m 1.0, 10 uF": dict(bridge={"topology": "three_phase", "f_sw": 20e3, "m": 1.0,
+                                                              "f_o": 1.0, "v_out": None},
+                                                      option={"c": 10e-6, "v_rating": 25.0}),
     "line leg 50 Hz / 100 kHz, 220 nF": dict(bridge={"topology": "line_leg", "f_sw": 100e3, "f_line": 50.0,
                                                    "v_out": None}, option={"c": 220e-9}),
     "line leg 50 Hz / 100 kHz, 100 uF": dict(bridge={"topology": "line_leg", "f_sw": 100e3, "f_line": 50.0,
@@ -157,16 +163,35 @@ def main() -> None:
             print(f"  {name:20s} ngspice start-up (one run):      {t_sp:7.2f} s; model start-up {su:.2f} ms; "
                   f"ratio {t_sp / (su / 1e3):,.0f}x (start-up only), {t_sp / (core / 1e3):,.0f}x (with steady "
                   "state and duty limits)")
-    print("evaluate_option over designs of every topology (invented scenarios), target <= 50 ms each")
+    print("evaluate_option over designs of every topology (invented scenarios), target <= 50 ms each;")
+    print("  split: steady state over the analysis period / start-up / duty limits / topology terms (one run each)")
     worst = 0.0
+    quick = "--quick" in sys.argv  # one run per design (the f_sw/f_o = 2e6 designs take seconds)
     for name, spec in CASES.items():
         for junction in (False, True):
             d = _variant(junction=junction, **spec)
-            med, mx = _times_ms(lambda: B.evaluate_option(d, d.options[0]), 5)
+            med, mx = _times_ms(lambda: B.evaluate_option(d, d.options[0]), 1 if quick else 5)
             worst = max(worst, med)
             kind = "exponential" if junction else "straight-line"
-            print(f"  {name:38s} {kind:13s} median {med:8.2f} ms  max {mx:8.2f} ms")
-    print(f"  slowest median: {worst:.2f} ms")
+            parts = _split_ms(d)
+            print(f"  {name:48s} {kind:13s} median {med:9.1f} ms  max {mx:9.1f} ms   "
+                  + " / ".join(f"{x:.1f}" for x in parts))
+    print(f"  slowest median: {worst:.1f} ms")
+
+
+def _split_ms(design):
+    """ms of the steady state, start-up, duty limits and topology terms of one design (one run each)."""
+    o = design.options[0]
+    circ = B.bootstrap_circuit(design, o)
+    need = required_rail(design)
+    out = []
+    for fn in (lambda: B.steady_state(design, o, circ=circ), lambda: B.startup(design, o, circ=circ),
+               lambda: B._duty_limit(design, circ, [need, design.driver.uvlo_off]),
+               lambda: B._topology_terms(design, circ, None, need, None)):
+        t = time.perf_counter()
+        fn()
+        out.append(1e3 * (time.perf_counter() - t))
+    return out
 
 
 if __name__ == "__main__":

@@ -278,3 +278,24 @@ def test_lowest_output_frequency_is_searched_to_the_legal_limit():
     assert f is not None and 0 < f < d.bridge.f_sw / 2e4
     assert _full_fundamental_min(d, circ, d.bridge.m, f) >= need
     assert _full_fundamental_min(d, circ, d.bridge.m, 0.0) < need
+
+
+# --------------------------------------------------------------------------- model-validity warnings
+
+def test_loop_faster_than_the_edge_is_flagged():
+    # τ = (r + esr + r_d)·C = 0.02 Ω · 1 nF = 20 ps against a 10 ns edge the model treats as a step
+    d = _variant(option={"c": 1e-9, "r": 0.0, "esr": 0.0, "diode": {"v_f": 0.5, "r_d": 0.02}})
+    with pytest.warns(ModelValidityWarning, match="time constant"):
+        r = evaluate_option(d, d.options[0])
+    assert any("time constant" in w for w in r.warnings)
+
+
+def test_edge_longer_than_the_refresh_window_is_flagged():
+    # light-load buck whose LS refresh pulse (20 ns) is shorter than the 30 ns edge: flagged once, for
+    # every model, by explorer.schedule.schedule_validity through explorer.evaluate (not again by the bootstrap)
+    import explorer
+    d = _variant(bridge={"mode": "light_load", "ls_pulse": 20e-9, "skip_cycles": 2, "t_edge": 30e-9,
+                         "dead_time": 50e-9})
+    with pytest.warns(ModelValidityWarning, match="edge time") as rec:
+        explorer.evaluate(d.to_dict())
+    assert sum("edge time" in str(w.message) for w in rec) == 1

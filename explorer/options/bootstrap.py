@@ -844,6 +844,32 @@ def _fmt(x: float, unit: str) -> str:
     return format_eng(x, unit)
 
 
+#: Common practice, no source: a loop time constant below this share of the edge time is not resolved.
+TAU_EDGE_RATIO = 0.1
+
+
+def _validity_messages(design: Design, circ: BootstrapCircuit) -> list[str]:
+    """Plain-words reasons why the model's assumptions do not hold for this design (may be empty).
+
+    * The switch-node edges are steps (instantaneous) in the model, so its time
+      resolution is the edge time ``t_edge``: a charging loop with
+      ``τ = (r + esr + r_d)·C`` below ``TAU_EDGE_RATIO·t_edge`` settles within
+      an edge, and its peak and RMS currents are set by the edge, not the loop.
+
+    Edges longer than an interval of the schedule (a dead time, the LS refresh
+    window, an HS pulse) are flagged for every model by
+    :func:`explorer.schedule.schedule_validity`, which :func:`explorer.evaluate` reports.
+    """
+    b = design.bridge
+    out = []
+    tau = circ.r_tot * circ.c
+    if tau < TAU_EDGE_RATIO * b.t_edge:
+        out.append(f"the charging loop's time constant (r + esr + diode)·C = {_fmt(tau, 's')} is far below the "
+                   f"switch-node edge time {_fmt(b.t_edge, 's')}, which the model treats as instantaneous: the "
+                   "loop settles within an edge, so the peak and RMS currents are set by the edge and not resolved")
+    return out
+
+
 def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "nominal") -> OptionResult:
     """Evaluate one bootstrap option of a design.
 
@@ -873,6 +899,9 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     ss = steady_state(design, option, corner, circ)
     orb, sched, loop = ss.orbit, ss.schedule, ss.loop
     T = sched.period
+    for msg in _validity_messages(design, circ):
+        warnings.warn(msg, ModelValidityWarning, stacklevel=2)
+        warn.append(msg)
     refreshed = bool(np.isfinite(orb.v_min))
     if refreshed:
         ints = ss.integrals
