@@ -669,11 +669,6 @@ def _peak_span(bridge, n):
     return n / 4.0, n / 4.0
 
 
-def _three_phase_min(design, circ, m, f_o):
-    """Steady-state rail minimum over a whole fundamental for each modulation index in ``m`` [V] (exact)."""
-    return np.array([_full_fundamental_min(design, circ, float(mi), f_o) for mi in np.atleast_1d(m)])
-
-
 def _fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     """Lower and upper bounds of the rail minimum over a fundamental for each ``(m, f_o)`` [V].
 
