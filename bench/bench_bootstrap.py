@@ -37,6 +37,7 @@ sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..")
 
 from explorer import demo_design, load_design  # noqa: E402
 from explorer.loads import required_rail  # noqa: E402
+from explorer.netlist import export_netlist  # noqa: E402
 from explorer.options import bootstrap as B  # noqa: E402
 from explorer.spice import ngspice_path  # noqa: E402
 
@@ -116,9 +117,7 @@ def _ngspice_seconds(design) -> float | None:
     if exe is None:
         return None
     o = design.options[0]
-    su = B.startup(design, o)
-    net = B.spice_netlist(design, o, n_cycles=design.bridge.startup_cycles, delivered=su.delivered,
-                          tstep=20e-9)
+    net = export_netlist(design, o.label, n_cycles=design.bridge.startup_cycles)
     text = net + ".control\nset noaskquit\nrun\nquit\n.endc\n.end\n"
     with tempfile.TemporaryDirectory() as tmp:
         cir = os.path.join(tmp, "bench.cir")

@@ -31,8 +31,6 @@ rail_min_map(design, option, f_sw, duty, corner="nominal")
     (one call of :func:`explorer.bootstrap_engine.steady_rail`; more than 10⁶
     points per second). Its values equal ``evaluate_option``'s rail minimum to
     1e-12 relative at the operating point.
-spice_netlist(design, option, ...)
-    The start-up circuit as an ngspice netlist written from the model's own parameters.
 
 Assumptions (each stated where it is used): UVLO is sampled at interval
 boundaries; a withheld HS pulse leaves SW at ``v_sw_low``; the gate charge is
@@ -60,10 +58,9 @@ from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
 from ..schedule import Schedule, hs_duty_per_period, nominal_duty, period_schedule, startup_schedule
-from ..spice import spice_number
 
 __all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_state", "startup",
-           "StartupSolution", "rail_min_map", "duty_slots", "evaluate_option", "spice_netlist",
+           "StartupSolution", "rail_min_map", "duty_slots", "evaluate_option",
            "DUTY_GRID"]
 
 #: Points of the first duty sweep of the duty-limit search (then refined by bisection rounds).
@@ -1093,84 +1090,6 @@ def _ls_pulse_min(design, circ, need):
 
 
 # --------------------------------------------------------------------------- SPICE
-
-def spice_netlist(design: Design, option: BootstrapOption, *, n_cycles: int, corner: str = "nominal",
-                  tstep: float | None = None, edge: float | None = None, delivered=None) -> str:
-    """The start-up circuit as an ngspice netlist, written from the model's own parameters.
-
-    Nodes: ``dd`` (V_DD), ``a`` (after R), ``b`` (V_B), ``s`` (V_S = SW), ``x``
-    (between C and its ESR). SW is a PWL source following the start-up
-    schedule (withheld HS pulses stay at ``v_sw_low``; pass ``delivered`` from
-    :func:`startup` so the circuit sees exactly the model's pulses); the gate
-    charge is a current pulse of Q/edge at each delivered HS turn-on; I_Q a DC
-    source; R_GS a behavioural current while the HS is on. The diode is a
-    SPICE junction diode (IS, N, RS) or, for the straight-line diode, an ideal
-    switch-like junction (IS=1e-30·, N chosen so the knee is sharp) in series
-    with V_F and r_d. Recovery, junction capacitance and leakage are left out
-    (set them to zero in the option when comparing).
-    """
-    circ = bootstrap_circuit(design, option, corner)
-    s = startup_schedule(design, n_cycles=n_cycles)
-    b = design.bridge
-    edge = edge or min(b.t_edge, 0.02 * float(np.min(s.dt[s.dt > 0])))
-    if delivered is None:
-        delivered = s.hs_on.copy()
-    vsw = np.where(s.hs_on & ~delivered, circ.v_sw_low, s.v_sw)
-    t0 = s.t_start
-    # SW PWL: level k holds from t0[k] + edge to t0[k+1]
-    pts = [(0.0, circ.v_sw_low)]
-    prev = circ.v_sw_low
-    for tk, lv in zip(t0, vsw):
-        if lv != prev:
-            pts.append((tk, prev))
-            pts.append((tk + edge, lv))
-            prev = lv
-    t_end = s.period
-    pts.append((t_end, prev))
-    sw_pwl = " ".join(f"{spice_number(t)} {spice_number(v)}" for t, v in pts)
-    on = np.flatnonzero(delivered & np.concatenate(([True], ~delivered[:-1])) & (s.dt > 0))
-    i_gate = circ.q_on / edge
-    g_pts = [(0.0, 0.0)]
-    for k in on:
-        tk = t0[k]
-        g_pts += [(tk, 0.0), (tk + edge * 1e-3, i_gate), (tk + edge, i_gate), (tk + edge * (1 + 1e-3), 0.0)]
-    g_pts.append((t_end, 0.0))
-    g_pwl = " ".join(f"{spice_number(t)} {spice_number(v)}" for t, v in g_pts)
-    # HS-on control voltage (1 while a delivered pulse is on) for the pull-down
-    h_pts = [(0.0, 0.0)]
-    hs_prev = False
-    for tk, h in zip(t0, delivered):
-        if h != hs_prev:
-            h_pts += [(tk, float(hs_prev)), (tk + edge, float(h))]
-            hs_prev = h
-    h_pts.append((t_end, float(hs_prev)))
-    h_pwl = " ".join(f"{spice_number(t)} {spice_number(v)}" for t, v in h_pts)
-    tstep = tstep or float(np.min(s.dt[s.dt > 0])) / 100
-    lines = [f"* bootstrap start-up written by explorer from the model's parameters ({design.title})",
-             f"VDD dd 0 {spice_number(circ.v_dd)}",
-             f"VSW s 0 PWL({sw_pwl})",
-             f"VHS h 0 PWL({h_pwl})",
-             f"R1 dd a {spice_number(max(option.r, 1e-6))}"]
-    if circ.diode == "junction":
-        d = option.diode
-        lines.append("D1 a b DJ")
-        lines.append(f".model DJ D(IS={spice_number(d.i_s)} N={spice_number(d.n)} RS={spice_number(d.r_s)})")
-    else:
-        d = option.diode
-        lines += ["D1 a k1 DI", f"VF k1 k2 {spice_number(d.v_f)}",
-                  f"RD k2 b {spice_number(max(d.r_d, 1e-6))}",
-                  ".model DI D(IS=1e-14 N=0.01)"]
-    lines += [f"C1 b x {spice_number(circ.c)} IC=0",
-              f"RESR x s {spice_number(max(option.esr, 1e-6))}",
-              f"IQ b s DC {spice_number(circ.i_q)}",
-              f"IG b s PWL({g_pwl})"]
-    if circ.g_gs > 0:
-        lines.append(f"BGS b s I=(v(b)-v(s))*{spice_number(circ.g_gs)}*v(h)")
-    lines += [f".options reltol=1e-5 abstol=1e-12 vntol=1e-7 temp={spice_number(design.checks.t_amb)} "
-              f"tnom={spice_number(design.checks.t_amb)}",
-              f".tran {spice_number(tstep)} {spice_number(t_end)} 0 {spice_number(tstep)} uic"]
-    return "\n".join(lines) + "\n"
-
 
 def rail_min_batch(design: Design, option: BootstrapOption, factors) -> np.ndarray:
     """Steady-state rail minimum for many spread samples in one batched solve [V].

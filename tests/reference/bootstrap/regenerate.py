@@ -6,8 +6,8 @@ Run from the repository root::
 
 It loads ``design.json`` (an invented scenario), lets the model decide which
 high-side pulses are delivered during start-up (UVLO), writes the circuit with
-:func:`explorer.options.bootstrap.spice_netlist` to ``startup.cir`` (so the
-netlist always follows the model's own parameters), runs ngspice (39 was used)
+:func:`explorer.netlist.export_netlist` (the project's one netlist writer) to
+``startup.cir`` (so the netlist always follows the model's own parameters), runs ngspice (39 was used)
 and stores the figures the tests compare in ``reference.json``.
 """
 
@@ -21,20 +21,20 @@ HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, os.path.abspath(os.path.join(HERE, "..", "..", "..")))
 
 from explorer.design import load_design  # noqa: E402
-from explorer.options.bootstrap import spice_netlist, startup  # noqa: E402
+from explorer.netlist import export_netlist, netlist_probes  # noqa: E402
 from explorer.spice import run_transient  # noqa: E402
 
 import numpy as np  # noqa: E402
 
-#: Time step of the transient [s] (about 1/100 of the shortest interval of interest).
-TSTEP = 5e-9
+#: Vector of the capacitor voltage (the model's state; the terminal rail adds the ESR drop).
+CAP = "v(vb)-v(cb)"
 
 
 def reference_figures(design, option, wave: dict) -> dict:
     """Figures of one ngspice waveform: first crossing of UVLO-on and the last period's extremes of the
-    capacitor voltage v(b) − v(x) (the model's state; v(b) − v(s) adds the ESR drop)."""
+    capacitor voltage (the model's state; the terminal rail adds the ESR drop)."""
     t = wave["time"]
-    v = wave["v(b)-v(x)"]
+    v = wave[CAP]
     th = design.driver.uvlo_on
     k = int(np.argmax(v >= th))
     t_cross = float(t[k - 1] + (th - v[k - 1]) * (t[k] - t[k - 1]) / (v[k] - v[k - 1]))
@@ -45,10 +45,9 @@ def reference_figures(design, option, wave: dict) -> dict:
 
 
 def netlist_and_run(design, option):
-    su = startup(design, option)
-    n = design.bridge.startup_cycles
-    net = spice_netlist(design, option, n_cycles=n, delivered=su.delivered, tstep=TSTEP)
-    wave = run_transient(net, ["v(b)-v(x)"])
+    net = export_netlist(design, option.label, n_cycles=design.bridge.startup_cycles)
+    assert netlist_probes(design, option.label)["cap"] == CAP
+    wave = run_transient(net, [CAP])
     return net, wave
 
 
