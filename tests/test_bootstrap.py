@@ -150,10 +150,7 @@ def test_charge_conservation_per_period(junction):
     d = _design()
     d = _junction(d) if junction else d
     ss = steady_state(d, d.options[0])
-    ints = ss.integrals
-    q_in = float(np.sum(ints["q_d"]))
-    q_out = (float(np.sum(ss.loop.q_step)) + float(np.sum(ss.loop.i_load * ss.schedule.dt))
-             + float(np.sum(ss.loop.g_load * ints["int_v"])))
+    q_in, q_out = ss.charge_balance()
     assert q_in == pytest.approx(q_out, rel=1e-9)
 
 

@@ -260,6 +260,19 @@ class SteadyState:
     def t(self) -> np.ndarray:
         return self.schedule.t_start
 
+    def charge_balance(self) -> tuple[float, float]:
+        """Charge the diode delivers and the charge the loads take over the period [C], [C].
+
+        Loads: the steps (gate + level shift, recovery, junction capacitance),
+        the constant currents and the pull-down conductance times ∫V dt. In a
+        periodic steady state the two are equal (conservation of charge).
+        """
+        ints = self.integrals
+        q_in = float(np.sum(ints["q_d"]))
+        q_out = (float(np.sum(self.loop.q_step)) + float(np.sum(self.loop.i_load * self.schedule.dt))
+                 + float(np.sum(self.loop.g_load * ints["int_v"])))
+        return q_in, q_out
+
 
 def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal",
                  circ: BootstrapCircuit | None = None) -> SteadyState:
