@@ -599,6 +599,9 @@ def load_design(source: Union[str, os.PathLike, dict, Design]) -> Design:
         return source
     if isinstance(source, dict):
         return _design_from_dict(source)
+    if not isinstance(source, (str, os.PathLike)):
+        raise DesignError("", "expected a design: a file path, JSON text, a dict or a Design, not "
+                          f"{type(source).__name__}")
     if isinstance(source, str) and source.lstrip().startswith(("{", "[")):
         text = source
     else:
