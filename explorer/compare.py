@@ -4,12 +4,14 @@ from __future__ import annotations
 
 import html
 import json
+import warnings
 from dataclasses import dataclass
 
 from .design import Design, load_design
-from .errors import DesignError
+from .errors import DesignError, ModelValidityWarning
 from .options import model_for
 from .results import OptionResult, clean
+from .schedule import schedule_validity
 from .units import format_eng
 
 __all__ = ["Comparison", "evaluate", "RANKINGS"]
@@ -226,10 +228,18 @@ def evaluate(design, *, rank: str = "overhead") -> Comparison:
     ------
     DesignError
         For an invalid design or an unknown ranking rule.
+
+    Warns
+    -----
+    ModelValidityWarning
+        When the schedule leaves the range every model assumes
+        (:func:`~explorer.schedule.schedule_validity`).
     """
     d: Design = load_design(design)
     if rank not in RANKINGS:
         raise DesignError("rank", f"expected one of {', '.join(RANKINGS)}", rank)
+    for reason in schedule_validity(d):
+        warnings.warn(reason, ModelValidityWarning, stacklevel=2)
     results = []
     for opt in d.options:
         fn = model_for(opt.kind)

@@ -51,7 +51,8 @@ import numpy as np
 from .design import Bridge, Design, Driver
 from .errors import DesignError
 
-__all__ = ["Schedule", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period"]
+__all__ = ["Schedule", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
+           "schedule_validity"]
 
 
 @dataclass(frozen=True)
@@ -305,3 +306,34 @@ def startup_schedule(design: Design, bridge: Bridge | None = None, n_cycles: int
         ramp = np.ones(n)
     t_hs, t_ls, la, lb = hs_duty_per_period(b, k, ramp)
     return _assemble(b, design.driver, t_hs, t_ls, la, lb, periodic=False, pre=b.precharge)
+
+
+def schedule_validity(design: Design, schedule: Schedule | None = None) -> list[str]:
+    """Plain-words reasons why the schedule leaves the range the models assume (empty: none).
+
+    Every supply model treats a switch-node edge as an instantaneous step at an interval start
+    (the edge time only sizes dv/dt and pulse currents) and needs each interval to be a real
+    stretch of its level. That no longer holds when
+
+    * the edge time ``t_edge`` is longer than an interval of the steady-state schedule (the switch
+      node would still be moving when the next interval starts), or
+    * the dead time is longer than a delivered HS pulse (the pulse would end before the edges
+      around it have settled).
+
+    The caller warns with :class:`~explorer.errors.ModelValidityWarning`
+    (:func:`explorer.compare.evaluate` does).
+    """
+    s = schedule if schedule is not None else period_schedule(design)
+    b = design.bridge
+    out = []
+    live = s.dt[s.dt > 0]
+    if live.size and b.t_edge > float(live.min()):
+        out.append(f"the switch-node edge time t_edge = {b.t_edge:.3g} s is longer than the shortest "
+                   f"interval of the schedule ({float(live.min()):.3g} s): the models treat edges as steps "
+                   "between intervals, so the rail figures near that interval are not reliable")
+    pulses = s.dt[s.hs_on & (s.dt > 0)]
+    if pulses.size and b.dead_time > float(pulses.min()):
+        out.append(f"the dead time {b.dead_time:.3g} s is longer than the shortest high-side pulse "
+                   f"({float(pulses.min()):.3g} s): the edges around that pulse overlap it, which the "
+                   "schedule does not model")
+    return out
