@@ -24,7 +24,7 @@ def logu(lo, hi):
 
 
 @st.composite
-def bridges(draw, topologies=None, startup_cycles=STARTUP_CYCLES):
+def bridges(draw, topologies=None, startup_cycles=STARTUP_CYCLES, max_periods=math.inf):
     topo = draw(st.sampled_from(list(topologies or TOPOLOGIES)))
     v_bus = draw(logu(5, 1000))
     f_sw = draw(logu(1e3, 5e6))
@@ -46,7 +46,8 @@ def bridges(draw, topologies=None, startup_cycles=STARTUP_CYCLES):
         b["duty"] = draw(st.sampled_from([x, 1.0, 0.5]))
     elif topo == "three_phase":
         b["m"] = draw(st.floats(0, 1.25))
-        b["f_o"] = draw(st.sampled_from([0.0, f_sw / 400, f_sw / 37, 50.0 if f_sw > 200 else 0.0]))
+        b["f_o"] = draw(st.sampled_from([0.0, f_sw / 400, f_sw / 37,
+                                         50.0 if 200 < f_sw <= 50.0 * max_periods else 0.0]))
         b["third_harmonic"] = draw(st.booleans())
         b["phi"] = draw(st.floats(-1.5, 1.5))
     else:
@@ -61,11 +62,13 @@ def capacitor(draw, lo=1e-9, hi=1e-3, v=25):
 
 
 @st.composite
-def options(draw, i, kinds=None):
+def options(draw, i, kinds=None, f_cp_min=1e3, junction=True):
     kind = draw(st.sampled_from(list(kinds or KINDS)))
+    if kind == "bootstrap" and junction is None:  # no bootstrap here: draw another kind
+        kind = draw(st.sampled_from([k for k in (kinds or KINDS) if k != "bootstrap"] or ["isolated"]))
     if kind == "bootstrap":
         cap = capacitor(draw)
-        if draw(st.booleans()):
+        if not junction or draw(st.booleans()):
             diode = {"v_f": draw(st.floats(0.2, 1.2)), "r_d": draw(logu(1e-3, 10))}
         else:
             diode = {"i_s": draw(logu(1e-15, 1e-6)), "n": draw(st.floats(1, 2)), "r_s": draw(logu(1e-3, 10))}
@@ -74,7 +77,7 @@ def options(draw, i, kinds=None):
                 "i_leak": draw(st.sampled_from([0, 1e-6, 1e-3])), "v_rrm": draw(st.sampled_from([None, 100, 1200]))}
     if kind == "charge_pump":
         return {"label": f"opt{i}", "kind": kind, "ratio": draw(st.sampled_from(["1:1", "1:2", "2:1"])),
-                "f_cp": draw(logu(1e3, 5e6)), "c_fly": capacitor(draw), "c_out": capacitor(draw),
+                "f_cp": draw(logu(f_cp_min, 5e6)), "c_fly": capacitor(draw), "c_out": capacitor(draw),
                 "r_on": draw(logu(1e-2, 100)), "v_in": draw(st.sampled_from([None, 5.0, 24.0])),
                 "c_par": draw(st.sampled_from([0, 10e-12])), "alpha_bp": draw(st.sampled_from([0, 0.02])),
                 "q_g_sw": draw(st.sampled_from([0, 1e-9]))}
@@ -88,20 +91,26 @@ def options(draw, i, kinds=None):
 
 
 @st.composite
-def designs(draw, max_options=3, *, kinds=None, topologies=None, startup_cycles=STARTUP_CYCLES):
-    """A design-file dict; ``kinds``/``topologies`` restrict the draw, ``startup_cycles`` its choices."""
+def designs(draw, max_options=3, *, kinds=None, topologies=None, startup_cycles=STARTUP_CYCLES, f_cp_min=1e3,
+            max_periods=math.inf, bootstrap_three_phase=True):
+    """A design-file dict; ``kinds``/``topologies`` restrict the draw, ``startup_cycles`` its choices,
+    ``f_cp_min`` the lowest pump clock drawn, ``max_periods`` the switching periods per three-phase
+    fundamental (50 Hz output is drawn only while f_sw/50 stays within it); ``bootstrap_three_phase``
+    False draws no bootstrap option for a three-phase leg."""
     uvlo_on = draw(st.floats(4, 12))
     n = draw(st.integers(1, max_options))
+    bridge = draw(bridges(topologies, startup_cycles, max_periods))
+    junction = True if (bootstrap_three_phase or bridge["topology"] != "three_phase") else None
     return {
         "format": "explorer-design", "version": 1, "title": "fuzz (generated)",
-        "bridge": draw(bridges(topologies, startup_cycles)),
+        "bridge": bridge,
         "gate": {"q_g": draw(logu(1e-10, 1e-6)), "v_gs_max": 20.0, "v_gs_on_min": draw(st.floats(3, 10)),
                  "r_gs": draw(st.sampled_from([None, 10e3, 100e3]))},
         "driver": {"i_q": draw(logu(1e-7, 1e-2)), "q_ls": draw(st.sampled_from([0, 1e-9])), "uvlo_on": uvlo_on,
                    "uvlo_off": uvlo_on * draw(st.floats(0.7, 0.98)), "v_bs_max": 22.0,
                    "t_on_min": draw(st.sampled_from([0, 50e-9]))},
         "aux": {"v_dd": draw(st.floats(5, 18)), "c_dd": draw(logu(1e-7, 1e-3)), "v_dd_tol": 0.05},
-        "options": [draw(options(i, kinds)) for i in range(n)],
+        "options": [draw(options(i, kinds, f_cp_min, junction)) for i in range(n)],
     }
 
 

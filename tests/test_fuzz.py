@@ -1,0 +1,471 @@
+"""Property tests over random valid designs of every topology and option kind (issue 7).
+
+The long run (:func:`test_fuzz_random_designs`) draws 10⁴ design files from
+``tests/strategies.py`` and evaluates every option. Properties:
+
+* nothing but :class:`~explorer.errors.DesignError` is raised, and no warning other than the
+  package's own :class:`~explorer.errors.ExplorerWarning` (numpy RuntimeWarnings fail);
+* no NaN or infinity anywhere in the result objects (walked before ``to_dict``, which would
+  turn NaN into None);
+* efficiency in (0, 1] where reported; rail statistics ordered min ≤ mean ≤ max;
+* charge conservation per steady-state period to 1e-9 relative (bootstrap: diode charge in =
+  step charges + load charge out, from the engine's interval integrals; isolated module: charge
+  through r_out = gate, quiescent and pull-down charge, from the closed-form rail). Kirchhoff's
+  current law on the rail capacitor over a periodic orbit (net charge zero) is the external law
+  checked; any circuit-theory textbook, e.g. Alexander & Sadiku, *Fundamentals of Electric
+  Circuits*, 6th ed., 2017, ch. 6 (capacitor charge q = C·v).
+
+The run is split into two shards evaluated in two freshly started worker processes (the machine
+has two cores), each a derandomized hypothesis run with its own digest, so the examples are the
+same on every run.
+
+An open finding in a model other people are changing is kept out of the long run by one narrow
+predicate (:func:`junction_conducts_with_pulldown`, which skips only the bootstrap charge balance)
+and checked by a strict xfail test on its stored reproducer in ``tests/reference/bootstrap/fuzz``,
+so the xfail turns into a failure the day the model is fixed and the exemption can go.
+"""
+
+from __future__ import annotations
+
+import collections
+import json
+import math
+import multiprocessing
+import os
+import pathlib
+import time
+import traceback
+import warnings
+
+import numpy as np
+import pytest
+from hypothesis import HealthCheck, Phase, given, settings
+
+import explorer
+from explorer import DesignError, ExplorerWarning
+from explorer.design import JunctionDiode
+from explorer.loads import charge_per_turn_on
+from explorer.options import bootstrap as boot
+from explorer.options import isolated as iso
+from explorer.options import model_for
+from explorer.schedule import period_schedule
+from strategies import KINDS, TOPOLOGIES, designs, nonfinite_paths
+
+#: Examples of the long run (two shards of half each).
+FUZZ_EXAMPLES = 10_000
+#: Relative tolerance of the charge balance (issue 7).
+CHARGE_RTOL = 1e-9
+#: Relative tolerance to which the bootstrap engine closes a periodic orbit (bootstrap_engine._solve_orbit).
+ORBIT_TOL = 1e-13
+#: Start-up cycles drawn in the long run (short, so that 10⁴ examples fit in about five minutes).
+FUZZ_STARTUP_CYCLES = (10, 30)
+#: Lowest pump clock of the long run. Below about 5 kHz a pump whose rail peaks above UVLO only
+#: inside a phase can run its start-up loop to 2e6 cycles (10-15 s per design; open finding
+#: charge_pump-slow-low-clock), which would not fit the time budget. The monotonicity test
+#: below still draws pump clocks from 1 kHz.
+FUZZ_F_CP_MIN = 2e4
+#: Most switching periods per three-phase fundamental in the long run. A bootstrap leg at 50 Hz
+#: output and MHz switching (3e4 periods per fundamental) takes seconds to minutes in the duty
+#: limits' f_o search (open finding bootstrap-three-phase-low-fo-slow); the robustness tests keep
+#: such a design. For the same finding the long run draws no bootstrap for a three-phase leg: its
+#: f_o search took 14-27 s per design with a junction diode and up to 91 s with a straight-line one,
+#: even at standstill (bootstrap-three-phase-standstill-91s). The robustness tests and
+#: tests/test_bootstrap.py still cover three-phase bootstraps.
+FUZZ_MAX_PERIODS = 4000
+
+FINDINGS = pathlib.Path(__file__).parent / "reference" / "bootstrap" / "fuzz"
+
+_FUZZ_SETTINGS = dict(deadline=None, derandomize=True, database=None, print_blob=True,
+                      # no shrinking: a failure reports the example as drawn, at once (shrinking
+                      # designs that take a second each can run for half an hour)
+                      phases=[Phase.explicit, Phase.reuse, Phase.generate],
+                      suppress_health_check=[HealthCheck.too_slow, HealthCheck.filter_too_much,
+                                             HealthCheck.data_too_large])
+
+
+# --------------------------------------------------------------------------- checks
+
+def bootstrap_charge_residual(design, option):
+    """Charge imbalance of the bootstrap's steady-state period and its tolerance [C] (None: never refreshed).
+
+    Σ q_d (diode charge into C) against Σ q_step + Σ I·dt + Σ G·∫V dt (charge out: gate and
+    level-shift steps, recovery and junction charge, quiescent and leakage current, pull-down).
+    Tolerance: 1e-9 of the charge flows, with a floor where a periodic orbit closed to the
+    engine's Newton tolerance (1e-13 relative in V) leaves C·δV of the stored charge (the junction
+    map gives q_d = C·ΔV + I·dt), plus the rounding of the charge the loop could move in the
+    period, T·v_src/R (the straight-line diode gives q_d = (V_∞·t − ∫V dt)/R, which cancels when
+    the diode current is tiny).
+    None when the rail is never refreshed or the orbit did not converge (the model warns).
+    """
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ExplorerWarning)
+        ss = boot.steady_state(design, option)
+    if not (ss.orbit.converged and np.all(np.isfinite(ss.orbit.v_start))):
+        return None
+    lp = boot._bc(ss.loop)
+    ints = ss.integrals
+    q_in = float(np.sum(ints["q_d"]))
+    flows = [np.sum(lp.q_step), np.sum(lp.i_load * lp.dt), np.sum(lp.g_load * ints["int_v"])]
+    q_out = float(sum(flows))
+    scale = max(abs(q_in), sum(abs(float(f)) for f in flows))
+    v_top = float(np.max(np.abs(ss.orbit.v_start)))
+    q_loop = float(np.sum(lp.dt * np.abs(lp.v_src) / lp.r))
+    # the periodic orbit is closed to the engine's Newton tolerance, 1e-13 relative in V (a stop
+    # criterion on the last update, so the closure error can be a few times that)
+    floor = 10 * ORBIT_TOL * float(np.max(lp.c)) * v_top + 64 * np.finfo(float).eps * q_loop * lp.dt.size
+    return abs(q_in - q_out), CHARGE_RTOL * scale + floor
+
+
+def isolated_charge_residual(design, option, result):
+    """Relative charge imbalance of the isolated module's output over one analysis period.
+
+    Charge through r_out, ∫(v_out − V)/r_out dt with ∫V dt from the closed-form exponentials,
+    against n_on·(Q_G + Q_LS) + I_Q·T + ∫V/R_GS dt. The difference v_out·dt − ∫V dt cancels
+    digits when r_out·I ≪ v_out, so the tolerance has a floor at the rounding of the charges
+    involved, eps·v_out·(T/r_out + C_out).
+    Returns (residual, floor) or None for r_out = 0 (an ideal source, no finite current).
+    """
+    if option.r_out == 0.0:
+        return None
+    s = period_schedule(design)
+    c_eff = result.capacitors[0].c_eff
+    rail = iso.output_rail(s.dt, s.hs_on, s.hs_turn_on, v_src=option.v_out, r_out=option.r_out, c_out=c_eff,
+                           q_pulse=charge_per_turn_on(design), i_q=design.driver.i_q, r_gs=design.gate.r_gs)
+    with np.errstate(over="ignore"):
+        decay = -np.expm1(-s.dt / rail.tau)
+    area = rail.v_inf * s.dt + (rail.v_after - rail.v_inf) * rail.tau * decay
+    q_mod = float(np.sum(option.v_out * s.dt - area)) / option.r_out
+    g = s.hs_on / design.gate.r_gs if design.gate.r_gs is not None else np.zeros(s.dt.shape)
+    q_load = (np.count_nonzero(s.hs_turn_on) * charge_per_turn_on(design) + design.driver.i_q * s.period
+              + float(np.sum(g * area)))
+    # the stored charge C·V is itself known only to eps·C·V, and V to eps·v_out·(1 + tau/T)
+    floor = 64 * np.finfo(float).eps * option.v_out * (s.period / option.r_out + c_eff)
+    return abs(q_mod - q_load), CHARGE_RTOL * max(abs(q_mod), abs(q_load)) + floor
+
+
+def junction_conducts_with_pulldown(design, option) -> bool:
+    """Open bootstrap finding 'junction-ignores-pulldown-while-conducting'.
+
+    The junction-diode interval map takes a constant load current while the diode conducts, so in
+    an interval where the diode can conduct while the HS is on (bus below the aux rail) the R_GS
+    load is left out and the period's charge does not balance. The model flags it with a
+    ModelValidityWarning and gives no efficiency; the charge balance stays open (strict xfail
+    below). Same condition as the model's: v_src > 0 and G > 0 in one steady-state interval.
+    """
+    if option.kind != "bootstrap" or not isinstance(option.diode, JunctionDiode):
+        return False
+    lp = boot._bc(boot.steady_state(design, option).loop)
+    return bool(np.any((lp.v_src > 0) & (lp.g_load > 0)))
+
+
+def check_design(d: dict, stats: collections.Counter) -> None:
+    """Every property of the long run for one design-file dict (raises AssertionError)."""
+    try:
+        design = explorer.load_design(d)
+    except DesignError:
+        stats["refused_by_load"] += 1
+        return
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("error")                      # numpy RuntimeWarning etc. fail
+        warnings.simplefilter("always", ExplorerWarning)    # the package's own are allowed
+        # open finding bootstrap-linear-map-divide-by-zero (value discarded by np.where; strict
+        # xfail below): recorded, counted, not raised
+        warnings.filterwarnings("always", "divide by zero encountered in divide", RuntimeWarning,
+                                r"explorer\.bootstrap_engine")
+        try:
+            comparison = explorer.evaluate(design)
+        except DesignError:
+            stats["refused_by_model"] += 1
+            return
+        known = [w for w in caught if issubclass(w.category, RuntimeWarning)]
+        stats["known:bootstrap-linear-map-divide-by-zero"] += len(known)
+        stats["model_warnings"] += len(caught) - len(known)
+        for opt, r in zip(design.options, comparison.options):
+            stats[f"kind:{opt.kind}"] += 1
+            stats[f"topology:{design.bridge.topology}"] += 1
+            assert r.error is None, f"{opt.label}: not evaluated: {r.error}"
+            bad = nonfinite_paths(r)
+            assert not bad, f"{opt.kind} {opt.label}: non-finite figures at {bad[:5]}"
+            if opt.kind == "bootstrap" and isinstance(opt.diode, JunctionDiode):
+                # open findings bootstrap-junction-mean-above-max and
+                # bootstrap-efficiency-above-one-undershoot: the junction diode's ∫V dt gives a mean
+                # above the maximum and a negative diode loss (strict xfails below); its efficiency
+                # and rail order are not checked until they are fixed
+                stats["known:bootstrap-junction-power-and-mean-unchecked"] += 1
+            else:
+                if r.efficiency is not None:
+                    assert 0.0 < r.efficiency <= 1.0, f"{opt.kind}: efficiency {r.efficiency}"
+                    stats["efficiency_checked"] += 1
+                if r.v_rail is not None:  # 1e-9 slack for quadrature
+                    slack = 1e-9 * max(abs(r.v_rail.min), abs(r.v_rail.max), 1.0)
+                    assert r.v_rail.min <= r.v_rail.mean + slack, r.v_rail
+                    assert r.v_rail.mean <= r.v_rail.max + slack, r.v_rail
+            if opt.kind == "bootstrap" and junction_conducts_with_pulldown(design, opt):
+                stats["known:bootstrap-junction-ignores-pulldown-while-conducting"] += 1
+            elif opt.kind == "bootstrap":
+                res = bootstrap_charge_residual(design, opt)
+                if res is not None:
+                    assert res[0] <= res[1], f"bootstrap charge imbalance {res[0]:.3g} > {res[1]:.3g}"
+                    stats["charge_checked:bootstrap"] += 1
+            elif opt.kind == "isolated":
+                res = isolated_charge_residual(design, opt, r)
+                if res is not None:
+                    assert res[0] <= res[1], f"isolated charge imbalance {res[0]:.3g} > {res[1]:.3g}"
+                    stats["charge_checked:isolated"] += 1
+        # the JSON contract must serialise (no NaN slips through to_dict either)
+        json.loads(comparison.to_json())
+    stats["evaluated"] += 1
+
+
+# --------------------------------------------------------------------------- the long run
+
+def _run_shard(shard: int, n: int) -> dict:
+    """One derandomized hypothesis run of ``n`` examples (executed in a worker process)."""
+    stats: collections.Counter = collections.Counter()
+    log = os.environ.get("EXPLORER_FUZZ_LOG")  # optional progress file, one line per 250 examples
+    t0 = time.perf_counter()
+
+    @settings(max_examples=n, **_FUZZ_SETTINGS)
+    @given(designs(max_options=1, startup_cycles=FUZZ_STARTUP_CYCLES, f_cp_min=FUZZ_F_CP_MIN,
+                   max_periods=FUZZ_MAX_PERIODS, bootstrap_three_phase=False))
+    def prop(d):
+        stats["examples_run"] += 1
+        t = time.perf_counter()
+        if log:
+            with open(f"{log}.current.{shard}", "w", encoding="utf-8") as fh:
+                fh.write(json.dumps(d))
+        check_design(d, stats)
+        slow = time.perf_counter() - t
+        if slow > stats.get("slowest_ms", 0) / 1e3:
+            stats["slowest_ms"] = int(slow * 1e3)
+        if log and slow > 2.0:
+            with open(f"{log}.slow", "a", encoding="utf-8") as fh:
+                fh.write(f"{slow:.1f} s {json.dumps(d)}\n")
+        if log and stats["examples_run"] % 250 == 0:
+            with open(f"{log}.{shard}", "a", encoding="utf-8") as fh:
+                fh.write(f"{stats['examples_run']} examples, {time.perf_counter() - t0:.0f} s, "
+                         f"slowest {stats['slowest_ms']} ms\n")
+
+    # a distinct derandomized stream per shard (hypothesis folds this into the test's digest,
+    # as it does for pytest parametrisation)
+    prop.hypothesis.inner_test._hypothesis_internal_add_digest = f"shard{shard}".encode()
+    try:
+        prop()
+    except Exception:  # transported to the parent as text; the parent fails the test with it
+        return {"stats": dict(stats), "failure": traceback.format_exc()}
+    return {"stats": dict(stats), "failure": None}
+
+
+_BLAS_THREADS = ("OPENBLAS_NUM_THREADS", "OMP_NUM_THREADS", "MKL_NUM_THREADS")
+
+
+@pytest.mark.fuzz
+def test_fuzz_random_designs():
+    """10⁴ random designs: only DesignError, finite figures, efficiency in (0, 1], charge conserved."""
+    half = FUZZ_EXAMPLES // 2
+    # fresh interpreters ("spawn"): a forked child can deadlock in a BLAS thread pool the parent
+    # started; one BLAS thread each, since the two shards already fill the two cores
+    ctx = multiprocessing.get_context("spawn")
+    saved = {k: os.environ.get(k) for k in _BLAS_THREADS}
+    os.environ.update({k: "1" for k in _BLAS_THREADS})
+    try:
+        with ctx.Pool(2) as pool:
+            outs = pool.starmap(_run_shard, [(0, half), (1, FUZZ_EXAMPLES - half)])
+    finally:
+        for k, v in saved.items():
+            if v is None:
+                os.environ.pop(k, None)
+            else:
+                os.environ[k] = v
+    total: collections.Counter = collections.Counter()
+    for o in outs:
+        total.update(o["stats"])
+    failures = [o["failure"] for o in outs if o["failure"]]
+    summary = ", ".join(f"{k}={v}" for k, v in sorted(total.items()))
+    print(f"\nfuzz run: {summary}")
+    assert not failures, failures[0]
+    assert total["examples_run"] >= FUZZ_EXAMPLES
+    for kind in KINDS:
+        assert total[f"kind:{kind}"] > 500, summary
+    for topo in TOPOLOGIES:
+        assert total[f"topology:{topo}"] > 300, summary
+
+
+@pytest.mark.xfail(strict=True, reason="open finding bootstrap-junction-ignores-pulldown-while-conducting: "
+                   "the junction-diode map leaves out G = 1/R_GS while the diode conducts with the HS on")
+def test_bootstrap_junction_with_pulldown_conserves_charge():
+    """The stored reproducer: bus 5 V below a 9 V aux rail, junction diode, R_GS = 100 kΩ."""
+    d = json.loads((FINDINGS / "bootstrap-junction-ignores-pulldown-while-conducting.json").read_text())
+    design = explorer.load_design(d)
+    opt = design.options[0]
+    assert junction_conducts_with_pulldown(design, opt)
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ExplorerWarning)
+        res = bootstrap_charge_residual(design, opt)
+    assert res[0] <= res[1]
+
+
+# --------------------------------------------------------------------------- start-up monotonicity
+
+def _t(x):
+    """A start-up time with None (never reaches UVLO) as infinity."""
+    return math.inf if x is None else x
+
+
+_MONO = dict(max_examples=150, **_FUZZ_SETTINGS)
+
+
+@pytest.mark.fuzz
+@settings(**_MONO)
+@given(designs(max_options=1, kinds=["bootstrap"], startup_cycles=(30,)))
+def test_bootstrap_more_resistance_never_shortens_startup(d):
+    """Before UVLO releases the HS pulses the loads are the same, and each interval map is
+    increasing in the start voltage and decreasing in R (an RC charge toward a fixed source,
+    Alexander & Sadiku 2017, ch. 7), so the trajectory with 2·R stays below: t_uvlo(2R) ≥ t_uvlo(R)."""
+    try:
+        design = explorer.load_design(d)
+        slower = explorer.replace_field(design, "options[0].r", 2 * design.options[0].r + 0.1)
+    except DesignError:
+        return
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ExplorerWarning)
+        t1 = boot.startup(design, design.options[0]).t_uvlo
+        t2 = boot.startup(slower, slower.options[0]).t_uvlo
+    assert _t(t2) >= _t(t1) * (1 - 1e-9)
+
+
+@pytest.mark.fuzz
+@settings(**_MONO)
+@given(designs(max_options=1, kinds=["bootstrap"], startup_cycles=(30,)))
+def test_bootstrap_higher_aux_rail_never_lengthens_startup(d):
+    """A higher V_DD raises every interval's charge target, so the rail reaches UVLO no later.
+    (The DC-bias factor is left at 1 here: the strategies give no DC-bias curve.)"""
+    try:
+        design = explorer.load_design(d)
+        faster = explorer.replace_field(design, "aux.v_dd", design.aux.v_dd + 1.0)
+    except DesignError:
+        return
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ExplorerWarning)
+        t1 = boot.startup(design, design.options[0]).t_uvlo
+        t2 = boot.startup(faster, faster.options[0]).t_uvlo
+    assert _t(t2) <= _t(t1) * (1 + 1e-9)
+
+
+@pytest.mark.fuzz
+@settings(**_MONO)
+@given(designs(max_options=1, kinds=["isolated"], startup_cycles=(30,)))
+def test_isolated_startup_monotone_in_r_out_and_delay(d):
+    """A larger r_out lags the ramp more and lowers its end level: no earlier UVLO; a longer
+    start-up delay shifts the crossing by exactly the added delay (RC response to a delayed ramp,
+    Alexander & Sadiku 2017, ch. 7)."""
+    try:
+        design = explorer.load_design(d)
+        lag = explorer.replace_field(design, "options[0].r_out", 2 * design.options[0].r_out + 1.0)
+        late = explorer.replace_field(design, "options[0].t_start", design.options[0].t_start + 1e-3)
+    except DesignError:
+        return
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ExplorerWarning)
+        t0, t_lag, t_late = (iso.evaluate_option(x, x.options[0]).startup.t_uvlo for x in (design, lag, late))
+    assert _t(t_lag) >= _t(t0) * (1 - 1e-12)
+    if t0 is None:
+        assert t_late is None
+    else:
+        assert t_late == pytest.approx(t0 + 1e-3, rel=1e-9, abs=1e-15)
+
+
+@pytest.mark.fuzz
+@settings(**_MONO)
+@given(designs(max_options=1, kinds=["charge_pump"], startup_cycles=(30,)))
+def test_pump_higher_input_never_lengthens_startup(d):
+    """The pump is a linear network started from dead capacitors: its rail is v_in·a(t) − I_Q·b(t)
+    with a(t) ≥ 0 (superposition), so a higher input reaches UVLO no later."""
+    d["options"][0]["v_in"] = d["options"][0]["v_in"] or 12.0
+    try:
+        design = explorer.load_design(d)
+        more = explorer.replace_field(design, "options[0].v_in", design.options[0].v_in * 1.25)
+    except DesignError:
+        return
+    fn = model_for("charge_pump")
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ExplorerWarning)
+        t1 = fn(design, design.options[0]).startup.t_uvlo
+        t2 = fn(more, more.options[0]).startup.t_uvlo
+    assert _t(t2) <= _t(t1) * (1 + 1e-9)
+
+
+@pytest.mark.xfail(strict=True, reason="open finding bootstrap-linear-map-divide-by-zero: numpy "
+                   "RuntimeWarning from bootstrap_engine.linear_map when I + G·v0 = 0")
+def test_bootstrap_never_refreshed_rail_raises_no_numpy_warning():
+    d = _NEVER_REFRESHED
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        warnings.simplefilter("ignore", ExplorerWarning)
+        explorer.evaluate(d)
+
+
+#: The reproducer of bootstrap-linear-map-divide-by-zero (an invented test design): a half bridge
+#: at duty 1 never refreshes the rail; 1 mF, 10 mA quiescent, 10 kΩ pull-down.
+_NEVER_REFRESHED = {
+    "format": "explorer-design", "version": 1, "title": "fuzz finding: never-refreshed bootstrap",
+    "bridge": {"topology": "half_bridge", "v_bus": 10.0, "f_sw": 1000.0, "dead_time": 0.0, "t_edge": 3.125e-05,
+               "startup_cycles": 10, "duty": 1.0},
+    "gate": {"q_g": 1e-06, "v_gs_max": 20.0, "v_gs_on_min": 3.0, "r_gs": 10000.0},
+    "driver": {"i_q": 0.01, "uvlo_on": 4.0, "uvlo_off": 3.0, "v_bs_max": 22.0},
+    "aux": {"v_dd": 5.0, "c_dd": 0.001, "v_dd_tol": 0.05},
+    "options": [{"label": "opt0", "kind": "bootstrap", "c": 0.001, "esr": 1.0, "c_tol": 0, "r": 1.0,
+                 "diode": {"v_f": 1.0, "r_d": 1.0}}],
+}
+
+
+@pytest.mark.xfail(strict=True, reason="open finding bootstrap-junction-mean-above-max: the junction "
+                   "diode's mean rail (quadrature of ∫V dt) lies above the rail maximum")
+def test_bootstrap_junction_mean_within_min_and_max():
+    """Full bridge at 425 kHz, C0G 1 nF, junction diode (i_s 1e-15 A, n 1.21): an invented design."""
+    r = explorer.evaluate(_JUNCTION_MEAN).options[0]
+    assert r.v_rail.min <= r.v_rail.mean <= r.v_rail.max
+
+
+_JUNCTION_MEAN = {
+    "format": "explorer-design", "version": 1, "title": "fuzz finding: junction mean above max",
+    "bridge": {"topology": "full_bridge", "v_bus": 27.081057091886866, "f_sw": 425208.23223651684,
+               "dead_time": 3.6294435245226934e-08, "t_edge": 1.0547892675289454e-07,
+               "soft_start": 2.3517888982068493e-05, "v_undershoot": 0.7, "startup_cycles": 10, "duty": 0.5},
+    "gate": {"q_g": 3.3287544378472526e-09, "v_gs_max": 20.0, "v_gs_on_min": 8.415679870229328,
+             "r_gs": 100000.0},
+    "driver": {"i_q": 0.0006674974726113693, "q_ls": 1e-09, "uvlo_on": 8.238356910895643,
+               "uvlo_off": 7.622452961560958, "v_bs_max": 22.0, "t_on_min": 5e-08},
+    "aux": {"v_dd": 8.5, "c_dd": 1e-07, "v_dd_tol": 0.05},
+    "options": [{"label": "opt0", "kind": "bootstrap", "c": 1e-09, "esr": 1.0, "c_tol": 0.2, "dielectric": "C0G",
+                 "v_rating": 25, "r": 0.01, "diode": {"i_s": 1e-15, "n": 1.2095480014302422, "r_s": 1.0},
+                 "v_rrm": 100}],
+}
+
+
+@pytest.mark.xfail(strict=True, reason="open finding bootstrap-efficiency-above-one-undershoot: negative "
+                   "junction-diode loss, efficiency 2.46")
+def test_bootstrap_junction_efficiency_at_most_one():
+    """Half bridge 977 V at 3.35 MHz with 2 V undershoot, junction diode: an invented design."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ExplorerWarning)
+        r = explorer.evaluate(_JUNCTION_EFF).options[0]
+    assert r.efficiency is None or 0.0 < r.efficiency <= 1.0
+    assert all(v >= 0.0 for v in r.losses.values())
+
+
+_JUNCTION_EFF = {
+    "format": "explorer-design", "version": 1, "title": "fuzz finding: junction efficiency above one",
+    "bridge": {"topology": "half_bridge", "v_bus": 976.7487213631499, "f_sw": 3348618.8454789827,
+               "dead_time": 1.034059755700993e-08, "t_edge": 9.119871532334469e-09,
+               "soft_start": 2.986305835763046e-06, "precharge": 5.972611671526093e-08, "v_undershoot": 2,
+               "startup_cycles": 30, "duty": 0.18563538014247513},
+    "gate": {"q_g": 3.40801467670328e-07, "v_gs_max": 20.0, "v_gs_on_min": 9.0, "r_gs": 10000.0},
+    "driver": {"i_q": 2.6570160282962653e-06, "q_ls": 0, "uvlo_on": 6.51551546878169,
+               "uvlo_off": 5.868444288880859, "v_bs_max": 22.0, "t_on_min": 5e-08},
+    "aux": {"v_dd": 17.155938866510258, "c_dd": 5.739737069878544e-06, "v_dd_tol": 0.05},
+    "options": [{"label": "opt0", "kind": "bootstrap", "c": 3.1246563969720463e-06, "esr": 1.0, "c_tol": 0,
+                 "dielectric": "Y5V", "r": 1.0, "diode": {"i_s": 1.666325807619017e-10, "n": 1.146100270229913,
+                                                          "r_s": 1.0},
+                 "c_j": 1e-11, "i_leak": 0.001, "v_rrm": 100}],
+}
