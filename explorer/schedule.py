@@ -52,7 +52,7 @@ from .design import Bridge, Design, Driver
 from .errors import DesignError
 
 __all__ = ["Schedule", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
-           "schedule_validity"]
+           "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill"]
 
 
 @dataclass(frozen=True)
@@ -148,10 +148,30 @@ def _modulation(bridge: Bridge, theta: np.ndarray, ramp) -> np.ndarray:
     return bridge.m * ramp * u
 
 
-def _n_per_fundamental(bridge: Bridge) -> int:
-    if not bridge.f_o:
+#: Above this many switching periods per fundamental a three-phase leg is analysed as standstill.
+#: The rail then follows the slowly varying duty quasi-statically, and holding the highest duty for
+#: ever (standstill) bounds the fundamental's minimum from below, so the answer stays on the safe
+#: side while the work stays bounded (a 100 kHz leg at 5 Hz and below).
+QUASI_STATIC_PERIODS = 20_000
+
+
+def periods_per_fundamental(f_sw: float, f_o: float | None) -> int:
+    """Switching periods analysed per fundamental: round(f_sw/f_o), or 1 for standstill.
+
+    Standstill is f_o = 0 and any f_o below f_sw / :data:`QUASI_STATIC_PERIODS`.
+    """
+    if not f_o or f_sw / f_o > QUASI_STATIC_PERIODS:
         return 1
-    return max(1, int(round(bridge.f_sw / bridge.f_o)))
+    return max(1, int(round(f_sw / f_o)))
+
+
+def is_standstill(bridge: Bridge) -> bool:
+    """A three-phase leg analysed as standstill (f_o = 0, or quasi-static, see QUASI_STATIC_PERIODS)."""
+    return not bridge.f_o or bridge.f_sw / bridge.f_o > QUASI_STATIC_PERIODS
+
+
+def _n_per_fundamental(bridge: Bridge) -> int:
+    return periods_per_fundamental(bridge.f_sw, bridge.f_o)
 
 
 def hs_duty_per_period(bridge: Bridge, k: np.ndarray, ramp: np.ndarray):
@@ -197,7 +217,7 @@ def hs_duty_per_period(bridge: Bridge, k: np.ndarray, ramp: np.ndarray):
         return d * T - td, (1 - d) * T - td, low * ones, low * ones
     # three_phase
     n = _n_per_fundamental(bridge)
-    if bridge.f_o:
+    if not is_standstill(bridge):
         theta = 2 * np.pi * k / n
     else:  # standstill: the angle of the highest duty
         theta = (np.pi / 3 if bridge.third_harmonic else np.pi / 2) * ones
@@ -331,6 +351,10 @@ def schedule_validity(design: Design, schedule: Schedule | None = None) -> list[
         out.append(f"the switch-node edge time t_edge = {b.t_edge:.3g} s is longer than the shortest "
                    f"interval of the schedule ({float(live.min()):.3g} s): the models treat edges as steps "
                    "between intervals, so the rail figures near that interval are not reliable")
+    if b.topology == "three_phase" and b.f_o and is_standstill(b):
+        out.append(f"the output frequency f_o = {b.f_o:.3g} Hz is below f_sw/{QUASI_STATIC_PERIODS} = "
+                   f"{b.f_sw / QUASI_STATIC_PERIODS:.3g} Hz: the leg is analysed as standstill (the highest "
+                   "duty held for ever), which bounds the slow fundamental from the safe side")
     pulses = s.dt[s.hs_on & (s.dt > 0)]
     if pulses.size and b.dead_time > float(pulses.min()):
         out.append(f"the dead time {b.dead_time:.3g} s is longer than the shortest high-side pulse "

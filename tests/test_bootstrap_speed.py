@@ -261,15 +261,17 @@ def test_fundamental_bounds_bracket_the_exact_minimum(kw):
         assert a <= exact + 1e-9 and exact <= b + 1e-9
 
 
-def test_lowest_output_frequency_is_searched_to_the_legal_limit():
-    # a leg that holds at 1 Hz but not at standstill: the search goes below the old f_sw/2e4 floor and
-    # the rail minimum at the answer (exact, every switching period) meets the requirement
-    d = _three_phase(f_sw=20e3, m=1.0, f_o=1.0, c=10e-6, v_rating=25.0)
+def test_lowest_output_frequency_is_searched_to_the_quasi_static_limit():
+    # a leg that holds at 2 Hz but not at standstill: the search goes down to f_sw/QUASI_STATIC_PERIODS
+    # (below it the schedule analyses standstill, the safe-side bound) and the rail minimum at the
+    # answer (exact, every switching period) meets the requirement
+    from explorer.schedule import QUASI_STATIC_PERIODS
+    d = _three_phase(f_sw=20e3, m=1.0, f_o=2.0, c=10e-6, v_rating=25.0)
     circ = bootstrap_circuit(d, d.options[0])
     need = required_rail(d)
     terms = _three_phase_terms(d, circ, need)
     f = terms["f_o_min"]
-    assert f is not None and 0 < f < d.bridge.f_sw / 2e4
+    assert f is not None and d.bridge.f_sw / QUASI_STATIC_PERIODS <= f < d.bridge.f_o
     assert _full_fundamental_min(d, circ, d.bridge.m, f) >= need
     assert _full_fundamental_min(d, circ, d.bridge.m, 0.0) < need
 

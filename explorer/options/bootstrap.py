@@ -57,7 +57,8 @@ from ..design import BootstrapOption, Design, JunctionDiode
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
-from ..schedule import Schedule, hs_duty_per_period, nominal_duty, period_schedule, startup_schedule
+from ..schedule import (QUASI_STATIC_PERIODS, Schedule, hs_duty_per_period, is_standstill, nominal_duty,
+                        period_schedule, periods_per_fundamental, startup_schedule)
 
 __all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_state", "startup",
            "StartupSolution", "rail_min_map", "duty_slots", "evaluate_option",
@@ -487,7 +488,7 @@ def _levels(design: Design):
     """Dead-time SW levels of the period of highest duty."""
     b = design.bridge
     k = np.zeros(1, dtype=int)
-    if b.topology == "three_phase" and b.f_o:
+    if b.topology == "three_phase" and not is_standstill(b):
         s = period_schedule(design)
         k = np.array([int(np.argmax(s.duty))])
     _, _, la, lb = hs_duty_per_period(b, k, np.ones(1))
@@ -608,14 +609,15 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
 
 # --------------------------------------------------------------------------- topology terms
 
-#: Lowest legal output frequency, as f_sw / this many switching periods (the design file's limit).
-F_O_SEARCH_PERIODS = 2e6
+#: Lowest output frequency searched, as f_sw / this many switching periods: below it the schedule
+#: analyses the leg as standstill (explorer.schedule.QUASI_STATIC_PERIODS).
+F_O_SEARCH_PERIODS = QUASI_STATIC_PERIODS
 
 
 def _full_fundamental_min(design, circ, m, f_o):
     """Steady-state rail minimum over a whole fundamental, every interval solved (reference path) [V]."""
     b = design.bridge
-    n = max(1, int(round(b.f_sw / f_o))) if f_o else 1
+    n = periods_per_fundamental(b.f_sw, f_o)
     k = np.arange(n)
     t_hs, t_ls, la, lb = hs_duty_per_period(dataclasses.replace(b, m=float(m), f_o=f_o), k, np.ones(n))
     dt, v, hs = duty_slots(design, t_hs, t_ls, la, lb, 1.0 / b.f_sw)
@@ -703,7 +705,7 @@ def _fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     for i, (mi, f_o) in enumerate(cases):
         br = dataclasses.replace(b, m=float(mi), f_o=f_o)
         peak_hs.append(nominal_duty(br) * T - b.dead_time)
-        n = max(1, int(round(b.f_sw / f_o))) if f_o else 1
+        n = periods_per_fundamental(b.f_sw, f_o)
         c_lo, c_hi = _peak_span(b, n)
         for shift in (0.0, n / 64, n / 16, n / 8):
             k1 = int(math.floor(c_lo + (c_hi - c_lo if shift else 0.0) + shift)) - core // 3
@@ -738,7 +740,7 @@ def _passes(design, circ, cases, need):
     the threshold lies outside the bounds, else by the exact minimum of
     :func:`_full_fundamental_min`.
     """
-    n = np.array([max(1, int(round(design.bridge.f_sw / f_o))) if f_o else 1 for _, f_o in cases])
+    n = np.array([periods_per_fundamental(design.bridge.f_sw, f_o) for _, f_o in cases])
     lower = np.full(len(cases), -np.inf)
     upper = np.full(len(cases), np.inf)
     big = np.flatnonzero(n > _BOUNDS_FROM)  # below this the exact solve is cheaper than the bounds
@@ -807,8 +809,8 @@ def _three_phase_terms(design, circ, need):
             return out
         if r == 0 and ok[0]:
             out["f_o_min"] = f_lo
-            out["f_o_min_note"] = (f"holds down to the lowest legal output frequency, "
-                                   f"f_sw/{F_O_SEARCH_PERIODS:g} (standstill fails)")
+            out["f_o_min_note"] = (f"holds down to f_sw/{F_O_SEARCH_PERIODS:g}; below it the leg is "
+                                   "analysed as standstill, which fails")
             return out
         j = int(np.argmax(ok))  # first passing point from below
         if r:
