@@ -144,6 +144,8 @@ class Comparison:
             out.append(f"verdict [{r.label}]: {r.verdict}")
             for w in r.warnings:
                 out.append(f"warning [{r.label}]: {w}")
+            for c in r.cautions:
+                out.append(f"caution [{r.label}]: {c}")
         out.append("")
         out.append(CAUTION)
         return "\n".join(out)
@@ -169,6 +171,7 @@ class Comparison:
                 tds.append(f"<td{style}>{e(c)}</td>")
             body.append(f"<tr><th style='text-align:left'>{e(q)}</th>{''.join(tds)}</tr>")
         warn = "".join(f"<li>[{e(r.label)}] {e(w)}</li>" for r in self.options for w in r.warnings)
+        warn += "".join(f"<li>[{e(r.label)}] caution: {e(c)}</li>" for r in self.options for c in r.cautions)
         return (f"<div><b>{e(self.title)}</b><table><thead><tr><th></th>{head}</tr></thead>"
                 f"<tbody>{''.join(body)}</tbody></table>"
                 f"<p>ranking ({e(RANKINGS[self.rank][0])}): {e(' > '.join(self.ranking()))}</p>"

@@ -219,6 +219,9 @@ class OptionResult(_Dict):
         Every pass/fail check with its margin.
     error : str or None
         Set when the option could not be evaluated (then the figures are None).
+    cautions : tuple of str
+        Statements that always apply to this kind of option (e.g. that insulation must be designed
+        to the safety standards); unlike ``warnings`` they do not say something is wrong.
     t, v : ndarray [s], [V]
         Steady-state rail waveform over the analysis period.
     """
@@ -242,6 +245,7 @@ class OptionResult(_Dict):
     checks: tuple = ()
     extra: dict = field(default_factory=dict)
     error: str | None = None
+    cautions: tuple = ()
     t: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     v: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     _arrays = ("t", "v")

@@ -345,13 +345,14 @@ def test_v_iso_check_and_warning(demo):
 
 def test_insulation_statement_shows_in_the_comparison(demo):
     r = _run(demo)
-    assert iso.INSULATION_STATEMENT in r.warnings
+    assert iso.INSULATION_STATEMENT in r.cautions and iso.INSULATION_STATEMENT not in r.warnings
     for std in ("IEC 62368-1", "IEC 61800-5-1", "IEC 60664-1", "local codes"):
         assert std in iso.INSULATION_STATEMENT
     alone = demo.to_dict()
     alone["options"] = [o for o in alone["options"] if o["kind"] == "isolated"]
     text = evaluate(alone).to_text()  # the comparison table's text view
-    assert f"warning [{LABEL}]: {iso.INSULATION_STATEMENT}" in text
+    assert f"caution [{LABEL}]: {iso.INSULATION_STATEMENT}" in text
+    assert iso.INSULATION_STATEMENT in evaluate(alone)._repr_html_()
 
 
 # --------------------------------------------------------------------------- checks, duty, stress

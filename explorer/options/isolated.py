@@ -528,7 +528,6 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     if option.v_iso < ISO_HEADROOM * v_barrier:
         warn.append(f"isolation working voltage {option.v_iso:.4g} V is below {ISO_HEADROOM:g} \u00d7 the "
                     f"peak {v_barrier:.4g} V across the barrier (bus plus rail); edge overshoot is not modelled")
-    warn.append(INSULATION_STATEMENT)
 
     # ---- checks -------------------------------------------------------------------------------
     need = required_rail(design)
@@ -573,7 +572,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None,
                         topology=_rating_limits(design, sched, option)),
         r_out=option.r_out, capacitors=(stress,), p_drawn_aux=p_in, p_drawn_bus=p_cm, losses=losses,
-        checks=tuple(checks), extra=extra, t=t_wave, v=v_wave)
+        checks=tuple(checks), extra=extra, cautions=(INSULATION_STATEMENT,), t=t_wave, v=v_wave)
 
 
 def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarray:
