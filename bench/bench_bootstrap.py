@@ -35,6 +35,8 @@ import numpy as np
 
 sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..")))
 
+from _timing import median_s, run_times  # noqa: E402
+
 from explorer import demo_design, load_design  # noqa: E402
 from explorer.loads import required_rail  # noqa: E402
 from explorer.netlist import export_netlist  # noqa: E402
@@ -45,13 +47,7 @@ JUNCTION = {"i_s": 1e-8, "n": 1.5, "r_s": 0.3}
 
 
 def _median_ms(fn, repeat: int) -> float:
-    fn()
-    ts = []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t)
-    return 1e3 * float(np.median(ts))
+    return 1e3 * median_s(fn, repeat)
 
 
 def _designs():
@@ -129,12 +125,7 @@ def _ngspice_seconds(design) -> float | None:
 
 
 def _times_ms(fn, repeat: int):
-    fn()
-    ts = []
-    for _ in range(repeat):
-        t = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t)
+    ts = run_times(fn, repeat)
     return 1e3 * float(np.median(ts)), 1e3 * float(np.max(ts))
 
 

@@ -3,24 +3,18 @@
 Prints figures for docs/performance.md. Run: python bench/bench_compare.py
 """
 
-import statistics
-import time
 import warnings
 
 import numpy as np
 
 import explorer
+from _timing import median_s
 from explorer.sweep import margin_map, sweep
 from explorer.tolerance import monte_carlo, worst_case
 
 
 def median_time(fn, n=21):
-    ts = []
-    for _ in range(n):
-        t0 = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t0)
-    return statistics.median(ts)
+    return median_s(fn, n)
 
 
 def main():

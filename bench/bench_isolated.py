@@ -11,11 +11,11 @@ Run: ``python3 bench/bench_isolated.py [repeats]``
 from __future__ import annotations
 
 import os
-import statistics
 import sys
-import time
 
 sys.path.insert(0, os.path.dirname(os.path.dirname(os.path.abspath(__file__))))  # run from a checkout
+
+from _timing import median_s  # noqa: E402
 
 from explorer import demo_design, load_design  # noqa: E402
 from explorer.options.isolated import evaluate_option, output_rail  # noqa: E402
@@ -24,14 +24,7 @@ from explorer.schedule import period_schedule  # noqa: E402
 
 def median_time(fn, repeats: int, inner: int) -> float:
     """Median over ``repeats`` of the mean time of ``inner`` calls [s]."""
-    fn()  # warm-up (imports, caches)
-    runs = []
-    for _ in range(repeats):
-        t0 = time.perf_counter()
-        for _ in range(inner):
-            fn()
-        runs.append((time.perf_counter() - t0) / inner)
-    return statistics.median(runs)
+    return median_s(fn, repeats, inner=inner)
 
 
 def main(repeats: int = 21) -> None:
