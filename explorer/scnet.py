@@ -72,11 +72,12 @@ from functools import cached_property
 from typing import Union
 
 import numpy as np
+from scipy.optimize import brentq
 
 from .errors import DesignError
 
 __all__ = ["Cap", "Res", "VSrc", "ISrc", "Network", "PhaseSystem", "PeriodicSolution",
-           "StartupSolution", "periodic_steady_state", "phase_square_integrals", "startup", "cycle_map",
+           "StartupSolution", "StartupTransient", "periodic_steady_state", "phase_square_integrals", "startup", "cycle_map",
            "to_spice", "spice_t0"]
 
 GROUND = "0"
@@ -699,6 +700,14 @@ class PeriodicSolution:
         :func:`_exp_sum_roots`) and the phase's two ends are the only candidates.
         Both ends of each phase count (a probe may step at a switching instant).
         """
+        lo, hi = self.phase_extrema(names)
+        return lo.min(axis=-2), hi.max(axis=-2)
+
+    def phase_extrema(self, names) -> tuple[np.ndarray, np.ndarray]:
+        """Exact lowest and highest value of each probe within each phase, each of shape (..., P, m).
+
+        The method of :meth:`extrema`, before the phases are combined.
+        """
         net = self.net
         modes = net.modes
         if modes is None:
@@ -721,7 +730,7 @@ class PeriodicSolution:
         f1, _ = _phi(x)
         modal = np.exp(x) * w[..., None, None, :] + f1 * t[..., None] * gv[..., None, None, :]
         y = np.einsum("...pmi,...pmci->...pmc", k, modal) + ku[..., None]
-        return y.min(axis=(-1, -3)), y.max(axis=(-1, -3))
+        return y.min(axis=-1), y.max(axis=-1)
 
     def at_phase_ends(self, names) -> np.ndarray:
         """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""
@@ -846,6 +855,20 @@ class StartupSolution:
         return np.einsum("pmj,kpj->mkp", K, zend)
 
 
+def _start_target(Phi: np.ndarray, b: np.ndarray) -> np.ndarray:
+    """The state x_ss = Φ·x_ss + b the recurrence tends to (any consistent one when Φ has an eigenvalue 1)."""
+    nx = Phi.shape[0]
+    A = np.eye(nx) - Phi
+    if nx and np.linalg.cond(A) > 1e12:
+        # a charge that no phase changes (Φ has an eigenvalue 1): any consistent x_ss will do
+        xss = np.linalg.lstsq(A, b, rcond=None)[0]
+        if not np.allclose(A @ xss, b, rtol=1e-9, atol=1e-12 * (np.abs(b).max(initial=0.0) + 1.0)):
+            raise DesignError("network", "the inputs drive a charge that no phase can settle (no steady "
+                              "state to start toward)")
+        return xss
+    return np.linalg.solve(A, b) if nx else np.zeros(0)
+
+
 def _powers_apply(Phi: np.ndarray, v: np.ndarray, k: np.ndarray) -> np.ndarray:
     """Φ^k·v for every k (closed form through the eigen-decomposition), shape (len(k), n)."""
     n = Phi.shape[0]
@@ -885,15 +908,7 @@ def startup(net: Network, durations, u, x0=None, *, cycles) -> StartupSolution:
     x0 = np.zeros(nx) if x0 is None else np.asarray(x0, dtype=float)
     k = np.asarray(cycles, dtype=np.int64)
     Phi, Gam = tot[:nx, :nx], tot[:nx, nx:]
-    A, b = np.eye(nx) - Phi, Gam @ u
-    if nx and np.linalg.cond(A) > 1e12:
-        # a charge that no phase changes (Φ has an eigenvalue 1): any consistent x_ss will do
-        xss = np.linalg.lstsq(A, b, rcond=None)[0]
-        if not np.allclose(A @ xss, b, rtol=1e-9, atol=1e-12 * (np.abs(b).max(initial=0.0) + 1.0)):
-            raise DesignError("network", "the inputs drive a charge that no phase can settle (no steady "
-                              "state to start toward)")
-    else:
-        xss = np.linalg.solve(A, b)
+    xss = _start_target(Phi, Gam @ u)
     xk = xss[None, :] + _powers_apply(Phi, x0 - xss, k)
     z = np.concatenate([xk, np.broadcast_to(u, (k.size, u.size))], axis=1)
     zs = []
@@ -902,6 +917,385 @@ def startup(net: Network, durations, u, x0=None, *, cycles) -> StartupSolution:
         z = z @ E[p].T
     return StartupSolution(net=net, durations=np.asarray(durations, float), z_start=np.stack(zs, axis=1), E=E, S=S)
 
+
+#: Cycles beyond which start-up is not followed (2⁵³: the last count a float holds exactly).
+MAX_STARTUP_CYCLES = 2 ** 53
+#: Subintervals per split of the cycle-range search in :class:`StartupTransient`.
+_SPLIT = 8
+#: Most real modes bounded by corner states in that search (2^n corners per range).
+_CORNER_MODES = 3
+
+
+def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.ndarray) -> np.ndarray:
+    """Corners, as fractions of S_i = 1 − μ_i^j, of a triangle holding the curve s_i(l) = 1 − μ_i^l, 0 ≤ l ≤ j.
+
+    Two real modes μ₁, μ₂ ∈ (0, 1): the curve is a convex arc from 0 to S, so it
+    lies in the triangle of its chord and its two end tangents (directions
+    (−ln μ_i) at l = 0 and (−μ_i^j·ln μ_i) at l = j), whose corners are 0, S and
+    the tangents' intersection P. Returns (n, 3, 2) rows [S, P, P] scaled by S,
+    or the box's other corners ``box`` where the triangle is degenerate (equal
+    rates, an open tail, μ at 0 or 1).
+    """
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        l_ = -np.log(mu)  # (2,)
+        S = 1.0 - mj  # (n, 2)
+        # P = t0·l = S − tj·(μ^j·l): solve [l, μ^j·l]·[t0, tj]ᵀ = S
+        a11, a21 = l_[0], l_[1]
+        a12, a22 = mj[:, 0] * l_[0], mj[:, 1] * l_[1]
+        det = a11 * a22 - a12 * a21
+        t0 = (S[:, 0] * a22 - S[:, 1] * a12) / det
+        tj = (a11 * S[:, 1] - a21 * S[:, 0]) / det
+        P = t0[:, None] * l_[None, :]
+        frac = P / S
+        ok = (np.isfinite(j) & np.all(np.isfinite(frac), axis=1) & (t0 >= 0) & (tj >= 0)
+              & np.all(np.isfinite(l_)) & np.all(S > 0, axis=1) & (np.abs(det) > 1e-12 * np.abs(a11 * a22)))
+    tri = np.stack([np.ones_like(frac), np.where(ok[:, None], frac, 0.0), np.where(ok[:, None], frac, 0.0)], axis=1)
+    return np.where(ok[:, None, None], tri, box)
+
+
+class StartupTransient:
+    """Start-up over any number of cycles without stepping them (one network, one set of durations).
+
+    From capacitor voltages x₀ the cycle-start states follow
+    x_{k+1} = Φ·x_k + Γ·u, so x_k = x_ss + Φ^k·(x₀ − x_ss) with x_ss = Φ·x_ss + Γ·u.
+    With Φ = W·diag(μ)·W⁻¹ (eigen-decomposition; ``c = W⁻¹·(x₀ − x_ss)``) any probe
+    at time t of cycle k is
+
+        y(k, t) = y_ss(t) + Σ_i μ_i^k·α_i(t),
+
+    where y_ss is the periodic steady state and α_i(t) is the probe's response over
+    one cycle, inputs at zero, to the starting state c_i·w_i. Two facts make
+    questions over millions of cycles cost O(log N) batched evaluations:
+
+    * for a cycle range a ≤ k < b, |y(k, t) − y(a, t)| ≤ Σ_i A_i·D_i(a, b) for
+      every t, with A_i = max_t |α_i(t)| (exact, from the phase extrema) and
+      D_i = sup |μ_i^k − μ_i^a| = μ_i^a − μ_i^{b−1} for real μ_i ∈ [0, 1], and at most
+      |μ_i|^a·min((b−1−a)·|μ_i − 1|, 1 + |μ_i|^{b−1−a}) otherwise
+      (μ^j − 1 = (μ − 1)·Σ_{l<j} μ^l; |μ| ≤ 1 because the network is passive);
+    * within one cycle the extrema of a probe are exact (the zeros of its
+      closed-form derivative, :meth:`PeriodicSolution.extrema`).
+
+    So a range whose bound cannot reach the quantity sought is skipped whole, and
+    the rest is split (branch and bound over the integer k, eight parts per split,
+    the open tail [a, ∞) growing eightfold). For a Φ whose eigenvectors are
+    ill-conditioned (defective or nearly), the bound is the passivity one:
+    the stored energy ½·xᵀC·x of the homogeneous response never grows, so
+    |y(k, t) − y(a, t)| ≤ B·‖C^½·(x_a − x_ss)‖·min(2, (b−1−a)·‖C^½·Φ·C^−½ − I‖) with
+    B the largest ‖K_x·C^−½‖ of the probe over the phases, and Φ^k comes by repeated squaring.
+
+    Parameters
+    ----------
+    net : Network
+        One network (scalar element values) with the modal form (:attr:`Network.modes`).
+    durations : array_like (n_phases,) [s]
+    u : array_like (n_u,) [V]/[A]
+    x0 : array_like (n_x,), optional
+        Capacitor voltages before cycle 0 (default 0 V: dead capacitors) [V].
+
+    Examples
+    --------
+    A capacitor charged from 1 V through a resistor by a switch closed in the
+    first half of each cycle (τ = 1 ms, 1 ms cycles) reaches 0.9 V after ln 10·τ of
+    charging, 0.302585 ms into the charging phase of cycle 4:
+
+    >>> net = Network([VSrc("v", "in", "0", "v"), Res("s", "in", "a", 1e3, (0,)),
+    ...                Cap("c", "a", "0", 1e-6)], inputs=("v",), n_phases=2)
+    >>> tr = StartupTransient(net, [0.5e-3, 0.5e-3], [1.0])
+    >>> k, t = tr.first_reach("v(a)", 0.9)
+    >>> k, round(t * 1e3, 6)
+    (4, 4.302585)
+    """
+
+    def __init__(self, net: Network, durations, u, x0=None):
+        if net.batch_shape != ():
+            raise DesignError("network", "start-up takes one network (scalar element values)", net.batch_shape)
+        if net.modes is None:
+            raise DesignError("network", "start-up over many cycles needs the modal form of a reciprocal RC network")
+        self.net = net
+        self.durations = np.asarray(durations, float)
+        E, S, tot = cycle_map(net, self.durations)
+        nx = net.n_x
+        self.E, self.S = E, S
+        self.u = np.asarray(u, dtype=float)
+        x0 = np.zeros(nx) if x0 is None else np.asarray(x0, dtype=float)
+        self.Phi = Phi = tot[:nx, :nx]
+        self.xss = _start_target(Phi, tot[:nx, nx:] @ self.u)
+        self.d0 = x0 - self.xss
+        mu, W = np.linalg.eig(Phi) if nx else (np.zeros(0), np.zeros((0, 0)))
+        self.modal = bool(nx == 0 or np.linalg.cond(W) < 1e8)
+        if self.modal:
+            mu = mu.astype(complex)
+            # a pair split off the real axis by rounding only (|Im μ| ≤ 1e-12·|μ|): real
+            self.mu = np.where(np.abs(mu.imag) <= 1e-12 * np.abs(mu), mu.real + 0j, mu)
+            self.W = W.astype(complex)
+            self.c = np.linalg.solve(self.W, self.d0.astype(complex)) if nx else np.zeros(0, complex)
+            self._real = (np.abs(self.mu.imag) == 0) & (self.mu.real >= 0)
+            slow = np.argsort(-np.abs(self.mu))
+            self._corner = np.array([i for i in slow if self._real[i]][:_CORNER_MODES], dtype=int)
+            rest = np.ones(nx, bool)
+            rest[self._corner] = False
+            self._rest = rest
+        self.periodic = self._solution(self.xss[None, :], self.u)
+        self._amp: dict = {}
+
+    # ------------------------------------------------------------------ evaluation
+    @property
+    def settling_cycles(self) -> float:
+        """Cycles per e-fold of the slowest decaying mode, −1/ln ρ with ρ the largest |μ_i| < 1 (0 if none)."""
+        if not self.modal:
+            r = float(np.max(np.abs(np.linalg.eigvals(self.Phi)), initial=0.0))
+        else:
+            m = np.abs(self.mu)
+            r = float(np.max(m[m < 1.0], initial=0.0))
+        return 0.0 if r <= 0.0 else -1.0 / math.log(r)
+
+    @property
+    def period(self) -> float:
+        """Cycle time [s]."""
+        return float(self.durations.sum())
+
+    def states(self, cycles) -> np.ndarray:
+        """Capacitor voltages x_k at the start of each cycle k, shape (len(cycles), n_x) [V]."""
+        k = np.asarray(cycles, dtype=float).reshape(-1)
+        if self.modal:
+            mk = np.where(self._real, np.power(np.abs(self.mu.real)[None, :], k[:, None]),
+                          np.power(self.mu[None, :], k[:, None]))
+            return self.xss[None, :] + ((mk * self.c[None, :]) @ self.W.T).real
+        return self.xss[None, :] + np.stack([np.linalg.matrix_power(self.Phi, int(kk)) @ self.d0 for kk in k])
+
+    def _solution(self, x, u) -> PeriodicSolution:
+        """Cycles starting from the states x (n, n_x) with inputs u, as a batch of one-cycle solutions."""
+        x = np.asarray(x, float)
+        z = np.concatenate([x, np.broadcast_to(u, (x.shape[0], self.net.n_u))], axis=1)
+        zs = []
+        for p in range(self.net.n_phases):
+            zs.append(z)
+            z = z @ self.E[p].T
+        d = np.broadcast_to(self.durations, (x.shape[0], self.net.n_phases))
+        return PeriodicSolution(net=self.net, durations=d, z0=np.stack(zs, axis=1), E=self.E, S=self.S)
+
+    def cycle_extrema(self, cycles, names) -> tuple[np.ndarray, np.ndarray]:
+        """Exact lowest and highest value of each probe in each phase of each cycle, each (len(cycles), P, m)."""
+        return self._solution(self.states(cycles), self.u).phase_extrema(names)
+
+    def _amplitudes(self, names) -> np.ndarray:
+        """A_i = max_t |α_i(t)| per mode, phase and probe (shape (n_modes, P, m)), or B per phase and probe
+        (shape (P, m)) for the energy bound. Per phase, so that a probe that is zero in a phase (an open
+        switch's current) has no deviation there."""
+        key = tuple(names)
+        if key in self._amp:
+            return self._amp[key]
+        net, nx = self.net, self.net.n_x
+        if self.modal:
+            v = self.c[:, None] * self.W.T  # row i: c_i·w_i
+            lo, hi = self._solution(np.concatenate([v.real, v.imag]), np.zeros(net.n_u)).phase_extrema(names)
+            a = np.maximum(np.abs(lo), np.abs(hi))
+            amp = a[:nx] + a[nx:]
+        else:
+            cvals = np.array([float(c.c) for c in net.caps])
+            K = net.stacked(net.probe_index(names))[1][..., :nx]  # (P, m, nx)
+            amp = np.sqrt(((K / np.sqrt(cvals)) ** 2).sum(axis=-1))
+        self._amp[key] = amp
+        return amp
+
+    def _deviation_bound(self, a: np.ndarray, b: np.ndarray, names) -> np.ndarray:
+        """Bound on |y(k, t) − y(a, t)| over a ≤ k < b (b may be ∞, b > a) and t in each phase, (len(a), P, m)."""
+        amp = self._amplitudes(names)
+        j = b - 1.0 - a  # steps beyond a (∞ for the open tail)
+        if not self.modal:
+            cvals = np.array([float(c.c) for c in self.net.caps])
+            sq = np.sqrt(cvals)
+            phi_s = sq[:, None] * self.Phi / sq[None, :]
+            g = np.linalg.norm(phi_s - np.eye(self.net.n_x), 2)
+            n_a = np.linalg.norm((self.states(a) - self.xss) * sq, axis=-1)
+            with np.errstate(invalid="ignore"):
+                f = np.minimum(2.0, np.where(np.isinf(j), 2.0, j * g))
+            return (n_a * f)[:, None, None] * amp[None]
+        r = np.minimum(np.abs(self.mu), 1.0)
+        with np.errstate(over="ignore", invalid="ignore"):
+            ra = np.power(r[None, :], a[:, None])
+            rj = np.power(r[None, :], np.where(np.isinf(j), 0.0, j)[:, None])
+            rj = np.where(np.isinf(j)[:, None], np.where(r[None, :] < 1.0, 0.0, 1.0), rj)
+            real_d = ra * (1.0 - rj)  # μ^a − μ^{b−1} for real μ in [0, 1]
+            step = np.where(np.isinf(j)[:, None], np.inf, j[:, None] * np.abs(self.mu - 1.0)[None, :])
+            gen_d = ra * np.minimum(np.nan_to_num(step, nan=np.inf), 1.0 + rj)
+        dmode = np.where(self._real[None, :], real_d, gen_d) * self._rest[None, :]
+        return np.einsum("ni,ipm->npm", dmode, amp)
+
+    def _bounds(self, a: np.ndarray, b: np.ndarray, names):
+        """Each probe's extremes in each phase of cycle a, and bounds on them over a ≤ k < b.
+
+        Returns (lo_a, hi_a, lo_bound, hi_bound), each of shape (len(a), P, m). A real mode
+        μ_i ∈ [0, 1] moves the cycle-start state by −s_i·μ_i^a·c_i·w_i with s_i = 1 − μ_i^{k−a} in
+        [0, 1 − μ_i^{b−1−a}], and a probe is linear in the state at every instant, so over the box
+        of the s_i its extremes at each instant sit at the box's corners: the exact phase extrema
+        from the 2^n corner states bound the range (for one mode, the corners are cycles a and
+        b − 1). Other modes add :meth:`_deviation_bound`.
+        """
+        xa = self.states(a)
+        n, nx = xa.shape
+        if self.modal and self._corner.size:
+            ci = self._corner
+            mu = self.mu.real[ci]
+            j = b - 1.0 - a
+            with np.errstate(over="ignore", invalid="ignore"):
+                mj = np.where(np.isinf(j)[:, None], np.where(mu[None, :] < 1.0, 0.0, 1.0),
+                              np.power(mu[None, :], np.where(np.isinf(j), 0.0, j)[:, None]))
+            shift = ((1.0 - mj) * np.power(mu[None, :], a[:, None]))[:, :, None] \
+                * (self.c[ci, None] * self.W.T[ci]).real[None]  # (n, r, nx)
+            sig = ((np.arange(2 ** ci.size)[:, None] >> np.arange(ci.size)[None, :]) & 1).astype(float)
+            sig = np.broadcast_to(sig, (n,) + sig.shape).copy()  # (n, corners, r): s_i / S_i
+            if ci.size == 2:
+                sig[:, 1:] = _tangent_triangle(mu, j, mj, sig[:, 1:])
+            x = xa[:, None, :] - np.einsum("ncr,nrx->ncx", sig, shift)  # corner 0 is x_a itself
+            lo, hi = self._solution(x.reshape(-1, nx), self.u).phase_extrema(names)
+            lo = lo.reshape((n, sig.shape[1]) + lo.shape[1:])
+            hi = hi.reshape((n, sig.shape[1]) + hi.shape[1:])
+            lo_a, hi_a, lo_b, hi_b = lo[:, 0], hi[:, 0], lo.min(axis=1), hi.max(axis=1)
+        else:
+            lo_a, hi_a = self._solution(xa, self.u).phase_extrema(names)
+            lo_b, hi_b = lo_a, hi_a
+        if not self.modal or self._rest.any():
+            dev = self._deviation_bound(a, b, names)
+            lo_b, hi_b = lo_b - dev, hi_b + dev
+        return lo_a, hi_a, lo_b, hi_b
+
+    # ------------------------------------------------------------------ questions over all cycles
+    @staticmethod
+    def _split(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+        """Split each range [a, b) into up to _SPLIT parts; an open tail [a, ∞) into
+        [a, a + 1), [a + 1, 8·(a + 1)) and [8·(a + 1), ∞)."""
+        tail = np.isinf(b)
+        at, af, bf = a[tail], a[~tail], b[~tail]
+        e = np.round(af[:, None] + (bf - af)[:, None] * np.linspace(0.0, 1.0, _SPLIT + 1)[None, :])
+        lo, hi = e[:, :-1].ravel(), e[:, 1:].ravel()
+        ok = hi > lo
+        lo = np.concatenate([lo[ok], at, at + 1.0, _SPLIT * (at + 1.0)])
+        hi = np.concatenate([hi[ok], at + 1.0, _SPLIT * (at + 1.0), np.full(at.size, math.inf)])
+        return lo, hi
+
+    def extrema(self, names, *, rtol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
+        """Lowest and highest value of each probe over the whole start-up, each of shape (m,).
+
+        The infimum and supremum over every cycle k ≥ 0 and every instant, the
+        periodic steady state included (it is the limit k → ∞), to ``rtol`` of the
+        probe's scale (its largest magnitude).
+        """
+        return self._search(list(names), rtol, peak=False)
+
+    def peak(self, names, *, rtol: float = 1e-9) -> np.ndarray:
+        """Largest magnitude |y| of each probe over the whole start-up (as :meth:`extrema`), shape (m,)."""
+        lo, hi = self._search(list(names), rtol, peak=True)
+        return np.maximum(hi, -lo)
+
+    def _search(self, names, rtol: float, peak: bool):
+        """Branch and bound over the cycle ranges (class notes) for the extremes or the peak magnitude."""
+        lo_best, hi_best = (v[0] for v in self.periodic.extrema(names))
+        a, b = np.zeros(1), np.full(1, math.inf)
+        first = True
+        while a.size:
+            lo, hi, lo_b, hi_b = self._bounds(a, b, names)  # (n, P, m)
+            lo_best = np.minimum(lo_best, lo.min(axis=(0, 1)))
+            hi_best = np.maximum(hi_best, hi.max(axis=(0, 1)))
+            if first:  # the scale: the largest magnitude the start-up can reach
+                tol = rtol * np.maximum(np.abs(lo_b).max(axis=(0, 1)), np.abs(hi_b).max(axis=(0, 1))) + 1e-300
+                first = False
+            if peak:
+                top = np.maximum(hi_best, -lo_best)
+                open_ = (np.maximum(hi_b, -lo_b) > top + tol).any(axis=(1, 2))
+            else:
+                open_ = ((hi_b > hi_best + tol) | (lo_b < lo_best - tol)).any(axis=(1, 2))
+            keep = open_ & (b - a > 1.0) & (a < MAX_STARTUP_CYCLES)
+            a, b = self._split(a[keep], b[keep])
+        return lo_best, hi_best
+
+    def first_reach(self, name: str, threshold: float, *, below: bool = False):
+        """The first cycle and instant at which a probe reaches a threshold.
+
+        Parameters
+        ----------
+        name : str
+            Probe (e.g. ``"v(out)"``).
+        threshold : float
+            Level [V] or [A].
+        below : bool
+            Seek the first time the probe falls to the threshold instead.
+
+        Returns
+        -------
+        k : int or None
+            Index of the first cycle (0-based) in which the probe reaches the
+            threshold; None if it never does within :data:`MAX_STARTUP_CYCLES`.
+        t : float or None
+            Time from the start of cycle 0 to the first instant it does [s]
+            (exact: the phase in which it happens is solved between the zeros
+            of the probe's derivative).
+        """
+        sgn = -1.0 if below else 1.0
+        thr = sgn * float(threshold)
+        best = math.inf
+        a, b = np.zeros(1), np.full(1, math.inf)
+        while a.size:
+            lo, hi, lo_b, hi_b = self._bounds(a, b, [name])
+            top = hi[..., 0] if sgn > 0 else -lo[..., 0]  # (n, P)
+            top_b = hi_b[..., 0] if sgn > 0 else -lo_b[..., 0]
+            hit = (top >= thr).any(axis=1)
+            if hit.any():
+                best = min(best, float(a[hit].min()))
+            b = np.minimum(b, best)
+            keep = ~hit & (b - a > 1.0) & (a < best) & (a < MAX_STARTUP_CYCLES) & (top_b >= thr).any(axis=1)
+            a, b = self._split(a[keep], b[keep])
+        if math.isinf(best):
+            return None, None
+        k = int(best)
+        t = k * self.period + self._first_in_cycle(k, name, float(threshold), sgn)
+        return k, float(t)
+
+    def _first_in_cycle(self, k: int, name: str, thr: float, sgn: float) -> float:
+        """Exact first instant within cycle k at which sgn·(probe − thr) ≥ 0 [s from the cycle start].
+
+        In the first phase whose extremes reach the threshold, the probe
+        y(t) = Σ_i k_i·(e^{λ_i t}·w_i + φ₁(λ_i t)·t·g_i) + k_u·u is monotone between the
+        zeros of y′ (:func:`_exp_sum_roots`); the first monotone piece that reaches
+        the threshold holds the crossing, solved by Brent's method to rounding.
+        """
+        net = self.net
+        nx = net.n_x
+        lam, V, Vinv, VN = net.modes
+        sol = self._solution(self.states([k]), self.u)
+        lo, hi = sol.phase_extrema([name])
+        top = (hi if sgn > 0 else -lo)[0, :, 0]
+        reach = np.flatnonzero(top >= sgn * thr)
+        if reach.size == 0:
+            return self.period  # not reached (rounding at a tangency): the cycle's end
+        p = int(reach[0])
+        t_start = float(self.durations[:p].sum())
+        dur = float(self.durations[p])
+        z0 = sol.z0[0, p]
+        K = net.stacked(net.probe_index([name]))[1][p, 0, :]
+        w = Vinv[p] @ z0[:nx]
+        g = VN[p] @ self.u
+        kk = K[:nx] @ V[p]
+        ku = float(K[nx:] @ self.u)
+        terms = [(float(lp), float(a), float(c)) for lp, a, c in zip(lam[p], kk * w, kk * g)]
+
+        def y(t):
+            acc = ku - thr
+            for lp, a, c in terms:
+                x = lp * t
+                acc += a * math.exp(x) + c * (math.expm1(x) / lp if x != 0.0 else t)
+            return sgn * acc
+
+        if y(0.0) >= 0.0:
+            return t_start
+        roots = _exp_sum_roots(kk * (lam[p] * w + g), lam[p], np.asarray(dur))
+        edges = np.concatenate([[0.0], np.sort(roots[~np.isnan(roots)]), [dur]])
+        for lo_t, hi_t in zip(edges[:-1], edges[1:]):
+            if y(hi_t) >= 0.0:  # monotone between the zeros of y′: one crossing
+                if y(lo_t) >= 0.0:
+                    return t_start + float(lo_t)
+                return t_start + brentq(y, float(lo_t), float(hi_t), xtol=1e-300, rtol=4 * np.finfo(float).eps)
+        return t_start + dur  # the phase's extremum sits at its end only by rounding
 
 # --------------------------------------------------------------------------- SPICE
 
