@@ -269,7 +269,9 @@ def linear_map(v0, loop: Loop):
         v1_c = veq_on + (v_inf - veq_on) * np.exp(-rate_on * (dt - t_star))
         num = g * (v_inf - v1_c) - i_load - g_load * v1_c
         den = -i_load - g_load * v0
-        s_c = num / den
+        # den = 0 is a rail resting at the cut-off equilibrium −I/G (never refreshed): it never
+        # falls to V_∞, so t* = ∞ and the interval is in B, where s_c is not used
+        s_c = num / np.where(den != 0, den, 1.0)
     in_a = able & (v0 <= v_inf)
     in_c = able & ~in_a & (t_star < dt)
     v1 = np.where(in_a, v1_a, np.where(in_c, v1_c, v1_b))

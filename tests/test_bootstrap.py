@@ -13,6 +13,7 @@ Sources used (named beside each check):
 
 import dataclasses
 import math
+import warnings
 
 import numpy as np
 import pytest
@@ -81,6 +82,19 @@ def test_junction_map_matches_solve_ivp(v0, dt, vs):
     assert v1[0] == pytest.approx(sol.y[0, -1], abs=1e-9)
     v1b, _ = junction_map(np.array([v0 + 1e-7]), loop)
     assert slope[0] == pytest.approx((v1b[0] - v1[0]) / 1e-7, rel=1e-4, abs=1e-9)
+
+
+def test_linear_map_at_the_cut_off_equilibrium_is_silent():
+    # source: C·dV/dt = −I − G·V has the equilibrium V = −I/G (first-order linear ODE, Boyce & DiPrima
+    # 2012, §2.1); a rail resting there (never refreshed) stays there, with no numpy warning
+    I, G = 1e-2, 1e-4
+    loop = Loop(dt=np.array([1e-3]), v_src=np.array([-5.0]), c=1e-3, r=3.0, v_f=1.0, i_load=I, g_load=G)
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        v1, slope, regime = linear_map(np.array([-I / G]), loop)
+    assert v1[0] == pytest.approx(-I / G, rel=1e-15)
+    assert slope[0] == pytest.approx(math.exp(-G / 1e-3 * 1e-3), rel=1e-15)
+    assert regime[0] == 1
 
 
 def test_junction_current_solves_the_diode_equation():
