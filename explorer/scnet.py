@@ -924,6 +924,10 @@ MAX_STARTUP_CYCLES = 2 ** 53
 _SPLIT = 8
 #: Most real modes bounded by corner states in that search (2^n corners per range).
 _CORNER_MODES = 3
+#: Most open ranges per round of that search: beyond it :meth:`StartupTransient.extrema` returns its
+#: bounds (conservative: never inside the true extremes) and :meth:`StartupTransient.first_reach`
+#: defers the later ranges, so the work per round stays bounded.
+_MAX_OPEN = 512
 
 
 def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.ndarray) -> np.ndarray:
@@ -934,7 +938,7 @@ def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.nda
     (−ln μ_i) at l = 0 and (−μ_i^j·ln μ_i) at l = j), whose corners are 0, S and
     the tangents' intersection P. Returns (n, 3, 2) rows [S, P, P] scaled by S,
     or the box's other corners ``box`` where the triangle is degenerate (equal
-    rates, an open tail, μ at 0 or 1).
+    rates, an open tail, μ at 0 or 1). Rates equal to 1e-9 give the chord alone.
     """
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
         l_ = -np.log(mu)  # (2,)
@@ -949,6 +953,10 @@ def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.nda
         frac = P / S
         ok = (np.isfinite(j) & np.all(np.isfinite(frac), axis=1) & (t0 >= 0) & (tj >= 0)
               & np.all(np.isfinite(l_)) & np.all(S > 0, axis=1) & (np.abs(det) > 1e-12 * np.abs(a11 * a22)))
+        # equal rates (to 1e-9): the curve is the chord itself, s₂/S₂ = s₁/S₁
+        same = np.isfinite(j) & bool(np.all(np.isfinite(l_)) and abs(l_[0] - l_[1]) <= 1e-9 * max(l_.max(), 1e-300))
+    frac = np.where(same[:, None], 1.0, frac)
+    ok = ok | same
     tri = np.stack([np.ones_like(frac), np.where(ok[:, None], frac, 0.0), np.where(ok[:, None], frac, 0.0)], axis=1)
     return np.where(ok[:, None, None], tri, box)
 
@@ -1206,6 +1214,10 @@ class StartupTransient:
             else:
                 open_ = ((hi_b > hi_best + tol) | (lo_b < lo_best - tol)).any(axis=(1, 2))
             keep = open_ & (b - a > 1.0) & (a < MAX_STARTUP_CYCLES)
+            if np.count_nonzero(keep) > _MAX_OPEN:  # bounded work: settle for the (conservative) bounds
+                lo_best = np.minimum(lo_best, lo_b[keep].min(axis=(0, 1)))
+                hi_best = np.maximum(hi_best, hi_b[keep].max(axis=(0, 1)))
+                break
             a, b = self._split(a[keep], b[keep])
         return lo_best, hi_best
 
@@ -1244,7 +1256,16 @@ class StartupTransient:
                 best = min(best, float(a[hit].min()))
             b = np.minimum(b, best)
             keep = ~hit & (b - a > 1.0) & (a < best) & (a < MAX_STARTUP_CYCLES) & (top_b >= thr).any(axis=1)
-            a, b = self._split(a[keep], b[keep])
+            a, b = a[keep], b[keep]
+            if a.size > _MAX_OPEN:  # the earliest ranges first; the later ones wait (the first crossing is sought)
+                order = np.argsort(a)
+                a, b = a[order], b[order]
+                wait_a, wait_b = a[_MAX_OPEN:], b[_MAX_OPEN:]
+                a, b = a[:_MAX_OPEN], b[:_MAX_OPEN]
+            else:
+                wait_a = wait_b = np.zeros(0)
+            a, b = self._split(a, b)
+            a, b = np.concatenate([a, wait_a]), np.concatenate([b, wait_b])
         if math.isinf(best):
             return None, None
         k = int(best)
