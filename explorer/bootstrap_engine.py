@@ -454,9 +454,16 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
 
 
 def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
-    """Newton's method for an increasing ``fun`` (returning value and derivative), kept in [lo, hi]."""
+    """Newton's method for an increasing ``fun`` (returning value and derivative), kept in [lo, hi].
+
+    Stops where the step falls below 1e-14 relative and no longer grows. A tiny step alone is not
+    enough: next to a logarithmic singularity at a bracket end (Φ at the equilibrium current) the
+    derivative is huge and the first steps are tiny although the root is far away; there the steps
+    grow geometrically while the iterate creeps off the singularity.
+    """
     lo = lo.copy()
     hi = hi.copy()
+    prev = np.zeros(np.shape(x))
     for _ in range(iters):
         with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
             f, df = fun(x)
@@ -469,8 +476,9 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
         x_new = np.where(out, 0.5 * (lo + hi), x_new)
         step = np.abs(x_new - x)
         x = np.where(active, x_new, x)
-        if np.all((step <= 1e-14 * np.maximum(1.0, np.abs(x))) | ~active | (f == 0)):
+        if np.all(((step <= 1e-14 * np.maximum(1.0, np.abs(x))) & (step <= prev)) | ~active | (f == 0)):
             break
+        prev = step
     return x
 
 
@@ -963,83 +971,163 @@ def _seg(v0, veq, rate, L, slope_lin):
     return (np.where(pos, iv_e, iv_l), np.where(pos, iv2_e, iv2_l), np.where(pos, idv2_e, idv2_l))
 
 
-_GL_X, _GL_W = np.polynomial.legendre.leggauss(24)
+#: Nodes of the short-range Gauss–Legendre rule of :func:`_bose_moments`.
+_BX, _BW = np.polynomial.legendre.leggauss(20)
+#: ∫₀^∞ uⁿ·u/(eᵘ − 1) du = n!·ζ(n + 2) for n = 0, 1 (π²/6 and 2·ζ(3); Abramowitz & Stegun 23.2.7).
+_BOSE_TOTAL = (np.pi ** 2 / 6, 2.0 * 1.2020569031595942)
+#: Terms of the tail series (e^(−40) < 1e-17: the terms left out are below rounding for x ≥ 1).
+_BOSE_TERMS = 40
+
+
+def _bose(u, n: int):
+    """uⁿ·B(u), B(u) = u/(eᵘ − 1) (the Bernoulli generating function, B(0) = 1)."""
+    u = np.asarray(u, dtype=float)
+    with np.errstate(invalid="ignore", divide="ignore", over="ignore"):
+        b = np.where(u == 0.0, 1.0, u / np.expm1(u))
+    return b * u ** n
+
+
+def _bose_gl(a, b, n: int):
+    """∫ₐᵇ uⁿ·B(u) du by 20-point Gauss–Legendre (for |b − a| ≤ 4; see :func:`_bose_moments`)."""
+    half = 0.5 * (b - a)
+    mid = 0.5 * (b + a)
+    return np.sum(_BW * _bose(mid[..., None] + half[..., None] * _BX, n), axis=-1) * half
+
+
+def _bose_tail(x, n: int):
+    """S_n(x) = ∫ₓ^∞ uⁿ·B(u) du for x ≥ 0.
+
+    For x ≥ 1 the series of e^(−ku) terms integrated term by term,
+    S₀ = Σ e^(−kx)·(x/k + 1/k²), S₁ = Σ e^(−kx)·(x²/k + 2x/k² + 2/k³)
+    (the polylogarithm forms −x·ln(1 − e^(−x)) + Li₂(e^(−x)) and its analogue;
+    Abramowitz & Stegun 27.7 and 23.2.7); below 1, S_n(1) plus a Gauss–Legendre
+    rule over [x, 1].
+    """
+    x = np.asarray(x, dtype=float)
+    xs = np.maximum(x, 1.0)
+    q = np.exp(-xs)
+    p = np.ones_like(xs)
+    tot = np.zeros_like(xs)
+    for k in range(1, _BOSE_TERMS + 1):
+        p = p * q
+        if n == 0:
+            tot += p * (xs / k + 1.0 / k ** 2)
+        else:
+            tot += p * (xs * xs / k + 2.0 * xs / k ** 2 + 2.0 / k ** 3)
+    return tot + _bose_gl(np.minimum(x, 1.0), np.ones_like(x), n)
+
+
+def _bose_moments(a, b, n: int):
+    """M_n(a, b) = ∫ₐᵇ uⁿ·B(u) du with B(u) = u/(eᵘ − 1), n ∈ {0, 1} [-].
+
+    B is analytic on the real line (its poles are at ±2πik, k ≠ 0), so a
+    Gauss–Legendre rule over a span of at most 4 is exact to rounding
+    (error of order ρ^(−40), ρ ≈ 6.4 for that pole distance; Trefethen,
+    *Approximation Theory and Approximation Practice*, 2013, Thm 19.3). Longer
+    spans use the tails S_n of :func:`_bose_tail` and, for negative u, the
+    reflection B(u) = B(−u) − u, so that uⁿ·B(u) = (−1)ⁿ·(−u)ⁿ·B(−u) − u^(n+1).
+    """
+    a = np.asarray(a, dtype=float)
+    b = np.asarray(b, dtype=float)
+    short = np.abs(b - a) <= 4.0
+    out = _bose_gl(np.where(short, a, 0.0), np.where(short, b, 0.0), n)
+    if np.all(short):
+        return out
+    a, b = a[~short], b[~short]
+    sgn = (-1.0) ** n
+
+    def prim(x):  # an antiderivative without the constant part, and that constant part
+        pos = x >= 0
+        t = _bose_tail(np.abs(x), n)
+        val = np.where(pos, -t, sgn * t - x ** (n + 2) / (n + 2))
+        const = np.where(pos, _BOSE_TOTAL[n], -sgn * _BOSE_TOTAL[n])
+        return val, const
+
+    pa, ca = prim(a)
+    pb, cb = prim(b)
+    out = np.array(out, dtype=float)
+    out[~short] = (pb - pa) + (cb - ca)
+    return out
 
 
 def _junction_integrals(v0, v1, loop: Loop, r_ext) -> dict:
-    """Integrals of conducting-capable junction intervals (1-D arrays); see :func:`interval_integrals`."""
+    """Integrals of conducting-capable junction intervals without a conductance load (1-D arrays).
+
+    Closed forms in x = λ − λ_I = ln(w/w_I), the log of the loop current's
+    ratio to its value at the equilibrium (w_I = R·(i_s + I)/θ, where the diode
+    carries the load current I). With δ = w − w_I = w_I·(eˣ − 1):
+
+    * C·dV/dt = (θ/R)·δ and V = V_e − θ·(x + δ), V_e = v_src − θ·ln(1 + I/i_s) − R·I;
+    * dt = −R·C·(1 + κ/(eˣ − 1))·dx, κ = (1 + w_I)/w_I (the separated ODE of the
+      module docstring), so ∫x dt = −R·C·[x²/2 + κ·M₀], ∫x² dt = −R·C·[x³/3 + κ·M₁]
+      with M_n of :func:`_bose_moments` (a Bose–Einstein type integral, finite
+      through the equilibrium x = 0);
+    * ∫δ dt = R·C·ΔV/θ, ∫δ² dt = −R·C·[w_I·(eˣ − 1 − x) + w_I²·(eˣ − 1)²/2],
+      ∫x·dV = −θ·[x²/2 + w_I·(x·eˣ − eˣ + 1)].
+
+    Hence ∫V dt, ∫V² dt, ∫i_C² dt and ∫i_d² dt in closed form, and the diode's
+    own energy ∫(v_j + r_s·i)·i dt with v_j = θ·ln(1 + I/i_s) + θ·x, all without
+    quadrature of the rail itself; the time the rail rests at its equilibrium
+    needs no special case. Checked against solve_ivp in the tests.
+    """
     c, dt, i_load, R = loop.c, loop.dt, loop.i_load, loop.r
     th, i_s = loop.n_vt, loop.i_s
     w_i = R * (i_s + i_load) / th
-    w0 = _w_of_v(v0, loop)
-    w1 = _w_of_v(v1, loop)
-    alpha = th / R
-    q_d = c * (v1 - v0) + i_load * dt
-    # ∫ i² dt = −RC·[p1·w²/2 + p0·w + A·ln w + B·ln|w − w_I|] from w0 to w1 (partial fractions)
-    p1 = alpha ** 2
-    p0 = alpha ** 2 - 2 * alpha * i_s + alpha ** 2 * w_i
-    A = -i_s ** 2 / w_i
-    Bc = (alpha * w_i - i_s) ** 2 * (w_i + 1) / w_i
-    d0 = np.abs(w0 - w_i)
-    d1 = np.abs(w1 - w_i)
-    same = (d0 > 0) & (d1 > 0)
-    ds = np.where(same, np.log(np.where(same, d1, 1.0) / np.where(same, d0, 1.0)), 0.0)
-    prim = p1 * (w1 ** 2 - w0 ** 2) / 2 + p0 * (w1 - w0) + A * np.log(w1 / w0) + Bc * ds
-    i2_d = np.maximum(-R * c * prim, 0.0)
-    # ∫V dt and ∫V² dt by Gauss–Legendre: in s = ln|w − w_I| (dt/ds = −RC·(w + 1)/w) near the
-    # equilibrium, and in λ = ln w (dt/dλ = −RC·(w + 1)/(w − w_I), nearly constant) where the diode
-    # current is far below the load (w < w_I/2), since there dt/ds grows like 1/w and a rule in s
-    # alone misses most of the interval
-    nodes = Loop(dt=dt[:, None], v_src=loop.v_src[:, None], c=c[:, None], r=R[:, None],
-                 i_s=i_s[:, None], n_vt=th[:, None], diode="junction")
-    rc = (R * c)[:, None]
-    sigma = np.where(w0 >= w_i, 1.0, -1.0)
-    moving = same & (d0 != d1)
-    w_m = np.where(sigma < 0, np.clip(0.5 * w_i, np.minimum(w0, w1), np.maximum(w0, w1)), w0)
-    int_v = np.zeros(w0.shape)
-    int_v2 = np.zeros(w0.shape)
-    t_q = np.zeros(w0.shape)  # time the two rules cover
-    # part in λ from w0 to w_m (empty unless below the equilibrium and under w_I/2)
-    lam_part = moving & (sigma < 0) & (w_m != w0)
-    if np.any(lam_part):
-        l0 = np.log(np.where(lam_part, w0, 1.0))
-        l1 = np.log(np.where(lam_part, w_m, 1.0))
-        half, mid = 0.5 * (l1 - l0), 0.5 * (l1 + l0)
-        wn = np.exp(mid[:, None] + half[:, None] * _GL_X)
-        vn = _v_of_w(wn, nodes)
-        dtdx = -rc * (wn + 1) / (wn - w_i[:, None])
-        int_v += np.where(lam_part, np.sum(_GL_W * vn * dtdx, axis=-1) * half, 0.0)
-        int_v2 += np.where(lam_part, np.sum(_GL_W * vn ** 2 * dtdx, axis=-1) * half, 0.0)
-        t_q += np.where(lam_part, np.sum(_GL_W * dtdx, axis=-1) * half, 0.0)
-    # part in s from w_m to w1
-    d_m = np.abs(w_m - w_i)
-    s_part = moving & (d_m > 0) & (d_m != d1)
-    s0 = np.log(np.where(s_part, d_m, 1.0))
-    # closer than 1e-9·w_I to the equilibrium the rail is within ~1e-9·n·V_T of v1: that time goes to
-    # the remainder below, so the rule spans only the part where the rail moves
-    s_floor = np.log(1e-9 * w_i)
-    s1 = np.log(np.where(s_part, np.maximum(d1, np.exp(np.minimum(s_floor, s0))), np.e))
-    half = 0.5 * (s1 - s0)
-    mid = 0.5 * (s1 + s0)
-    wn = w_i[:, None] + sigma[:, None] * np.exp(mid[:, None] + half[:, None] * _GL_X)
-    wn = np.where(s_part[:, None], wn, 1.0)
-    vn = _v_of_w(wn, nodes)
-    dtds = -rc * (wn + 1) / wn
-    int_v += np.where(s_part, np.sum(_GL_W * vn * dtds, axis=-1) * half, 0.0)
-    int_v2 += np.where(s_part, np.sum(_GL_W * vn ** 2 * dtds, axis=-1) * half, 0.0)
-    t_q += np.where(s_part, np.sum(_GL_W * dtds, axis=-1) * half, 0.0)
-    # a rail that reaches its equilibrium within rounding sits at v1 for the time the rules do not cover
-    rest = np.clip(dt - t_q, 0.0, None)
-    int_v += rest * v1
-    int_v2 += rest * v1 ** 2
-    int_v = np.where(moving, int_v, v0 * dt)
-    int_v2 = np.where(moving, int_v2, v0 ** 2 * dt)
-    # capacitor current i_C = i_d − I
-    i2_c = np.maximum(i2_d - 2 * i_load * q_d + i_load ** 2 * dt, 0.0)
-    # diode energy = v_src·q_d − ∫V·i_d − r_ext·∫i², with ∫V·i_d = C(V1² − V0²)/2 + I·∫V
-    int_vi = c * (v1 ** 2 - v0 ** 2) / 2 + i_load * int_v
-    e_d = loop.v_src * q_d - int_vi - r_ext * i2_d
-    i_d0 = np.maximum(th / R * w0 - i_s, 0.0)
+    lam_i = np.log(w_i)
+    k_v = loop.v_src + i_s * R + th * np.log(i_s * R / th)
+
+    def x_of(v):  # λ = y − ω(y), y = (K − V)/θ (no underflow of w far above the source)
+        y = (k_v - v) / th
+        return y - wright_omega(y) - lam_i
+
+    x0, x1 = x_of(v0), x_of(v1)
+    dv = v1 - v0
+    rc = R * c
+    kappa = (1.0 + w_i) / w_i
+    drop_e = th * np.log1p(i_load / i_s) + R * i_load   # loop drop at the load current
+    m0 = _bose_moments(x0, x1, 0)
+    m1 = _bose_moments(x0, x1, 1)
+    int_x = -rc * (0.5 * (x1 - x0) * (x1 + x0) + kappa * m0)
+    int_x2 = -rc * ((x1 ** 3 - x0 ** 3) / 3.0 + kappa * m1)
+
+    def em1_minus_x(x):  # eˣ − 1 − x without cancellation near 0
+        small = np.abs(x) < 0.1
+        xs = np.where(small, x, 0.0)
+        ser = xs * xs * (0.5 + xs * (1 / 6 + xs * (1 / 24 + xs * (1 / 120 + xs * (1 / 720 + xs * (1 / 5040 + xs / 40320))))))
+        with np.errstate(over="ignore"):
+            return np.where(small, ser, np.expm1(x) - x)
+
+    def d_of(x):  # w_I·(eˣ − 1 − x) + w_I²·(eˣ − 1)²/2 ≥ 0
+        with np.errstate(over="ignore"):
+            e = np.expm1(x)
+        return w_i * em1_minus_x(x) + 0.5 * w_i ** 2 * e * e
+
+    def xdv_of(x):  # x·eˣ − eˣ + 1 = x·(eˣ − 1) − (eˣ − 1 − x)
+        with np.errstate(over="ignore"):
+            return x * np.expm1(x) - em1_minus_x(x)
+
+    int_delta2 = -rc * (d_of(x1) - d_of(x0))
+    int_u = -th * int_x - rc * dv                      # ∫(V − V_e) dt
+    v_e = loop.v_src - drop_e
+    int_v = v_e * dt + int_u
+    int_x_dv = -th * (0.5 * (x1 - x0) * (x1 + x0) + w_i * (xdv_of(x1) - xdv_of(x0)))
+    # ∫(V − V_e)² dt = θ²·[∫x² dt + 2·∫x·δ dt + ∫δ² dt], ∫x·δ dt = (R·C/θ)·∫x dV
+    int_u2 = th ** 2 * (int_x2 + int_delta2) + 2 * th * rc * int_x_dv
+    int_v2 = v_e ** 2 * dt + 2 * v_e * int_u + np.maximum(int_u2, 0.0)
+    # the rail is monotone inside an interval, so ∫V dt lies between v0·Δt and v1·Δt: where the rail
+    # barely moves the closed form resolves its offset only to the rounding of x (eps·|λ|), which
+    # this keeps from stepping outside the interval's own range
+    lo, hi = np.minimum(v0, v1), np.maximum(v0, v1)
+    int_v = np.clip(int_v, lo * dt, hi * dt)
+    sq_lo = np.where(lo >= 0, lo * lo, np.where(hi <= 0, hi * hi, 0.0))
+    int_v2 = np.clip(int_v2, sq_lo * dt, np.maximum(lo * lo, hi * hi) * dt)
+    q_d = c * dv + i_load * dt
+    i2_c = np.maximum((th / R) ** 2 * int_delta2, 0.0)
+    i2_d = np.maximum(i_load ** 2 * dt + 2 * i_load * c * dv + i2_c, 0.0)
+    # diode energy ∫(v_j + r_s·i)·i dt, v_j = θ·ln(1 + I/i_s) + θ·x, i = I + C·dV/dt
+    r_s = np.maximum(R - r_ext, 0.0)
+    e_d = r_s * i2_d + th * np.log1p(i_load / i_s) * q_d + th * (i_load * int_x + c * int_x_dv)
+    i_d0 = np.maximum(th / R * _w_of_v(v0, loop) - i_s, 0.0)
     return {"q_d": q_d, "i2_d": i2_d, "int_v": int_v, "int_v2": int_v2, "i2_c": i2_c, "e_d": e_d,
             "i_d0": i_d0}
 
@@ -1063,9 +1151,10 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
         ``i_d0`` diode current at the start [A]; ``v1`` end voltage [V].
 
     The straight-line diode integrals are closed forms of the exponential
-    segments; for the junction diode q_d = C·ΔV + I·Δt and ∫i² dt are exact
-    (partial fractions in w) and ∫V dt uses 24-point Gauss–Legendre in
-    s = ln|w − w_I| (smooth integrand; Abramowitz & Stegun 25.4.29).
+    segments; for the junction diode without a conductance load q_d = C·ΔV + I·Δt
+    and ∫V dt, ∫V² dt, ∫i² dt and the diode energy are closed forms in
+    x = ln(w/w_I) (see :func:`_junction_integrals`); with the pull-down as well,
+    the composite Gauss–Legendre rule of :class:`_JunctionG`.
     """
     loop = _broadcast_loop(loop)
     c, dt, i_load, g_load, R = loop.c, loop.dt, loop.i_load, loop.g_load, loop.r
