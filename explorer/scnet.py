@@ -1170,17 +1170,26 @@ class StartupTransient:
 
     # ------------------------------------------------------------------ questions over all cycles
     @staticmethod
-    def _split(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-        """Split each range [a, b) into up to _SPLIT parts; an open tail [a, ∞) into
-        [a, a + 1), [a + 1, 8·(a + 1)) and [8·(a + 1), ∞)."""
+    def _split(a: np.ndarray, b: np.ndarray, extra=None) -> tuple[np.ndarray, np.ndarray]:
+        """Split each range [a, b) into up to _SPLIT parts (and at the cycles ``extra`` (n, q) inside
+        it); an open tail [a, ∞) into [a, a + 1), [a + 1, 8·(a + 1)) and [8·(a + 1), ∞)."""
         tail = np.isinf(b)
         at, af, bf = a[tail], a[~tail], b[~tail]
         e = np.round(af[:, None] + (bf - af)[:, None] * np.linspace(0.0, 1.0, _SPLIT + 1)[None, :])
+        if extra is not None:
+            x = np.clip(np.nan_to_num(np.floor(extra[~tail]), nan=0.0), af[:, None], bf[:, None])
+            e = np.sort(np.concatenate([e, x], axis=1), axis=1)
         lo, hi = e[:, :-1].ravel(), e[:, 1:].ravel()
         ok = hi > lo
         lo = np.concatenate([lo[ok], at, at + 1.0, _SPLIT * (at + 1.0)])
         hi = np.concatenate([hi[ok], at + 1.0, _SPLIT * (at + 1.0), np.full(at.size, math.inf)])
         return lo, hi
+
+    def _initial_ranges(self) -> tuple[np.ndarray, np.ndarray]:
+        """Ranges [0, 1), [1, 2), [2, 4), …, [2^m, ∞) with 2^m beyond 64 e-folds of the slowest mode."""
+        m = int(min(53, max(1, math.ceil(math.log2(64.0 * self.settling_cycles + 1.0)))))
+        e = np.concatenate([[0.0], 2.0 ** np.arange(m + 1), [math.inf]])
+        return e[:-1], e[1:]
 
     def extrema(self, names, *, rtol: float = 1e-9) -> tuple[np.ndarray, np.ndarray]:
         """Lowest and highest value of each probe over the whole start-up, each of shape (m,).
@@ -1199,7 +1208,7 @@ class StartupTransient:
     def _search(self, names, rtol: float, peak: bool):
         """Branch and bound over the cycle ranges (class notes) for the extremes or the peak magnitude."""
         lo_best, hi_best = (v[0] for v in self.periodic.extrema(names))
-        a, b = np.zeros(1), np.full(1, math.inf)
+        a, b = self._initial_ranges()
         first = True
         while a.size:
             lo, hi, lo_b, hi_b = self._bounds(a, b, names)  # (n, P, m)
@@ -1246,7 +1255,7 @@ class StartupTransient:
         sgn = -1.0 if below else 1.0
         thr = sgn * float(threshold)
         best = math.inf
-        a, b = np.zeros(1), np.full(1, math.inf)
+        a, b = self._initial_ranges()
         while a.size:
             lo, hi, lo_b, hi_b = self._bounds(a, b, [name])
             top = hi[..., 0] if sgn > 0 else -lo[..., 0]  # (n, P)
@@ -1257,20 +1266,44 @@ class StartupTransient:
             b = np.minimum(b, best)
             keep = ~hit & (b - a > 1.0) & (a < best) & (a < MAX_STARTUP_CYCLES) & (top_b >= thr).any(axis=1)
             a, b = a[keep], b[keep]
+            guess = self._guess(a, top[keep], name, thr, sgn)
             if a.size > _MAX_OPEN:  # the earliest ranges first; the later ones wait (the first crossing is sought)
                 order = np.argsort(a)
                 a, b = a[order], b[order]
                 wait_a, wait_b = a[_MAX_OPEN:], b[_MAX_OPEN:]
-                a, b = a[:_MAX_OPEN], b[:_MAX_OPEN]
+                a, b, guess = a[:_MAX_OPEN], b[:_MAX_OPEN], guess[order][:_MAX_OPEN]
             else:
                 wait_a = wait_b = np.zeros(0)
-            a, b = self._split(a, b)
+            a, b = self._split(a, b, guess)
             a, b = np.concatenate([a, wait_a]), np.concatenate([b, wait_b])
         if math.isinf(best):
             return None, None
         k = int(best)
         t = k * self.period + self._first_in_cycle(k, name, float(threshold), sgn)
         return k, float(t)
+
+    def _guess(self, a: np.ndarray, top: np.ndarray, name: str, thr: float, sgn: float) -> np.ndarray:
+        """Cycles near the predicted crossing after each a, shape (len(a), 4), to split the ranges at.
+
+        Only a guide for the search (the bounds decide): with the slowest mode μ alone, the
+        phase maximum tends to its steady-state value f_∞ as f_∞ − (f_∞ − f(a))·μ^{k−a}, so it
+        reaches the threshold at k̂ = a + ln((f_∞ − thr)/(f_∞ − f(a)))/ln μ.
+        """
+        out = np.full((a.size, 4), np.nan)
+        if not self.modal or a.size == 0:
+            return out
+        m = np.abs(self.mu)
+        m = m[m < 1.0]
+        mu = float(m.max(initial=0.0))
+        if not 0.0 < mu < 1.0:
+            return out
+        lo, hi = self.periodic.phase_extrema([name])
+        f_inf = (hi if sgn > 0 else -lo)[0, :, 0]  # (P,)
+        with np.errstate(divide="ignore", invalid="ignore"):
+            k = a[:, None] + np.log((f_inf - thr) / (f_inf - top)) / math.log(mu)
+        k = np.where((f_inf > thr) & (top < thr) & np.isfinite(k), k, np.inf).min(axis=1)
+        k = np.where(np.isfinite(k), k, np.nan)
+        return k[:, None] + np.array([-1.0, 0.0, 1.0, 2.0])[None, :]
 
     def _first_in_cycle(self, k: int, name: str, thr: float, sgn: float) -> float:
         """Exact first instant within cycle k at which sgn·(probe − thr) ≥ 0 [s from the cycle start].
