@@ -183,20 +183,31 @@ def _expm(a: np.ndarray) -> np.ndarray:
     return flat.reshape(r.shape)
 
 
-def _phi(x: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """(e^x − 1)/x and (e^x − 1 − x)/x², with their Taylor series for |x| < 0.1 (error < 1e-16)."""
+def _phi(x: np.ndarray, second: bool = True) -> tuple[np.ndarray, np.ndarray | None]:
+    """(e^x − 1)/x and (e^x − 1 − x)/x², with their Taylor series for |x| < 0.1 (error < 1e-16).
+
+    The series is summed only where it is used (on a start-up's batches of corner states most
+    entries are large), and ``second=False`` skips the second function (None).
+    """
+    x = np.asarray(x, dtype=float)
     small = np.abs(x) < 0.1
     xs = np.where(small, 1.0, x)
     em1 = np.expm1(xs)
-    f1 = em1 / xs
-    f2 = (em1 - xs) / (xs * xs)
-    # series: Σ x^k/(k+1)! and Σ x^k/(k+2)!, k = 0..9
-    s1 = np.zeros_like(x)
-    s2 = np.zeros_like(x)
-    for k in range(9, -1, -1):
-        s1 = s1 * x + 1.0 / math.factorial(k + 1)
-        s2 = s2 * x + 1.0 / math.factorial(k + 2)
-    return np.where(small, s1, f1), np.where(small, s2, f2)
+    f1 = np.asarray(em1 / xs)
+    f2 = np.asarray((em1 - xs) / (xs * xs)) if second else None
+    if small.any():
+        # series: Σ x^k/(k+1)! and Σ x^k/(k+2)!, k = 0..9
+        xv = x[small]
+        s1 = np.zeros_like(xv)
+        s2 = np.zeros_like(xv)
+        for k in range(9, -1, -1):
+            s1 = s1 * xv + 1.0 / math.factorial(k + 1)
+            if second:
+                s2 = s2 * xv + 1.0 / math.factorial(k + 2)
+        f1[small] = s1
+        if second:
+            f2[small] = s2
+    return f1, f2
 
 
 def _exp_sum_roots(b: np.ndarray, lam: np.ndarray, T: np.ndarray) -> np.ndarray:
@@ -724,13 +735,21 @@ class PeriodicSolution:
         b = k * (lam * w + gv)[..., None, :]
         d = self.durations
         roots = _exp_sum_roots(b, lam[..., None, :], d[..., None])
-        zeros = np.zeros(roots.shape[:-1] + (1,))
-        t = np.concatenate([zeros, np.where(np.isnan(roots), 0.0, roots), zeros + d[..., None, None]], axis=-1)
-        x = lam[..., None, None, :] * t[..., None]  # (..., P, m, c, nx)
-        f1, _ = _phi(x)
-        modal = np.exp(x) * w[..., None, None, :] + f1 * t[..., None] * gv[..., None, None, :]
-        y = np.einsum("...pmi,...pmci->...pmc", k, modal) + ku[..., None]
-        return y.min(axis=-1), y.max(axis=-1)
+        # the phase's two ends do not depend on the probe: their modal states once per phase
+        xd = lam * d[..., None]  # (..., P, nx)
+        f1d, _ = _phi(xd, second=False)
+        end = np.exp(xd) * w + f1d * d[..., None] * gv
+        y0 = np.einsum("...pmi,...pi->...pm", k, w) + ku
+        y1 = np.einsum("...pmi,...pi->...pm", k, end) + ku
+        lo, hi = np.minimum(y0, y1), np.maximum(y0, y1)
+        if roots.shape[-1]:
+            t = np.where(np.isnan(roots), 0.0, roots)  # an absent root repeats the phase start
+            x = lam[..., None, None, :] * t[..., None]  # (..., P, m, c, nx)
+            f1, _ = _phi(x, second=False)
+            modal = np.exp(x) * w[..., None, None, :] + f1 * t[..., None] * gv[..., None, None, :]
+            y = np.einsum("...pmi,...pmci->...pmc", k, modal) + ku[..., None]
+            lo, hi = np.minimum(lo, y.min(axis=-1)), np.maximum(hi, y.max(axis=-1))
+        return lo, hi
 
     def at_phase_ends(self, names) -> np.ndarray:
         """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""
@@ -928,6 +947,10 @@ _CORNER_MODES = 3
 #: bounds (conservative: never inside the true extremes) and :meth:`StartupTransient.first_reach`
 #: defers the later ranges, so the work per round stays bounded.
 _MAX_OPEN = 512
+#: Cycles whose phase-boundary values the first pass of :meth:`StartupTransient.first_reach` scans at once.
+_FIRST_PASS = 256
+#: Most cycles whose exact in-cycle extrema that first pass evaluates; a later candidate goes to the search.
+_FIRST_EXACT = 64
 
 
 def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.ndarray) -> np.ndarray:
@@ -1254,6 +1277,9 @@ class StartupTransient:
         """
         sgn = -1.0 if below else 1.0
         thr = sgn * float(threshold)
+        k = self._first_pass(name, thr, sgn)
+        if k is not None:
+            return k, float(k * self.period + self._first_in_cycle(k, name, float(threshold), sgn))
         best = math.inf
         a, b = self._initial_ranges()
         while a.size:
@@ -1281,6 +1307,34 @@ class StartupTransient:
         k = int(best)
         t = k * self.period + self._first_in_cycle(k, name, float(threshold), sgn)
         return k, float(t)
+
+    def _first_pass(self, name: str, thr: float, sgn: float):
+        """The first cycle whose exact extremes reach sgn·thr, from a cheap scan of the first cycles, or None.
+
+        A short start-up (tens of cycles) would pay the search's fixed cost many times
+        over. The states at the starts of the first :data:`_FIRST_PASS` cycles come in one
+        vectorised step (:meth:`states`) and the probe at every phase boundary with them;
+        those values are among the candidates of the exact phase extrema, so the first cycle
+        in which one reaches the threshold bounds the answer from above. The exact in-cycle
+        extrema of that cycle and every earlier one (at most :data:`_FIRST_EXACT`) then give
+        the first cycle that reaches it, as the search would. None (the search decides) when
+        no boundary value reaches it in the scan, the candidate is later than that, or rounding
+        lets the exact extrema disagree with the boundary values.
+        """
+        if self.settling_cycles <= 0.0 and not self.modal:
+            return None
+        k = np.arange(_FIRST_PASS, dtype=float)
+        z = self._solution(self.states(k), self.u).z0  # (n, P, n_z)
+        K = self.net.stacked(self.net.probe_index([name]))[1][:, 0, :]  # (P, n_z)
+        y0 = np.einsum("pj,npj->np", K, z)
+        y1 = np.einsum("pi,pij,npj->np", K, self.E, z)
+        cand = np.flatnonzero((np.maximum(sgn * y0, sgn * y1) >= thr).any(axis=1))
+        if cand.size == 0 or cand[0] >= _FIRST_EXACT:
+            return None
+        lo, hi = self._solution(self.states(k[:cand[0] + 1]), self.u).phase_extrema([name])
+        top = hi[..., 0] if sgn > 0 else -lo[..., 0]  # (n, P)
+        hit = np.flatnonzero((top >= thr).any(axis=1))
+        return int(hit[0]) if hit.size else None
 
     def _guess(self, a: np.ndarray, top: np.ndarray, name: str, thr: float, sgn: float) -> np.ndarray:
         """Cycles near the predicted crossing after each a, shape (len(a), 4), to split the ranges at.
