@@ -316,6 +316,13 @@ def _w_of_v(v, loop: Loop):
     return wright_omega(y)
 
 
+def _lam_of_v(v, loop: Loop):
+    """λ = ln w at rail voltage v, as y − ω(y) (finite where w itself underflows far above the source)."""
+    R, th, i_s = loop.r, loop.n_vt, loop.i_s
+    y = np.log(i_s * R / th) + (loop.v_src - v + i_s * R) / th
+    return y - wright_omega(y)
+
+
 def _v_of_w(w, loop: Loop):
     """Inverse of :func:`_w_of_v`: V = v_src + i_s·R + θ·ln(i_s·R/θ) − θ·(ln w + w)."""
     R, th, i_s = loop.r, loop.n_vt, loop.i_s
@@ -386,11 +393,15 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
     below it (w < w_I, diode current under the load current) in λ = ln w, so
     that w is never formed by cancellation. Newton steps are kept inside a
     bracket that shrinks with every evaluation (bisection as the fallback).
+    λ itself comes from the rail voltage (λ = y − ω(y)), not from ln w: far
+    above the source w underflows to 0 while λ stays finite.
     """
     c, dt, i_load = loop.c, loop.dt, loop.i_load
     R, th, i_s = loop.r, loop.n_vt, loop.i_s
     w_i = R * (i_s + i_load) / th
     w0 = _w_of_v(v0, loop)
+    lam0 = _lam_of_v(v0, loop)
+    lam1 = np.log(np.where(w0 > 0, w0, 1.0))
     tau = dt / (R * c)
     up = w0 > w_i
     dn = w0 < w_i
@@ -418,20 +429,20 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
 
         s = _bracketed_newton(f_up, s, lo, hi, tt > 0)
         w1[up] = wi + np.exp(s)
+        lam1[up] = np.log(w1[up])
         slope_up = np.exp(s - s0)
         slope = np.where(up, 0.0, slope)
         slope[up] = slope_up
     if np.any(dn):
         wi, ww, tt = w_i[dn], w0[dn], tau[dn]
-        l0 = np.log(ww)
+        l0 = lam0[dn]
         d0 = wi - ww
-        target = np.log(d0 / ww) / wi + np.log(d0) - tt
+        target = (np.log(d0) - l0) / wi + np.log(d0) - tt
         lo = l0.copy()
         hi = np.minimum(np.log(wi), l0 + tt * wi)  # |Φ'(λ)| = (w + 1)/(w_I − w) ≥ 1/w_I
         lam = l0 + tt * wi / (1.0 + wi)
         if wg is not None:
-            with np.errstate(divide="ignore", invalid="ignore"):
-                lg = np.log(wg[dn])
+            lg = _lam_of_v(np.broadcast_to(v1_guess, w0.shape)[dn], _take(loop, dn))
             lam = np.where(np.isfinite(lg) & (lg >= lo) & (lg <= hi), lg, lam)
         lam = np.clip(lam, lo, hi)
 
@@ -439,16 +450,18 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
             w = np.exp(x)
             d = wi - w
             with np.errstate(divide="ignore", invalid="ignore"):
-                val = np.log(d / w) / wi + np.log(d) - target
+                val = (np.log(d) - x) / wi + np.log(d) - target
             # Φ decreases with λ: return −Φ so the bracketed solver sees an increasing function
             return -val, (w + 1.0) / d
 
         lam = _bracketed_newton(f_dn, lam, lo, hi, tt > 0)
         w1[dn] = np.exp(lam)
+        lam1[dn] = lam
         sl = (wi - w1[dn]) / d0
         slope = np.array(np.broadcast_to(slope, w0.shape), dtype=float)
         slope[dn] = sl
-    v1 = np.where(tau > 0, _v_of_w(w1, loop), v0)
+    k_v = loop.v_src + i_s * R + th * np.log(i_s * R / th)
+    v1 = np.where(tau > 0, k_v - th * (lam1 + w1), v0)   # _v_of_w in terms of λ
     v1 = np.where(w0 == w_i, v0, v1)
     return v1, np.broadcast_to(slope, w0.shape)
 

@@ -175,6 +175,22 @@ def test_junction_map_settling_from_below_the_load_current_matches_solve_ivp():
     assert ints["int_v"][0] == pytest.approx(ref["int_v"], rel=1e-11)
 
 
+def test_junction_map_from_far_above_the_source_matches_solve_ivp():
+    # source: scipy.integrate.solve_ivp (DOP853). A Newton iterate (or an undershoot) can put the rail
+    # so far above the loop source that w = W(z) underflows to 0 (here e^(−900)); the map works in
+    # λ = ln w from the voltage, so there is no log(0) warning and the rail falls onto the diode
+    C, R, I, vs, th, i_s = 1e-7, 3.0, 1e-3, 10.0, 1.5 * thermal_voltage(25.0), 1e-12
+    v0, dt = 45.0, 5e-3
+    loop = Loop(dt=np.array([dt]), v_src=np.array([vs]), c=C, r=R, i_load=I, i_s=i_s, n_vt=th, diode="junction")
+    with warnings.catch_warnings():
+        warnings.simplefilter("error")
+        v1, _ = junction_map(np.array([v0]), loop)
+        ints = interval_integrals(np.array([v0]), loop)
+    ref = _junction_reference(v0, dt, vs, C, R, 0.0, I, i_s, th)
+    assert v1[0] == pytest.approx(ref["v1"], rel=1e-10)
+    assert ints["int_v"][0] == pytest.approx(ref["int_v"], rel=1e-10)
+
+
 def test_junction_current_solves_the_diode_equation():
     # source: Shockley diode law with series resistance, i = I_s·(exp((v − R·i)/(n·V_T)) − 1)
     loop = Loop(dt=np.ones(5), v_src=np.full(5, 12.0), c=1e-6, r=np.full(5, 3.0), i_s=1e-9, n_vt=0.04,
