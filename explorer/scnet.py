@@ -1179,9 +1179,17 @@ class StartupTransient:
             if ci.size == 2:
                 sig[:, 1:] = _tangent_triangle(mu, j, mj, sig[:, 1:])
             x = xa[:, None, :] - np.einsum("ncr,nrx->ncx", sig, shift)  # corner 0 is x_a itself
-            lo, hi = self._solution(x.reshape(-1, nx), self.u).phase_extrema(names)
-            lo = lo.reshape((n, sig.shape[1]) + lo.shape[1:])
-            hi = hi.reshape((n, sig.shape[1]) + hi.shape[1:])
+            # a one-cycle range has no shift (μ^0 = 1): all its corners are x_a, evaluated once
+            wide = (b - a) > 1.0
+            nc, nw = sig.shape[1], int(np.count_nonzero(wide))
+            lo_r, hi_r = self._solution(np.concatenate([x[wide].reshape(-1, nx), xa[~wide]]),
+                                        self.u).phase_extrema(names)
+            lo = np.empty((n, nc) + lo_r.shape[1:])
+            hi = np.empty((n, nc) + hi_r.shape[1:])
+            lo[wide] = lo_r[:nw * nc].reshape((nw, nc) + lo_r.shape[1:])
+            hi[wide] = hi_r[:nw * nc].reshape((nw, nc) + hi_r.shape[1:])
+            lo[~wide] = lo_r[nw * nc:, None]
+            hi[~wide] = hi_r[nw * nc:, None]
             lo_a, hi_a, lo_b, hi_b = lo[:, 0], hi[:, 0], lo.min(axis=1), hi.max(axis=1)
         else:
             lo_a, hi_a = self._solution(xa, self.u).phase_extrema(names)
@@ -1279,7 +1287,8 @@ class StartupTransient:
         thr = sgn * float(threshold)
         k = self._first_pass(name, thr, sgn)
         if k is not None:
-            return k, float(k * self.period + self._first_in_cycle(k, name, float(threshold), sgn))
+            k, ext = k
+            return k, float(k * self.period + self._first_in_cycle(k, name, float(threshold), sgn, ext))
         best = math.inf
         a, b = self._initial_ranges()
         while a.size:
@@ -1309,7 +1318,8 @@ class StartupTransient:
         return k, float(t)
 
     def _first_pass(self, name: str, thr: float, sgn: float):
-        """The first cycle whose exact extremes reach sgn·thr, from a cheap scan of the first cycles, or None.
+        """(k, (lo, hi)): the first cycle whose exact extremes reach sgn·thr and its phase extrema (P, 1) each,
+        from a cheap scan of the first cycles, or None.
 
         A short start-up (tens of cycles) would pay the search's fixed cost many times
         over. The states at the starts of the first :data:`_FIRST_PASS` cycles come in one
@@ -1334,7 +1344,7 @@ class StartupTransient:
         lo, hi = self._solution(self.states(k[:cand[0] + 1]), self.u).phase_extrema([name])
         top = hi[..., 0] if sgn > 0 else -lo[..., 0]  # (n, P)
         hit = np.flatnonzero((top >= thr).any(axis=1))
-        return int(hit[0]) if hit.size else None
+        return (int(hit[0]), (lo[hit[0]], hi[hit[0]])) if hit.size else None
 
     def _guess(self, a: np.ndarray, top: np.ndarray, name: str, thr: float, sgn: float) -> np.ndarray:
         """Cycles near the predicted crossing after each a, shape (len(a), 4), to split the ranges at.
@@ -1359,19 +1369,20 @@ class StartupTransient:
         k = np.where(np.isfinite(k), k, np.nan)
         return k[:, None] + np.array([-1.0, 0.0, 1.0, 2.0])[None, :]
 
-    def _first_in_cycle(self, k: int, name: str, thr: float, sgn: float) -> float:
+    def _first_in_cycle(self, k: int, name: str, thr: float, sgn: float, ext=None) -> float:
         """Exact first instant within cycle k at which sgn·(probe − thr) ≥ 0 [s from the cycle start].
 
         In the first phase whose extremes reach the threshold, the probe
         y(t) = Σ_i k_i·(e^{λ_i t}·w_i + φ₁(λ_i t)·t·g_i) + k_u·u is monotone between the
         zeros of y′ (:func:`_exp_sum_roots`); the first monotone piece that reaches
-        the threshold holds the crossing, solved by Brent's method to rounding.
+        the threshold holds the crossing, solved by Brent's method to rounding. ``ext``:
+        the cycle's phase extrema (lo, hi), each (P, 1), when already at hand.
         """
         net = self.net
         nx = net.n_x
         lam, V, Vinv, VN = net.modes
         sol = self._solution(self.states([k]), self.u)
-        lo, hi = sol.phase_extrema([name])
+        lo, hi = sol.phase_extrema([name]) if ext is None else (e[None] for e in ext)  # ext: (P, 1) each
         top = (hi if sgn > 0 else -lo)[0, :, 0]
         reach = np.flatnonzero(top >= sgn * thr)
         if reach.size == 0:
