@@ -8,7 +8,7 @@ circuit-theory textbooks).
 """
 
 import numpy as np
-from hypothesis import given, settings
+from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
@@ -57,7 +57,10 @@ def test_slow_output_tiny_esr_conserves_charge_and_energy():
     assert_allclose(i_in, m_i_out, rtol=1e-9)
 
 
+# found by this test: 1:1, C_fly 1 nF, C_out 1 mF, R_load 10 Ω, 1 kHz clock (time constants ~1e6 apart);
+# the current integrals of S·z lost 2.8e-8 of the balance before the integral about the phase equilibrium
 @settings(max_examples=60, deadline=None)
+@example(ratio="1:1", lc=-9.0, lco=-3.0, lr=-2.5, lesr=-3.0, lesro=0.0, lrl=1.0, lf=3.0, dead=0.0)
 @given(ratio=st.sampled_from(sorted(CIRCUITS)), lc=st.floats(-9, -5), lco=st.floats(-7, -3),
        lr=st.floats(-3, 2), lesr=st.floats(-6, 0), lesro=st.floats(-6, 0), lrl=st.floats(1, 6),
        lf=st.floats(3, 7), dead=st.floats(0, 0.2))
