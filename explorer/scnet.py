@@ -683,27 +683,27 @@ class PeriodicSolution:
             return np.einsum("...pmj,...pj->...m", K, iz)
         lam, V, Vinv, VN = modes
         nx = net.n_x
-        F = net._F
-        M, N = F[..., :nx, :nx], F[..., :nx, nx:]
+
+        def mv(A, x):  # matrix times vector over the batch and phase dimensions; the matrices are
+            out = A[..., 0] * x[..., None, 0]  # tiny, so a sum of columns beats a batched matmul
+            for j in range(1, A.shape[-1]):
+                out = out + A[..., j] * x[..., None, j]
+            return out
+
+        Fx = net._F[..., :nx, :]  # dx/dt = Fx·[x; u]
         x0, u = self.z0[..., :nx], self.z0[..., nx:]
         t = self.durations[..., None]  # (..., P, 1)
         lt = lam * t
         fast = np.abs(lt) > 1.0
         lam_f = np.where(fast, lam, 1.0)
-        w0 = np.einsum("...pij,...pj->...pi", Vinv, x0)
-        g = np.einsum("...pij,...pj->...pi", VN, u)
-        xr = np.einsum("...pij,...pj->...pi", V, np.where(fast, -g / lam_f, w0))
-        for _ in range(1):  # one step of iterative refinement of the fast modes' equilibrium
-            r = np.einsum("...pij,...pj->...pi", M, xr) + np.einsum("...pij,...pj->...pi", N, u)
-            xr = xr - np.einsum("...pij,...pj->...pi", V,
-                                np.where(fast, np.einsum("...pij,...pj->...pi", Vinv, r) / lam_f, 0.0))
-        wh = np.einsum("...pij,...pj->...pi", Vinv, x0 - xr)
-        gh = np.einsum("...pij,...pj->...pi", Vinv,
-                       np.einsum("...pij,...pj->...pi", M, xr) + np.einsum("...pij,...pj->...pi", N, u))
+        xr = mv(V, np.where(fast, -mv(VN, u) / lam_f, mv(Vinv, x0)))
+        # one step of iterative refinement of the fast modes' equilibrium
+        xr = xr - mv(V, np.where(fast, mv(Vinv, mv(Fx, np.concatenate([xr, u], axis=-1))) / lam_f, 0.0))
+        zr = np.concatenate([xr, u], axis=-1)
         f1, f2 = _phi(lt)
-        dev = np.einsum("...pij,...pj->...pi", V, f1 * t * wh + f2 * t * t * gh)
-        y_r = np.einsum("...pmj,...pj->...pm", K, np.concatenate([xr, u], axis=-1))
-        y_d = np.einsum("...pmj,...pj->...pm", K[..., :nx], dev)
+        dev = f1 * t * mv(Vinv, x0 - xr) + f2 * t * t * mv(Vinv, mv(Fx, zr))
+        y_r = mv(K, zr)
+        y_d = mv(np.einsum("...mi,...ij->...mj", K[..., :nx], V), dev)
         return (y_r * t + y_d).sum(axis=-2)
 
     def mean(self, names) -> np.ndarray:

@@ -312,10 +312,11 @@ def r_out_engine(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0
 
     net = pump_network(ratio, c_fly=col(c_fly), r_on=col(r_on), esr_fly=col(esr_fly), output="source")
     d = pump_durations(f_cp, dead_time_cp)
-    # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0)
-    d2 = np.stack([d, d], axis=-2)
+    # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0); the durations get a
+    # unit axis that the inputs broadcast over, so the phase maps are computed once for both
+    d2 = d[..., None, :]
     u = np.array([[0.0, 1.0], [1.0, 0.0]])
-    sol = periodic_steady_state(net, d2, np.broadcast_to(u, d2.shape[:-1] + (2,)))
+    sol = periodic_steady_state(net, d2, np.broadcast_to(u, d2.shape[:-2] + (2, 2)))
     i = sol.mean(["i(v_out)"])[..., 0]  # current into the output source
     r = -1.0 / i[..., 0]
     m = i[..., 1] * r
