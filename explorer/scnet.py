@@ -1221,17 +1221,20 @@ class StartupTransient:
             if ci.size == 2:
                 sig[:, 1:] = _tangent_triangle(mu, j, mj, sig[:, 1:])
             x = xa[:, None, :] - np.einsum("ncr,nrx->ncx", sig, shift)  # corner 0 is x_a itself
-            # a one-cycle range has no shift (μ^0 = 1): all its corners are x_a, evaluated once
-            wide = (b - a) > 1.0
-            nc, nw = sig.shape[1], int(np.count_nonzero(wide))
-            lo_r, hi_r = self._solution(np.concatenate([x[wide].reshape(-1, nx), xa[~wide]]),
-                                        self.u).phase_extrema(names)
+            # each distinct corner state once: a one-cycle range has no shift (μ^0 = 1), so all its
+            # corners are x_a; a tangent triangle lists its apex twice
+            nc = sig.shape[1]
+            same = np.zeros((n, nc), bool)  # corner equal to the one before it
+            same[(b - a) <= 1.0, 1:] = True
+            if nc > 3:
+                same[:, 3] |= np.all(sig[:, 3] == sig[:, 2], axis=-1)
+            lo_r, hi_r = self._solution(x[~same], self.u).phase_extrema(names)
             lo = np.empty((n, nc) + lo_r.shape[1:])
             hi = np.empty((n, nc) + hi_r.shape[1:])
-            lo[wide] = lo_r[:nw * nc].reshape((nw, nc) + lo_r.shape[1:])
-            hi[wide] = hi_r[:nw * nc].reshape((nw, nc) + hi_r.shape[1:])
-            lo[~wide] = lo_r[nw * nc:, None]
-            hi[~wide] = hi_r[nw * nc:, None]
+            lo[~same], hi[~same] = lo_r, hi_r
+            for c in range(1, nc):
+                lo[same[:, c], c] = lo[same[:, c], c - 1]
+                hi[same[:, c], c] = hi[same[:, c], c - 1]
             lo_a, hi_a, lo_b, hi_b = lo[:, 0], hi[:, 0], lo.min(axis=1), hi.max(axis=1)
         else:
             lo_a, hi_a = self._solution(xa, self.u).phase_extrema(names)
