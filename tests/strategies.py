@@ -96,11 +96,14 @@ def designs(draw, max_options=3, *, kinds=None, topologies=None, startup_cycles=
     """A design-file dict; ``kinds``/``topologies`` restrict the draw, ``startup_cycles`` its choices,
     ``f_cp_min`` the lowest pump clock drawn, ``max_periods`` the switching periods per three-phase
     fundamental (50 Hz output is drawn only while f_sw/50 stays within it); ``bootstrap_three_phase``
-    False draws no bootstrap option for a three-phase leg."""
+    False draws no bootstrap option for a three-phase leg, "linear" only straight-line diode ones."""
     uvlo_on = draw(st.floats(4, 12))
     n = draw(st.integers(1, max_options))
     bridge = draw(bridges(topologies, startup_cycles, max_periods))
-    junction = True if (bootstrap_three_phase or bridge["topology"] != "three_phase") else None
+    if bridge["topology"] != "three_phase" or bootstrap_three_phase is True:
+        junction = True
+    else:
+        junction = False if bootstrap_three_phase == "linear" else None
     return {
         "format": "explorer-design", "version": 1, "title": "fuzz (generated)",
         "bridge": bridge,
