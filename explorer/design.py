@@ -201,6 +201,12 @@ class Bridge:
                                   f"{self.v_bus * self.eta:g} V", self.v_out)
             if self.mode == "light_load" and self.ls_pulse is None:
                 raise DesignError(f"{path}.ls_pulse", "required in light_load mode (low-side on-time)")
+            if self.mode == "light_load":
+                t_ls = period * (1.0 - self.v_out / (self.eta * self.v_bus)) - 2 * self.dead_time
+                if self.ls_pulse >= t_ls:
+                    raise DesignError(f"{path}.ls_pulse", f"must be shorter than the low-side slot "
+                                      f"(1 \u2212 D)\u00b7T \u2212 2\u00b7t_dead = {max(t_ls, 0.0):.4g} s",
+                                      self.ls_pulse)
         if t == "sync_boost" and self.v_in * self.eta >= self.v_bus:
             raise DesignError(f"{path}.v_in", f"a boost's input must be below v_bus/eta = "
                               f"{self.v_bus / self.eta:g} V", self.v_in)

@@ -141,10 +141,12 @@ def test_light_load_rest_level():
 
 
 def test_light_load_pulse_too_long():
+    # refused when the design is loaded: at D = 40/48 the low-side slot is (1 − D)·T − 2·t_dead ≈ 1.57 µs
     from explorer import DesignError
-    d = design(topology="sync_buck", v_out=40, mode="light_load", ls_pulse=5e-6)
-    with pytest.raises(DesignError, match="bridge.ls_pulse"):
-        period_schedule(d)
+    with pytest.raises(DesignError, match="bridge.ls_pulse: must be shorter than the low-side slot"):
+        design(topology="sync_buck", v_out=40, mode="light_load", ls_pulse=5e-6)
+    ok = design(topology="sync_buck", v_out=40, mode="light_load", ls_pulse=1.5e-6, v_undershoot=0.7)
+    assert period_schedule(ok).dt[period_schedule(ok).v_sw == 0.0].sum() == pytest.approx(1.5e-6)
 
 
 def test_line_leg_one_edge_per_line_period():
