@@ -32,6 +32,8 @@ os.environ.setdefault("OPENBLAS_NUM_THREADS", "1")
 os.environ.setdefault("OMP_NUM_THREADS", "1")
 sys.path.insert(0, os.path.abspath(os.path.join(os.path.dirname(__file__), "..")))
 
+from _timing import median_s  # noqa: E402
+
 from explorer import demo_design, replace_field  # noqa: E402
 from explorer.errors import DesignError  # noqa: E402
 from explorer.options.charge_pump import evaluate_option, r_out_engine, r_out_limits  # noqa: E402
@@ -39,13 +41,7 @@ from explorer.tolerance import monte_carlo  # noqa: E402
 
 
 def median_time(fn, n: int) -> float:
-    fn()
-    ts = []
-    for _ in range(n):
-        t = time.perf_counter()
-        fn()
-        ts.append(time.perf_counter() - t)
-    return statistics.median(ts)
+    return median_s(fn, n)
 
 
 GRID_F = (1e3, 1e4, 1e5, 1e6, 1e7, 5e7)
