@@ -440,3 +440,25 @@ def test_rating_limits_in_topology_terms():
             rr = evaluate_option(dd, dd.options[i])
         load = next(c for c in rr.checks if c.name == "load_rating")
         assert load.ok is ok
+
+
+def test_collapsed_rail_reports_no_efficiency():
+    # found by the fuzz run: 1 µC per pulse from a 2.9 nF c_out at 4.3 MHz drains the rail far below
+    # 0 V in the linear model; charge conservation (Q = C·V) says the module cannot refill it, so the
+    # rail reads 0 V, no efficiency is given and the option fails (as the bootstrap and pump do)
+    import copy
+
+    from explorer import DEMO
+    d = copy.deepcopy(DEMO)
+    d["bridge"] = {"topology": "half_bridge", "v_bus": 6.26, "f_sw": 4.3e6, "dead_time": 7.4e-10,
+                   "t_edge": 5.1e-9, "v_undershoot": 2, "startup_cycles": 10, "duty": 0.79}
+    d["gate"] = {"q_g": 1e-6, "v_gs_max": 20.0, "v_gs_on_min": 5.37, "r_gs": None}
+    d["options"] = [next(o for o in d["options"] if o["kind"] == "isolated")
+                    | {"v_out": 16.9, "c_out": {"c": 2.92e-9, "esr": 1.5e-3, "c_tol": 0.2, "dielectric": "C0G",
+                                                "v_rating": 50}, "r_out": 5}]
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelValidityWarning)
+        r = evaluate(d).options[0]
+    assert r.efficiency is None and not r.feasible
+    assert r.v_rail.min == 0.0 and 0.0 <= r.v_rail.mean <= r.v_rail.max
+    assert any("collapses" in w for w in r.warnings)

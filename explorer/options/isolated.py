@@ -46,6 +46,7 @@ is always part of the result's warnings.
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import warnings
 from dataclasses import dataclass
@@ -477,6 +478,14 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=option.v_out, r_out=option.r_out,
                        c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=gate.r_gs)
     t_wave, v_wave = rail.waveform(sched.dt, points=8 if len(sched) <= 2000 else 2)
+    collapsed = rail.min < 0.0
+    if collapsed:
+        # below 0 V the constant-charge load model no longer holds (the driver stops): shown as 0 V,
+        # as the other models do, and no efficiency is reported
+        warn.append(f"the rail collapses: each turn-on takes Q/C_out = {q_on / c_eff:.3g} V from c_out, more "
+                    "than the module refills; the minimum is shown as 0 V")
+        rail = dataclasses.replace(rail, min=0.0, max=max(rail.max, 0.0), mean=max(rail.mean, 0.0))
+        v_wave = np.maximum(v_wave, 0.0)
     v_pre = option.v_out - option.r_out * drv.i_q       # rail before the PWM starts (load I_Q only)
     v_max = max(rail.max, v_pre)
 
@@ -490,7 +499,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     q_cm = float(cm.edge_charge(option.c_iso, b.v_bus))
     p_cm = float(cm.bus_power_per_edges(option.c_iso, b.v_bus, cm.rising_edge_swings(sched), sched.period))
     p_drawn = p_in + p_cm
-    efficiency = p_load / p_drawn if p_drawn > 0 else None
+    efficiency = p_load / p_drawn if (p_drawn > 0 and not collapsed) else None
     losses = {"module_no_load": option.p_no_load, "module_load": k * p_load * p_load, "common_mode": p_cm}
     if p_load > option.p_rated:
         warnings.warn(f"{path}: the load {p_load:.4g} W exceeds p_rated = {option.p_rated:.4g} W; "
