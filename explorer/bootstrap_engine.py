@@ -76,7 +76,8 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.special import wrightomega
+
+from .affine import affine_scan
 
 __all__ = ["wright_omega", "Loop", "OrbitSolution", "affine_scan", "linear_map", "junction_map", "junction_current",
            "interval_map", "steady_rail", "propagate", "interval_integrals", "crossing_time",
@@ -87,8 +88,6 @@ K_B = 1.380649e-23
 #: Elementary charge [C] (SI 2019 exact value).
 Q_E = 1.602176634e-19
 
-#: Chunk length of the prefix scan (a power of two).
-_CHUNK = 64
 #: Newton passes allowed on an orbit before giving up.
 _MAX_PASSES = 60
 
@@ -148,58 +147,6 @@ class Loop:
 
 
 # --------------------------------------------------------------------------- scan
-
-def _hs_scan(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Inclusive Hillis–Steele scan of affine maps along the last axis (a copy)."""
-    a = a.copy()
-    b = b.copy()
-    n = a.shape[-1]
-    s = 1
-    while s < n:
-        # element k becomes (map k) ∘ (prefix ending at k − s)
-        b[..., s:] = a[..., s:] * b[..., :-s] + b[..., s:]
-        a[..., s:] = a[..., s:] * a[..., :-s]
-        s *= 2
-    return a, b
-
-
-def affine_scan(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Prefix compositions of the affine maps ``u ↦ a[k]·u + b[k]`` along the last axis.
-
-    Returns ``(A, B)`` with ``A[..., k]·u + B[..., k]`` equal to applying maps
-    ``0 … k`` in order. Chunked parallel prefix (Blelloch, *Prefix sums and
-    their applications*, CMU-CS-90-190, 1990): a scan inside chunks of 64, a
-    recursive scan of the chunk totals, then one combining pass. With all
-    ``a`` in [0, 1] it only multiplies numbers no larger than one and adds, so
-    it is as accurate as the sequential recurrence.
-
-    Parameters
-    ----------
-    a, b : ndarray, same shape ``(..., n)``
-    """
-    a = np.asarray(a, dtype=float)
-    b = np.asarray(b, dtype=float)
-    n = a.shape[-1]
-    if n <= _CHUNK:
-        return _hs_scan(a, b)
-    m = -(-n // _CHUNK)
-    pad = m * _CHUNK - n
-    if pad:
-        widths = [(0, 0)] * (a.ndim - 1) + [(0, pad)]
-        a = np.pad(a, widths, constant_values=1.0)
-        b = np.pad(b, widths, constant_values=0.0)
-    shp = a.shape[:-1] + (m, _CHUNK)
-    ca, cb = _hs_scan(a.reshape(shp), b.reshape(shp))
-    ta, tb = affine_scan(ca[..., -1], cb[..., -1])  # prefix of chunk totals
-    # exclusive prefix for chunk j is the inclusive prefix of chunk j − 1
-    pa = np.concatenate((np.ones(ta.shape[:-1] + (1,)), ta[..., :-1]), axis=-1)[..., None]
-    pb = np.concatenate((np.zeros(tb.shape[:-1] + (1,)), tb[..., :-1]), axis=-1)[..., None]
-    A = ca * pa
-    B = ca * pb + cb
-    A = A.reshape(a.shape)[..., :n]
-    B = B.reshape(b.shape)[..., :n]
-    return A, B
-
 
 # --------------------------------------------------------------------------- straight-line diode
 
@@ -639,7 +586,6 @@ def _junction_g_on(v0, loop: Loop):
     jg = _JunctionG(loop)
     sig0, sig1, sign, _ = jg.solve(v0, loop.dt)
     lam1 = jg.lam_e + sign * np.exp(sig1)
-    lam0 = jg.lam_e + sign * np.exp(sig0)
     v1 = np.where(loop.dt > 0, jg.v(lam1), v0)
     h0 = jg.h_d(sign * np.exp(sig0))
     h1 = jg.h_d(sign * np.exp(sig1))

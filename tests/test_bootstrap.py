@@ -24,7 +24,7 @@ from scipy.special import wrightomega
 
 from explorer import demo_design, load_design, replace_field
 from explorer.bootstrap_engine import (Loop, affine_scan, interval_integrals, junction_current, junction_map,
-                                       linear_map, propagate, steady_rail, thermal_voltage, wright_omega)
+                                       linear_map, propagate, thermal_voltage, wright_omega)
 from explorer.errors import DesignError
 from explorer.options.bootstrap import (bootstrap_circuit, evaluate_option, rail_min_map, startup,
                                         steady_state)

@@ -43,7 +43,6 @@ def test_charge_multipliers_from_the_engine(ratio, seeman_sanders_2008):
     d = pump_durations(200e3, 50e-9)
     sol = periodic_steady_state(net, d, [10.0, 0.05])
     q_out = 0.05 * d.sum()
-    E, S = sol.E, sol.S
     # charge through each switch per cycle (one conducting phase each)
     q_sw = np.abs(sol.integral(["i(s1)", "i(s2)", "i(s3)", "i(s4)"]))
     assert_allclose(q_sw / q_out, ref["a_r"], rtol=1e-6)

@@ -7,7 +7,6 @@ drawn equals the power dissipated plus the power delivered (Tellegen's theorem;
 circuit-theory textbooks).
 """
 
-import numpy as np
 from hypothesis import example, given, settings
 from hypothesis import strategies as st
 from numpy.testing import assert_allclose

@@ -55,6 +55,7 @@ import numpy as np
 from scipy.optimize import brentq
 
 from .. import common_mode as cm
+from ..affine import affine_scan
 from ..capacitors import capacitance, parse_dielectric
 from ..design import Design, IsolatedOption
 from ..errors import DesignError, ModelValidityWarning
@@ -201,23 +202,6 @@ class RailSolution:
         return t, v
 
 
-def _affine_scan(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Inclusive prefix composition of the maps x ↦ a_k·x + b_k (Hillis–Steele scan).
-
-    Returns (A_k, B_k) with x_k = A_k·x_0 + B_k after maps 0..k. Only products
-    of numbers in [0, 1] are formed, so it is stable for any length.
-    """
-    a = a.copy()
-    b = b.copy()
-    s = 1
-    n = a.size
-    while s < n:
-        b[s:] = b[s:] + a[s:] * b[:-s]
-        a[s:] = a[s:] * a[:-s]
-        s *= 2
-    return a, b
-
-
 def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: float,
                 q_pulse: float, i_q: float = 0.0, r_gs: float | None = None) -> RailSolution:
     """Periodic steady state of a source behind a resistance charging a capacitor that feeds a gate driver.
@@ -276,7 +260,7 @@ def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: flo
         alpha = np.zeros(dt.shape)
         one_minus_a = 1.0
     # interval map: V_end = alpha·(V_start − jump) + (1 − alpha)·V_inf
-    a_cum, b_cum = _affine_scan(alpha, (1.0 - alpha) * v_inf - alpha * jump)
+    a_cum, b_cum = affine_scan(alpha, (1.0 - alpha) * v_inf - alpha * jump)
     v0 = b_cum[-1] / one_minus_a
     v_end = a_cum * v0 + b_cum
     v_start = np.concatenate(([v0], v_end[:-1]))
