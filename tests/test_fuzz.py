@@ -20,11 +20,9 @@ The run is split into two shards evaluated in two freshly started worker process
 has two cores), each a derandomized hypothesis run with its own digest, so the examples are the
 same on every run.
 
-An open finding in a model other people are changing is kept out of the long run by one narrow
-predicate or bound (the pump efficiency slack
-:data:`PUMP_EFFICIENCY_SLACK`, the three-phase bound :data:`FUZZ_MAX_PERIODS` with straight-line
-bootstraps only on three-phase legs) and checked by its stored reproducer; fixed findings keep
-their reproducer as a plain regression test below.
+An open finding is kept out of the long run by one narrow bound (:data:`FUZZ_MAX_PERIODS`, with
+straight-line bootstraps only on three-phase legs) and checked by its stored reproducer; fixed
+findings keep their reproducer as a plain regression test below.
 """
 
 from __future__ import annotations
@@ -70,11 +68,6 @@ FUZZ_STARTUP_CYCLES = (10, 30)
 #: 6e-15 C: the floor does not grow with the number of intervals summed; to be revisited).
 FUZZ_MAX_PERIODS = 4000
 
-#: Open finding charge_pump-efficiency-above-one-rounding: a pump whose only load is the quiescent
-#: current (no HS turn-on, 0.65 µW, losses 4e-13 W) reports an efficiency of 1 + 1.6e-6: its power
-#: figures differ by more than its losses. The long run lets a pump exceed 1 by at most this much
-#: (counted in the summary) until the pump's owner fixes it; see the strict xfail below.
-PUMP_EFFICIENCY_SLACK = 1e-5
 
 FINDINGS = pathlib.Path(__file__).parent / "reference" / "bootstrap" / "fuzz"
 
@@ -169,11 +162,7 @@ def check_design(d: dict, stats: collections.Counter) -> None:
             bad = nonfinite_paths(r)
             assert not bad, f"{opt.kind} {opt.label}: non-finite figures at {bad[:5]}"
             if r.efficiency is not None:
-                if opt.kind == "charge_pump" and 1.0 < r.efficiency <= 1.0 + PUMP_EFFICIENCY_SLACK:
-                    # open finding charge_pump-efficiency-above-one-rounding (strict xfail below)
-                    stats["known:charge_pump-efficiency-above-one-rounding"] += 1
-                else:
-                    assert 0.0 < r.efficiency <= 1.0, f"{opt.kind}: efficiency {r.efficiency}"
+                assert 0.0 < r.efficiency <= 1.0, f"{opt.kind}: efficiency {r.efficiency}"
                 stats["efficiency_checked"] += 1
             if opt.kind == "bootstrap" and r.losses:  # each loss is ∫(positive) dt; rounding slack 1e-9
                 floor = -1e-9 * abs(r.p_drawn or 0.0)
@@ -494,8 +483,6 @@ _JUNCTION_EFF = {
 }
 
 
-@pytest.mark.xfail(strict=True, reason="open finding charge_pump-efficiency-above-one-rounding: efficiency "
-                   "1 + 1.6e-6 with a quiescent-only load")
 def test_pump_quiescent_load_efficiency_at_most_one():
     """2:1 pump on a half bridge at duty 1 (no HS turn-on: the rail carries only I_Q = 0.1 µA), an
     invented design drawn by the fuzz run: delivered power ≤ drawn power (conservation of energy)."""
