@@ -252,21 +252,24 @@ def wright_omega(y):
             z = y - np.log(w) - w
             q = 2.0 * (1.0 + w) * (1.0 + w + 2.0 * z / 3.0)
             w = w * (1.0 + z / (1.0 + w) * (q - z) / (q - 2.0 * z))
-        w = np.where(y < -40.0, np.exp(y), w)
+        w = np.where(y < -40.0, e, w)  # e = exp(y) there (y < −2)
     return w
+
+
+def _y_of_v(v, loop: Loop):
+    """y = ln z at rail voltage v (the argument of the Wright omega function, w = ω(y))."""
+    R, th, i_s = loop.r, loop.n_vt, loop.i_s
+    return np.log(i_s * R / th) + (loop.v_src - v + i_s * R) / th
 
 
 def _w_of_v(v, loop: Loop):
     """w = W(z) at rail voltage v (Wright omega of ln z)."""
-    R, th, i_s = loop.r, loop.n_vt, loop.i_s
-    y = np.log(i_s * R / th) + (loop.v_src - v + i_s * R) / th
-    return wright_omega(y)
+    return wright_omega(_y_of_v(v, loop))
 
 
 def _lam_of_v(v, loop: Loop):
     """λ = ln w at rail voltage v, as y − ω(y) (finite where w itself underflows far above the source)."""
-    R, th, i_s = loop.r, loop.n_vt, loop.i_s
-    y = np.log(i_s * R / th) + (loop.v_src - v + i_s * R) / th
+    y = _y_of_v(v, loop)
     return y - wright_omega(y)
 
 
@@ -346,15 +349,20 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
     c, dt, i_load = loop.c, loop.dt, loop.i_load
     R, th, i_s = loop.r, loop.n_vt, loop.i_s
     w_i = R * (i_s + i_load) / th
-    w0 = _w_of_v(v0, loop)
-    lam0 = _lam_of_v(v0, loop)
+    y0 = _y_of_v(v0, loop)
+    w0 = wright_omega(y0)
+    lam0 = y0 - w0  # λ = y − ω(y), as in _lam_of_v (one ω evaluation for both)
     lam1 = np.log(np.where(w0 > 0, w0, 1.0))
     tau = dt / (R * c)
     up = w0 > w_i
     dn = w0 < w_i
     w1 = w0.copy()
     slope = np.exp(-tau * w_i / (1.0 + w_i))  # at equilibrium: the linearised decay
-    wg = None if v1_guess is None else _w_of_v(v1_guess, loop)
+    if v1_guess is None:
+        yg = wg = None
+    else:
+        yg = _y_of_v(v1_guess, loop)
+        wg = wright_omega(yg)
     if np.any(up):
         wi, ww, tt = w_i[up], w0[up], tau[up]
         s0 = np.log(ww - wi)
@@ -389,7 +397,7 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
         hi = np.minimum(np.log(wi), l0 + tt * wi)  # |Φ'(λ)| = (w + 1)/(w_I − w) ≥ 1/w_I
         lam = l0 + tt * wi / (1.0 + wi)
         if wg is not None:
-            lg = _lam_of_v(np.broadcast_to(v1_guess, w0.shape)[dn], _take(loop, dn))
+            lg = (np.broadcast_to(yg, w0.shape) - np.broadcast_to(wg, w0.shape))[dn]  # _lam_of_v of the guess
             lam = np.where(np.isfinite(lg) & (lg >= lo) & (lg <= hi), lg, lam)
         lam = np.clip(lam, lo, hi)
 
