@@ -242,17 +242,25 @@ def wright_omega(y):
     """
     y = np.asarray(y, dtype=float)
     with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
-        e = np.exp(np.minimum(y, -2.0))
+        low = y <= -2.0
+        high = ~(y <= 3.0)
+        has_low = bool(np.any(low))
+        # starting values; a region's expression is formed only when some y lies in it
         x = y - 1.0
-        ly = np.log(np.maximum(y, 3.0))
-        w = np.where(y <= -2.0, e * (1.0 - e * (1.0 - 1.5 * e)),
-                     np.where(y <= 3.0, 1.0 + x * (0.5 + x * (1.0 / 16 + x * (-1.0 / 192 + x * (-1.0 / 3072 + x * 13.0 / 61440)))),
-                              y - ly + ly / y))
+        w = 1.0 + x * (0.5 + x * (1.0 / 16 + x * (-1.0 / 192 + x * (-1.0 / 3072 + x * 13.0 / 61440))))
+        if np.any(high):
+            ly = np.log(np.maximum(y, 3.0))
+            w = np.where(high, y - ly + ly / y, w)
+        if has_low:
+            e = np.exp(np.minimum(y, -2.0))
+            w = np.where(low, e * (1.0 - e * (1.0 - 1.5 * e)), w)
         for _ in range(2):
             z = y - np.log(w) - w
-            q = 2.0 * (1.0 + w) * (1.0 + w + 2.0 * z / 3.0)
-            w = w * (1.0 + z / (1.0 + w) * (q - z) / (q - 2.0 * z))
-        w = np.where(y < -40.0, e, w)  # e = exp(y) there (y < −2)
+            wp = 1.0 + w
+            q = 2.0 * wp * (wp + 2.0 * z / 3.0)
+            w = w * (1.0 + z / wp * (q - z) / (q - 2.0 * z))
+        if has_low:
+            w = np.where(y < -40.0, e, w)  # e = exp(y) there (y < −2)
     return w
 
 
@@ -319,20 +327,20 @@ def junction_map(v0, loop: Loop, v1_guess=None):
     v1 = np.array(v1_off, dtype=float)
     slope = np.array(s_off, dtype=float)
     if np.any(able):
+        # one subset copy per kind of interval (conducting-capable, without / with a conductance load)
         ab = np.broadcast_to(able, shape)
-        sub = Loop(**{k: np.broadcast_to(getattr(loop, k), shape)[ab] for k in
-                      ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
-                   diode="junction")
-        g = None if v1_guess is None else np.broadcast_to(v1_guess, shape)[ab]
-        loaded = sub.g_load > 0
-        v1_ab = np.empty(sub.dt.shape)
-        s_ab = np.empty(sub.dt.shape)
-        if np.any(~loaded):
-            v1_ab[~loaded], s_ab[~loaded] = _junction_on(v0[ab][~loaded], _take(sub, ~loaded),
-                                                         None if g is None else g[~loaded])
-        if np.any(loaded):
-            v1_ab[loaded], s_ab[loaded] = _junction_g_on(v0[ab][loaded], _take(sub, loaded))
-        v1[ab], slope[ab] = v1_ab, s_ab
+        loaded = np.broadcast_to(np.asarray(g_load) > 0, shape)
+        for sel, solve in ((ab & ~loaded, _junction_on), (ab & loaded, _junction_g_on)):
+            if not np.any(sel):
+                continue
+            sub = Loop(**{k: np.broadcast_to(getattr(loop, k), shape)[sel] for k in
+                          ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
+                       diode="junction")
+            if solve is _junction_on:
+                v1[sel], slope[sel] = solve(v0[sel], sub, None if v1_guess is None
+                                            else np.broadcast_to(v1_guess, shape)[sel])
+            else:
+                v1[sel], slope[sel] = solve(v0[sel], sub)
     return v1, slope
 
 
