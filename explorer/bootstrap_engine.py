@@ -437,22 +437,34 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
     derivative is huge and the first steps are tiny although the root is far away; there the steps
     grow geometrically while the iterate creeps off the singularity.
     """
-    lo = lo.copy()
-    hi = hi.copy()
+    lo = np.array(lo, dtype=float)  # own copies, updated in place
+    hi = np.array(hi, dtype=float)
+    inactive = ~np.broadcast_to(active, np.shape(x))
+    all_active = not np.any(inactive)
     prev = np.zeros(np.shape(x))
     for _ in range(iters):
         with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
             f, df = fun(x)
-        bad = ~np.isfinite(f) | ~np.isfinite(df)
-        f = np.where(bad, 1.0, f)
-        hi = np.where(f > 0, x, hi)
-        lo = np.where(f < 0, x, lo)
-        x_new = x - f / np.where(bad, 1.0, df)
-        out = ~((x_new >= lo) & (x_new <= hi)) | bad
-        x_new = np.where(out, 0.5 * (lo + hi), x_new)
+        bad = ~(np.isfinite(f) & np.isfinite(df))
+        any_bad = bool(np.any(bad))
+        if any_bad:
+            f = np.where(bad, 1.0, f)
+            df = np.where(bad, 1.0, df)
+        np.copyto(hi, x, where=f > 0)
+        np.copyto(lo, x, where=f < 0)
+        x_new = x - f / df
+        out = ~((x_new >= lo) & (x_new <= hi))
+        if any_bad:
+            out |= bad
+        if np.any(out):
+            x_new = np.where(out, 0.5 * (lo + hi), x_new)
         step = np.abs(x_new - x)
-        x = np.where(active, x_new, x)
-        if np.all(((step <= 1e-14 * np.maximum(1.0, np.abs(x))) & (step <= prev)) | ~active | (f == 0)):
+        x = x_new if all_active else np.where(inactive, x, x_new)
+        done = (step <= 1e-14 * np.maximum(1.0, np.abs(x))) & (step <= prev)
+        done |= f == 0
+        if not all_active:
+            done |= inactive
+        if np.all(done):
             break
         prev = step
     return x
