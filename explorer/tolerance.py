@@ -119,11 +119,19 @@ def apply_factors(design: Design, label: str, f: Factors) -> Design:
         aux=dataclasses.replace(design.aux, v_dd=design.aux.v_dd * f.v_dd))
 
 
+def _capacitors(opt) -> list[Capacitor]:
+    """The capacitors of an option (the ones its capacitance spread acts on)."""
+    if isinstance(opt, BootstrapOption):
+        return [opt.capacitor]
+    if isinstance(opt, ChargePumpOption):
+        return [opt.c_fly, opt.c_out]
+    return [opt.c_out]
+
+
 def _cap_envelope(design: Design, label: str) -> tuple[float, float]:
     """Lowest and highest capacitance factor of the option's capacitors (tolerance × class)."""
     opt = design.option(label)
-    caps = {BootstrapOption: lambda o: [o.capacitor], ChargePumpOption: lambda o: [o.c_fly, o.c_out],
-            IsolatedOption: lambda o: [o.c_out]}[type(opt)](opt)
+    caps = _capacitors(opt)
     lo, hi = [], []
     for c in caps:
         d = parse_dielectric(c.dielectric)
@@ -253,8 +261,7 @@ def sample_factors(design: Design, label: str, n: int, rng: np.random.Generator)
     if gaussian:
         # capacitance: tolerance gaussian (3σ = c_tol) times the class envelope sampled uniformly
         opt = design.option(label)
-        caps = {BootstrapOption: lambda o: [o.capacitor], ChargePumpOption: lambda o: [o.c_fly, o.c_out],
-                IsolatedOption: lambda o: [o.c_out]}[type(opt)](opt)
+        caps = _capacitors(opt)
         tol = max(c.c_tol for c in caps)
         d = [parse_dielectric(c.dielectric) for c in caps]
         k_t = rng.uniform(min(x.dc_low for x in d), max(x.dc_high for x in d), n)

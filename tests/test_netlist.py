@@ -32,6 +32,14 @@ SHORT = {"bridge.soft_start": 20e-6, "bridge.startup_cycles": 100,
 REFERENCE_DESIGN = os.path.join(os.path.dirname(__file__), "reference", "bootstrap", "design.json")
 
 
+
+def _assert_bootstrap_tolerances(ng):
+    """The bootstrap issue's tolerances: rail max/min within 0.5 %, time to UVLO-on within 3 %."""
+    r = ng["plan"].result
+    assert ng["max"] == pytest.approx(r.v_rail.max, rel=5e-3)
+    assert ng["min"] == pytest.approx(r.v_rail.min, rel=5e-3)
+    assert ng["t_uvlo"] == pytest.approx(r.startup.t_uvlo, rel=3e-2)
+
 @pytest.fixture(scope="module")
 def short_demo():
     """The demo design (an invented scenario) with a short start-up, for quick ngspice runs."""
@@ -80,10 +88,7 @@ def test_bootstrap_against_ngspice(label, short_demo, ngspice):
     # reference: ngspice 39 transient of the exported netlist (general-purpose circuit simulator);
     # tolerances from the bootstrap issue: rail max/min 0.5 %, time to UVLO-on 3 %
     ng = ngspice_figures(short_demo, label)
-    r = ng["plan"].result
-    assert ng["max"] == pytest.approx(r.v_rail.max, rel=5e-3)
-    assert ng["min"] == pytest.approx(r.v_rail.min, rel=5e-3)
-    assert ng["t_uvlo"] == pytest.approx(r.startup.t_uvlo, rel=3e-2)
+    _assert_bootstrap_tolerances(ng)
 
 
 @pytest.mark.ngspice
@@ -91,10 +96,7 @@ def test_bootstrap_against_ngspice(label, short_demo, ngspice):
 def test_bootstrap_corners_against_ngspice(corner, short_demo, ngspice):
     # reference: ngspice 39; the exported capacitor is the model's effective value at the corner
     ng = ngspice_figures(short_demo, LABELS[0], corner=corner)
-    r = ng["plan"].result
-    assert ng["max"] == pytest.approx(r.v_rail.max, rel=5e-3)
-    assert ng["min"] == pytest.approx(r.v_rail.min, rel=5e-3)
-    assert ng["t_uvlo"] == pytest.approx(r.startup.t_uvlo, rel=3e-2)
+    _assert_bootstrap_tolerances(ng)
 
 
 @pytest.mark.ngspice
@@ -104,10 +106,7 @@ def test_bootstrap_junction_diode_against_ngspice(ngspice):
     design = load_design(REFERENCE_DESIGN)
     label = design.options[0].label
     ng = ngspice_figures(design, label)
-    r = ng["plan"].result
-    assert ng["max"] == pytest.approx(r.v_rail.max, rel=5e-3)
-    assert ng["min"] == pytest.approx(r.v_rail.min, rel=5e-3)
-    assert ng["t_uvlo"] == pytest.approx(r.startup.t_uvlo, rel=3e-2)
+    _assert_bootstrap_tolerances(ng)
 
 
 @pytest.mark.ngspice
