@@ -314,6 +314,10 @@ class StartupSolution:
         Interval in which the rail first reaches UVLO-on.
     segments : int
         Pieces solved between UVLO events.
+    k_settled : int or None
+        First interval of the settled tail (from there on the trajectory is the
+        periodic orbit of the schedule's repeating pattern, to the start-up
+        tolerance); None where the tail was solved interval by interval.
     """
 
     schedule: Schedule
@@ -325,6 +329,7 @@ class StartupSolution:
     t_uvlo: float | None
     k_uvlo: int | None
     segments: int
+    k_settled: int | None = None
 
 
 def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
@@ -340,6 +345,15 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     for the straight-line diode, Newton on the trajectory where cut-off
     crossings or the junction diode make them nonlinear), in windows that
     double in length, so the work is sequential only from one event to the next.
+
+    Settled tail: where the schedule repeats one pattern to its end (after the
+    soft-start ramp), the periodic orbit of that pattern is solved once; when
+    the trajectory reaches it to within the start-up tolerance at a pattern
+    boundary, with the UVLO state held and the orbit clear of the UVLO
+    thresholds, the rest of the trajectory is that orbit repeated. Every
+    interval map is a contraction (slope in (0, 1]), so the distance to the
+    orbit never grows and the result equals the interval-by-interval solution
+    to the same tolerance (checked in the tests).
     """
     circ = circ or bootstrap_circuit(design, option, corner)
     s = startup_schedule(design, n_cycles=n_cycles)
@@ -358,8 +372,14 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     k_uvlo = None
     segments = 0
     window = 256
+    tail = _periodic_tail(s)
+    check = None if tail is None else tail[0] + _SETTLE_PATTERNS * tail[1]  # next settle check
+    tail_orbits: dict[bool, OrbitSolution | None] = {}
+    k_settled = None
     while p < n:
         q_end = min(n, p + window)
+        if check is not None and p < check < q_end:
+            q_end = check
         sl = slice(p, q_end)
         pred = _predict_enabled(state, s.cycle, p, q_end, enabled)
         hs = s.hs_on[sl] & pred
@@ -394,6 +414,27 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
                 t_uvlo = float(s.t_start[kk] + (dtc if np.isfinite(dtc) else s.dt[kk]))
                 k_uvlo = int(kk)
         enabled = bool(nxt[stop - 1])
+        p_new = p + stop
+        if check is not None and p_new >= check:
+            j1, L = tail
+            p_b = j1 + ((p_new - j1) // L) * L  # last pattern boundary reached
+            if enabled not in tail_orbits:
+                tail_orbits[enabled] = _tail_orbit(circ, s, j1, L, enabled, drv)
+            orb_t = tail_orbits[enabled]
+            u0 = orb_t.v_pre[0] if orb_t is not None else np.nan
+            v_b = v_end[p_b - 1]
+            if (orb_t is not None and np.all(state[p_b - L:p_new] == enabled)
+                    and abs(v_b - u0) <= STARTUP_TOL * (1.0 + abs(u0))):
+                reps = -(-(n - p_b) // L)
+                k = slice(p_b, n)
+                v_pre[k] = np.tile(orb_t.v_pre, reps)[:n - p_b]
+                v_start[k] = np.tile(orb_t.v_start, reps)[:n - p_b]
+                v_end[k] = np.tile(orb_t.v_end, reps)[:n - p_b]
+                delivered[k] = s.hs_on[k] & enabled
+                state[k] = enabled
+                k_settled = p_b
+                break
+            check = j1 + 2 * (check - j1)
         # a wrong guess costs the rest of the window: restart short, grow while the guesses hold
         if bad.size:
             # after the first restart with a held state the rest usually goes in one piece
@@ -404,7 +445,54 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     loop_all = schedule_loop(circ, s.dt, np.where(s.hs_on & ~delivered, circ.v_sw_low, s.v_sw), delivered,
                              periodic=False)
     i_start = _diode_current(v_start, loop_all, circ)
-    return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments)
+    return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments, k_settled)
+
+
+#: Pattern repeats solved past the start of a periodic schedule tail before the first settle check.
+_SETTLE_PATTERNS = 64
+
+
+def _periodic_tail(s: Schedule) -> tuple[int, int] | None:
+    """Start ``j1`` and length ``L`` of the pattern the schedule repeats to its end (None: none).
+
+    ``L`` is the interval count of the last switching period; the tail is where
+    every interval equals the one ``L`` later in duration, SW level and HS
+    command. ``j1`` is one pattern after the tail's first interval, so that the
+    interval before ``j1`` (which sets ``j1``'s edge charges) is in the tail too.
+    """
+    n = len(s)
+    L = int(np.count_nonzero(s.cycle == s.cycle[-1])) if n else 0
+    if L <= 0 or n < 3 * L + _SETTLE_PATTERNS * L:
+        return None
+    same = (s.dt[:-L] == s.dt[L:]) & (s.v_sw[:-L] == s.v_sw[L:]) & (s.hs_on[:-L] == s.hs_on[L:])
+    diff = np.flatnonzero(~same)
+    j0 = int(diff[-1]) + 1 if diff.size else 0
+    j1 = j0 + L
+    if j1 + _SETTLE_PATTERNS * L >= n:
+        return None
+    return j1, L
+
+
+def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: bool, drv) -> OrbitSolution | None:
+    """Periodic orbit of the tail pattern at a held UVLO state, or None where the state would not hold.
+
+    The orbit must keep the UVLO state with a margin of twice the start-up
+    tolerance: enabled, no boundary value below UVLO-off; disabled, no end value
+    at UVLO-on.
+    """
+    k = slice(j1, j1 + L)
+    hs = s.hs_on[k] & enabled
+    vsw = np.where(s.hs_on[k] & ~hs, circ.v_sw_low, s.v_sw[k])
+    orb = _solve_orbit(_bc(schedule_loop(circ, s.dt[k], vsw, hs, periodic=True)))
+    vals = np.concatenate((orb.v_start, orb.v_end))
+    if not (orb.converged and np.all(np.isfinite(vals))):
+        return None
+    m = 2.0 * STARTUP_TOL * (1.0 + np.abs(vals))
+    if enabled:
+        ok = np.all(vals >= drv.uvlo_off + m)
+    else:
+        ok = np.all(orb.v_end < drv.uvlo_on - m[L:])
+    return orb if ok else None
 
 
 def _predict_enabled(state, cycle, p, q_end, enabled):
