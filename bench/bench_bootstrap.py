@@ -100,9 +100,9 @@ def _core(design):
     o = design.options[0]
     circ = B.bootstrap_circuit(design, o)
 
-    def run():
-        B.steady_state(design, o, circ=circ)
-        B.startup(design, o, circ=circ)
+    def run():  # as evaluate_option does: the start-up reuses the steady orbit for its settled tail
+        ss = B.steady_state(design, o, circ=circ)
+        B.startup(design, o, circ=circ, steady=ss)
         B._duty_limit(design, circ, [required_rail(design), design.driver.uvlo_off])
     return run
 

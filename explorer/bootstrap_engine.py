@@ -92,6 +92,13 @@ Q_E = 1.602176634e-19
 _MAX_PASSES = 60
 
 
+def _bcast(x, shape):
+    """``x`` broadcast to ``shape`` (``x`` itself where it already is an array of that shape)."""
+    if isinstance(x, np.ndarray) and x.shape == shape:
+        return x
+    return np.broadcast_to(x, shape)
+
+
 def thermal_voltage(t_celsius: float) -> float:
     """Thermal voltage V_T = k·T/q [V] at a temperature in °C."""
     return K_B * (t_celsius + 273.15) / Q_E
@@ -244,11 +251,11 @@ def wright_omega(y):
     with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
         low = y <= -2.0
         high = ~(y <= 3.0)
-        has_low = bool(np.any(low))
+        has_low = bool(low.any())
         # starting values; a region's expression is formed only when some y lies in it
         x = y - 1.0
         w = 1.0 + x * (0.5 + x * (1.0 / 16 + x * (-1.0 / 192 + x * (-1.0 / 3072 + x * 13.0 / 61440))))
-        if np.any(high):
+        if high.any():
             ly = np.log(np.maximum(y, 3.0))
             w = np.where(high, y - ly + ly / y, w)
         if has_low:
@@ -319,26 +326,26 @@ def junction_map(v0, loop: Loop, v1_guess=None):
     R, th, i_s = loop.r, loop.n_vt, loop.i_s
     able = np.asarray(loop.v_src) > 0
     shape = np.broadcast(v0, dt, loop.v_src, c, R, i_load, g_load, th, i_s).shape
-    v0 = np.broadcast_to(v0, shape)
+    v0 = _bcast(v0, shape)
     # cut-off intervals
     rate_off, _ = _off_params(i_load, g_load, c)
     v1_off = _off_value(v0, dt, i_load, g_load, c)
-    s_off = np.broadcast_to(np.exp(-rate_off * dt), shape)
+    s_off = _bcast(np.exp(-rate_off * dt), shape)
     v1 = np.array(v1_off, dtype=float)
     slope = np.array(s_off, dtype=float)
-    if np.any(able):
+    if able.any():
         # one subset copy per kind of interval (conducting-capable, without / with a conductance load)
-        ab = np.broadcast_to(able, shape)
-        loaded = np.broadcast_to(np.asarray(g_load) > 0, shape)
+        ab = _bcast(able, shape)
+        loaded = _bcast(np.asarray(g_load) > 0, shape)
         for sel, solve in ((ab & ~loaded, _junction_on), (ab & loaded, _junction_g_on)):
-            if not np.any(sel):
+            if not sel.any():
                 continue
-            sub = Loop(**{k: np.broadcast_to(getattr(loop, k), shape)[sel] for k in
+            sub = Loop(**{k: _bcast(getattr(loop, k), shape)[sel] for k in
                           ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
                        diode="junction")
             if solve is _junction_on:
                 v1[sel], slope[sel] = solve(v0[sel], sub, None if v1_guess is None
-                                            else np.broadcast_to(v1_guess, shape)[sel])
+                                            else _bcast(v1_guess, shape)[sel])
             else:
                 v1[sel], slope[sel] = solve(v0[sel], sub)
     return v1, slope
@@ -371,7 +378,7 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
     else:
         yg = _y_of_v(v1_guess, loop)
         wg = wright_omega(yg)
-    if np.any(up):
+    if up.any():
         wi, ww, tt = w_i[up], w0[up], tau[up]
         s0 = np.log(ww - wi)
         target = np.log1p(-wi / ww) / wi + s0 - tt
@@ -396,7 +403,7 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
         slope_up = np.exp(s - s0)
         slope = np.where(up, 0.0, slope)
         slope[up] = slope_up
-    if np.any(dn):
+    if dn.any():
         wi, ww, tt = w_i[dn], w0[dn], tau[dn]
         l0 = lam0[dn]
         d0 = wi - ww
@@ -439,14 +446,14 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
     """
     lo = np.array(lo, dtype=float)  # own copies, updated in place
     hi = np.array(hi, dtype=float)
-    inactive = ~np.broadcast_to(active, np.shape(x))
-    all_active = not np.any(inactive)
+    inactive = ~_bcast(active, np.shape(x))
+    all_active = not inactive.any()
     prev = np.zeros(np.shape(x))
     for _ in range(iters):
         with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
             f, df = fun(x)
         bad = ~(np.isfinite(f) & np.isfinite(df))
-        any_bad = bool(np.any(bad))
+        any_bad = bool(bad.any())
         if any_bad:
             f = np.where(bad, 1.0, f)
             df = np.where(bad, 1.0, df)
@@ -456,7 +463,7 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
         out = ~((x_new >= lo) & (x_new <= hi))
         if any_bad:
             out |= bad
-        if np.any(out):
+        if out.any():
             x_new = np.where(out, 0.5 * (lo + hi), x_new)
         step = np.abs(x_new - x)
         x = x_new if all_active else np.where(inactive, x, x_new)
@@ -464,7 +471,7 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
         done |= f == 0
         if not all_active:
             done |= inactive
-        if np.all(done):
+        if done.all():
             break
         prev = step
     return x
@@ -742,9 +749,22 @@ def _fixed_point(s, b, q, v_init):
 def _newton_orbit(loop: Loop, v0, v_init, tol):
     """Newton multiple shooting from the start values ``v0`` (rows of a 2-D block).
 
-    Each pass re-linearises only the intervals whose start value moved by more
-    than the tolerance since their last linearisation (the others keep their
-    tangent, which is exact to that tolerance), then composes all maps again.
+    Each pass re-linearises only the intervals whose tangent may be off by more
+    than a share of the tolerance at the new start value, then composes all
+    maps again. Straight-line diode: an interval is re-linearised where its
+    start value moved by more than the tolerance (its maps are affine or have
+    kinks). Junction diode (smooth maps): the tangent's error at a start value
+    ``δ`` away from the linearisation point is ``½·|V1''|·δ²``; the curvature
+    is measured per interval from the previous re-linearisation (the tangent's
+    observed miss divided by ``δ²``, an overestimate where rounding dominates),
+    and an interval is re-linearised while that predicted miss exceeds
+    ``tol·(1 + |V|)·(1 − S)/(10·n)`` (``n`` intervals, ``S`` the product of
+    the slopes of a periodic row, 0 for a trajectory). The trajectory's error
+    is the misses propagated through slopes no larger than one, so the
+    misses together stay below a tenth of the tolerance (Deuflhard, *Newton
+    Methods for Nonlinear Problems*, Springer 2004, §1.2: error estimates from
+    the observed contraction). Intervals never re-linearised yet keep the plain
+    ``δ ≤ tol`` rule.
     """
     q = loop.q_step / loop.c
     linear = loop.diode == "linear"
@@ -755,12 +775,22 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
         v1, s, reg = linear_map(v0, loop)
     else:
         v1, s = junction_map(v0, loop)
+        curv = np.full(v0.shape, np.inf)  # |V1''|/2 estimates, unknown at first
+        n_iv = v0.shape[-1]
     for passes in range(1, _MAX_PASSES + 1):
         u = _fixed_point(s, v1 - s * v_lin, q, v_init)
         v0 = u - q
-        moved = ~(np.abs(v0 - v_lin) <= tol * (1.0 + np.abs(v0)))
+        step = np.abs(v0 - v_lin)
+        tol_v = tol * (1.0 + np.abs(v0))
+        moved = ~(step <= tol_v)
+        if not linear and moved.any():
+            share = 0.1 / n_iv
+            if v_init is None:  # periodic rows: a miss is amplified by 1/(1 − S)
+                share = share * np.clip(1.0 - np.prod(s, axis=-1, keepdims=True), 0.0, 1.0)
+            with np.errstate(invalid="ignore"):  # inf·0 where a never-linearised interval did not move
+                moved &= ~(curv * step * step <= share * tol_v)
         moved &= np.isfinite(v0)
-        if not np.any(moved):
+        if not moved.any():
             converged = True
             break
         sub = _take(loop, moved)
@@ -768,8 +798,12 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
             v1_m, s_m, reg_m = linear_map(v0[moved], sub)
             reg[moved] = reg_m
         else:  # seeded with the tangent prediction of the previous pass
-            guess = v1[moved] + s[moved] * (v0[moved] - v_lin[moved])
+            dv = v0[moved] - v_lin[moved]
+            guess = v1[moved] + s[moved] * dv
             v1_m, s_m = junction_map(v0[moved], sub, guess)
+            with np.errstate(divide="ignore", invalid="ignore"):
+                c_m = np.abs(v1_m - guess) / (dv * dv)
+            curv[moved] = np.where(np.isfinite(c_m), c_m, np.inf)
         v1[moved] = v1_m
         s[moved] = s_m
         v_lin[moved] = v0[moved]

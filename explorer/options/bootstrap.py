@@ -333,7 +333,8 @@ class StartupSolution:
 
 
 def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
-            circ: BootstrapCircuit | None = None, n_cycles: int | None = None) -> StartupSolution:
+            circ: BootstrapCircuit | None = None, n_cycles: int | None = None,
+            steady: SteadyState | None = None) -> StartupSolution:
     """Start-up from 0 V through :func:`~explorer.schedule.startup_schedule`.
 
     HS pulses are withheld (SW stays at ``v_sw_low``) while the driver is in
@@ -353,7 +354,9 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     thresholds, the rest of the trajectory is that orbit repeated. Every
     interval map is a contraction (slope in (0, 1]), so the distance to the
     orbit never grows and the result equals the interval-by-interval solution
-    to the same tolerance (checked in the tests).
+    to the same tolerance (checked in the tests). ``steady`` (optional, the
+    :func:`steady_state` of the same circuit) is used for that orbit where its
+    interval loop is the tail pattern's, rotated.
     """
     circ = circ or bootstrap_circuit(design, option, corner)
     s = startup_schedule(design, n_cycles=n_cycles)
@@ -419,7 +422,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
             j1, L = tail
             p_b = j1 + ((p_new - j1) // L) * L  # last pattern boundary reached
             if enabled not in tail_orbits:
-                tail_orbits[enabled] = _tail_orbit(circ, s, j1, L, enabled, drv)
+                tail_orbits[enabled] = _tail_orbit(circ, s, j1, L, enabled, drv, steady)
             orb_t = tail_orbits[enabled]
             u0 = orb_t.v_pre[0] if orb_t is not None else np.nan
             v_b = v_end[p_b - 1]
@@ -473,17 +476,21 @@ def _periodic_tail(s: Schedule) -> tuple[int, int] | None:
     return j1, L
 
 
-def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: bool, drv) -> OrbitSolution | None:
+def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: bool, drv,
+                steady: SteadyState | None = None) -> OrbitSolution | None:
     """Periodic orbit of the tail pattern at a held UVLO state, or None where the state would not hold.
 
     The orbit must keep the UVLO state with a margin of twice the start-up
     tolerance: enabled, no boundary value below UVLO-off; disabled, no end value
-    at UVLO-on.
+    at UVLO-on. Taken from ``steady`` where its loop equals the pattern's up to a rotation.
     """
     k = slice(j1, j1 + L)
     hs = s.hs_on[k] & enabled
     vsw = np.where(s.hs_on[k] & ~hs, circ.v_sw_low, s.v_sw[k])
-    orb = _solve_orbit(_bc(schedule_loop(circ, s.dt[k], vsw, hs, periodic=True)))
+    loop = _bc(schedule_loop(circ, s.dt[k], vsw, hs, periodic=True))
+    orb = _rotated_orbit(loop, steady) if steady is not None else None
+    if orb is None:
+        orb = _solve_orbit(loop)
     vals = np.concatenate((orb.v_start, orb.v_end))
     if not (orb.converged and np.all(np.isfinite(vals))):
         return None
@@ -493,6 +500,21 @@ def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: b
     else:
         ok = np.all(orb.v_end < drv.uvlo_on - m[L:])
     return orb if ok else None
+
+
+def _rotated_orbit(loop: Loop, steady: SteadyState) -> OrbitSolution | None:
+    """``steady``'s orbit rotated onto ``loop`` where their interval loops agree exactly (else None)."""
+    ref = _bc(steady.loop)
+    L = loop.dt.shape[-1]
+    if ref.dt.shape != loop.dt.shape or ref.diode != loop.diode:
+        return None
+    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
+    for r in range(L):
+        if all(np.array_equal(np.roll(getattr(ref, k), -r), getattr(loop, k)) for k in names):
+            o = steady.orbit
+            return dataclasses.replace(o, v_pre=np.roll(o.v_pre, -r), v_start=np.roll(o.v_start, -r),
+                                       v_end=np.roll(o.v_end, -r))
+    return None
 
 
 def _predict_enabled(state, cycle, p, q_end, enabled):
@@ -1023,7 +1045,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     extra["newton_passes_steady"] = orb.passes
 
     # ---- start-up
-    su = startup(design, option, corner, circ)
+    su = startup(design, option, corner, circ, steady=ss)
     s2 = su.schedule
     i_peak_su = float(su.i_start.max(initial=0.0))
     first_live = np.flatnonzero(su.i_start > 0)
