@@ -77,6 +77,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from scipy.special import wrightomega as _sp_wrightomega
+
 from .affine import affine_scan
 
 __all__ = ["wright_omega", "Loop", "OrbitSolution", "affine_scan", "linear_map", "junction_map", "junction_current",
@@ -236,6 +238,10 @@ def linear_map(v0, loop: Loop):
 
 # --------------------------------------------------------------------------- junction diode
 
+#: Array size from which :func:`wright_omega` uses its own vectorised iteration instead of scipy's ufunc.
+_OMEGA_OWN = 2048
+
+
 def wright_omega(y):
     """Wright omega function ω(y), the solution w of w + ln w = y, for real y.
 
@@ -244,10 +250,13 @@ def wright_omega(y):
     doi:10.1145/2168773.2168779) and two steps of the fourth-order iteration
     of Fritsch, Shafer & Crowley (*Commun. ACM* 16(2), 1973,
     doi:10.1145/361952.361970); agrees with :func:`scipy.special.wrightomega`
-    to a few ulp (tested) and is faster, which matters inside the start-up
-    iteration.
+    to a few ulp (tested) and is faster on large arrays, which matters inside
+    the start-up iteration; below :data:`_OMEGA_OWN` values scipy's ufunc is
+    faster (no per-call overhead) and is used instead.
     """
     y = np.asarray(y, dtype=float)
+    if y.size < _OMEGA_OWN:
+        return _sp_wrightomega(y)
     with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
         low = y <= -2.0
         high = ~(y <= 3.0)
@@ -835,9 +844,14 @@ def _take(loop: Loop, idx) -> Loop:
     return Loop(**{k: getattr(loop, k)[idx] for k in names}, diode=loop.diode)
 
 
-def _solve_block(loop: Loop, v_init, tol):
-    """Solve a 2-D block (rows × intervals)."""
+def _solve_block(loop: Loop, v_init, tol, v_guess=None):
+    """Solve a 2-D block (rows × intervals); ``v_guess`` (junction only) seeds Newton where it is finite."""
     q = loop.q_step / loop.c
+    if v_init is not None and loop.dt.shape[-1] == 1:  # one interval from a known start: one exact map
+        u = np.asarray(v_init, dtype=float).reshape(-1, 1)
+        v0 = u - q
+        v1, _ = interval_map(v0, loop)
+        return u, v0, v1, 1, True
     if loop.diode == "linear":
         a, b, able, v_inf = _affine_maps(loop)
         u = _fixed_point(a, b, q, v_init)
@@ -861,8 +875,14 @@ def _solve_block(loop: Loop, v_init, tol):
             a_end[rows] = v1_s
         v1 = a_end
         return u, v0, v1, passes, converged
-    su, sv0, _, _, _ = _solve_block(_surrogate(loop), v_init, tol)
-    sv0 = np.where(np.isfinite(sv0), sv0, _initial_guess(loop))
+    seeded = None if v_guess is None else np.isfinite(v_guess).all(axis=-1)
+    if seeded is not None and seeded.all():
+        sv0 = np.array(v_guess, dtype=float)
+    else:
+        sv0 = _solve_block(_surrogate(loop), v_init, tol)[1]
+        sv0 = np.where(np.isfinite(sv0), sv0, _initial_guess(loop))
+        if seeded is not None:
+            sv0[seeded] = v_guess[seeded]
     u, v0, v1, passes, converged = _newton_orbit(loop, sv0, v_init, tol)
     return u, v0, v1, passes, converged
 
@@ -871,8 +891,14 @@ def _solve_block(loop: Loop, v_init, tol):
 _BLOCK_ROWS = 8192
 
 
-def _solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13) -> OrbitSolution:
-    """Periodic orbit (``v_init`` None) or trajectory from ``v_init``, for any batch shape."""
+def _solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) -> OrbitSolution:
+    """Periodic orbit (``v_init`` None) or trajectory from ``v_init``, for any batch shape.
+
+    ``v_guess`` (optional, shaped like ``loop.dt``): a starting trajectory of the
+    post-step start values for the junction diode's Newton iteration (rows
+    with a non-finite entry start from the straight-line surrogate instead).
+    It changes only the work, not the answer (within the tolerance).
+    """
     shape = loop.dt.shape
     n = shape[-1]
     rows = int(np.prod(shape[:-1], dtype=np.int64))
@@ -887,7 +913,8 @@ def _solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13) -> OrbitSolutio
     for r0 in range(0, rows, _BLOCK_ROWS):
         sl = slice(r0, min(rows, r0 + _BLOCK_ROWS))
         blk = _take(flat, sl)
-        u[sl], v0[sl], v1[sl], p, ok = _solve_block(blk, None if vi is None else vi[sl], tol)
+        vg = None if v_guess is None or loop.diode == "linear" else np.reshape(v_guess, (rows, n))[sl]
+        u[sl], v0[sl], v1[sl], p, ok = _solve_block(blk, None if vi is None else vi[sl], tol, vg)
         passes = max(passes, p)
         converged &= ok
     v_min = v1[:, -1].copy()
@@ -906,7 +933,7 @@ def _solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13) -> OrbitSolutio
 
 
 def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
-                diode: str = "linear", i_s=1e-14, n_vt=0.025) -> OrbitSolution:
+                diode: str = "linear", i_s=1e-14, n_vt=0.025, v_guess=None) -> OrbitSolution:
     """Periodic steady state of the bootstrap rail for a batch of schedules.
 
     All arrays broadcast against ``dt`` shaped ``(..., n)`` (``n`` intervals of
@@ -936,6 +963,10 @@ def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
     diode : {"linear", "junction"}
     i_s, n_vt : array_like [A], [V]
         Junction saturation current and n·V_T.
+    v_guess : array_like [V], optional
+        Starting values of the post-step interval starts (junction diode only;
+        e.g. the orbit of a nearby design). Speeds up the iteration; the answer
+        is the same within the tolerance.
 
     Returns
     -------
@@ -960,7 +991,9 @@ def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
     """
     loop = _broadcast_loop(Loop(dt=dt, v_src=v_src, c=c, r=r, i_load=i_load, g_load=g_load,
                                 q_step=q_step, v_f=v_f, i_s=i_s, n_vt=n_vt, diode=diode))
-    return _solve_orbit(loop)
+    if v_guess is not None:
+        v_guess = np.broadcast_to(np.asarray(v_guess, dtype=float), loop.dt.shape)
+    return _solve_orbit(loop, v_guess=v_guess)
 
 
 def propagate(loop: Loop, v_init, *, tol: float = 1e-13) -> OrbitSolution:

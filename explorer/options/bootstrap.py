@@ -374,7 +374,8 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     t_uvlo = None
     k_uvlo = None
     segments = 0
-    window = 256
+    restarts = 0
+    window = 1  # the first intervals one at a time (exact maps) while the driver is held in UVLO
     tail = _periodic_tail(s)
     check = None if tail is None else tail[0] + _SETTLE_PATTERNS * tail[1]  # next settle check
     tail_orbits: dict[bool, OrbitSolution | None] = {}
@@ -440,8 +441,11 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
             check = j1 + 2 * (check - j1)
         # a wrong guess costs the rest of the window: restart short, grow while the guesses hold
         if bad.size:
+            restarts += 1
             # after the first restart with a held state the rest usually goes in one piece
-            window = n if (enabled and t_uvlo is not None and segments <= 2) else max(256, 2 * stop)
+            window = n if (enabled and t_uvlo is not None and restarts == 1) else max(256, 2 * stop)
+        elif window == 1:  # the sequential head: on to the rest in one piece once UVLO-on is reached
+            window = n if enabled else (1 if p_new < _HEAD else 256)
         else:
             window *= 4
         p += stop
@@ -451,6 +455,9 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments, k_settled)
 
 
+#: Intervals stepped one at a time at the start while the driver waits for UVLO-on (a pre-charge
+#: pulse or the first low-side intervals usually get there; the windowed solve takes over after).
+_HEAD = 8
 #: Pattern repeats solved past the start of a periodic schedule tail before the first settle check.
 _SETTLE_PATTERNS = 64
 
@@ -611,7 +618,7 @@ def _period(design: Design) -> float:
 
 
 def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner: str = "nominal",
-                 circ: BootstrapCircuit | None = None, full: bool = False):
+                 circ: BootstrapCircuit | None = None, full: bool = False, v_guess=None):
     """Steady-state rail minimum over a grid of switching frequency × HS duty [V].
 
     Each point is one switching period ``[HS duty·T][dead][LS][dead]`` with the
@@ -627,6 +634,10 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         HS on-time share of the period, 0…1; broadcasts with ``f_sw``.
     full : bool
         Return the whole :class:`OrbitSolution` instead of the minimum.
+    v_guess : array_like [V], optional
+        Starting trajectory shaped ``broadcast(f_sw, duty) + (4,)`` (the
+        ``v_start`` of a nearby map); speeds up the junction diode's iteration
+        without changing the answer beyond its tolerance.
 
     Returns
     -------
@@ -652,6 +663,7 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
     n_pts = f_flat.size
     out = np.empty(n_pts)
     parts = []
+    g_flat = None if v_guess is None else np.reshape(np.asarray(v_guess, dtype=float), (n_pts, -1))
     for a in range(0, max(n_pts, 1), _MAP_BLOCK):  # blocks keep the temporaries in cache
         T = 1.0 / f_flat[a:a + _MAP_BLOCK, None]
         t_hs = h_flat[a:a + _MAP_BLOCK, None] * T
@@ -659,7 +671,7 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         loop = schedule_loop(circ, dt, v, hs, periodic=True)
         orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
                           g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
-                          n_vt=loop.n_vt)
+                          n_vt=loop.n_vt, v_guess=None if g_flat is None else g_flat[a:a + _MAP_BLOCK])
         out[a:a + _MAP_BLOCK] = orb.v_min
         if full:
             parts.append(orb)
@@ -683,7 +695,8 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
     f = design.bridge.f_line if design.bridge.topology == "line_leg" else design.bridge.f_sw
     th = np.asarray(thresholds, dtype=float)
     grid = np.linspace(h_lo, h_hi, DUTY_GRID + 1)
-    vm = rail_min_map(design, None, f, grid, circ=circ)
+    coarse = rail_min_map(design, None, f, grid, circ=circ, full=True)
+    vm = np.where(coarse.v_min < 0.0, 0.0, coarse.v_min)  # as rail_min_map reports a collapsed rail
     vm = np.where(np.isfinite(vm), vm, -np.inf)
     out: list = [None] * th.size
     lo = np.zeros(th.size)
@@ -702,7 +715,11 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
         # interpolation of the (smooth) minimum inside the final bracket
         idx = np.array(open_)
         g = np.linspace(lo[idx], hi[idx], 33, axis=-1)
-        m = rail_min_map(design, None, f, g, circ=circ)
+        # start each refined orbit from the coarse orbits on either side, interpolated in duty
+        j_hi = np.rint((hi[idx] - h_lo) / (grid[1] - grid[0])).astype(int)
+        frac = np.linspace(0.0, 1.0, 33)[None, :, None]
+        guess = (coarse.v_start[j_hi - 1][:, None, :] * (1.0 - frac) + coarse.v_start[j_hi][:, None, :] * frac)
+        m = rail_min_map(design, None, f, g, circ=circ, v_guess=guess)
         m = np.where(np.isfinite(m), m, -np.inf)
         okg = m >= th[idx, None]
         j = np.where(okg.all(axis=-1), 32, np.argmax(~okg, axis=-1))
