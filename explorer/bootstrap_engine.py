@@ -352,11 +352,7 @@ def junction_map(v0, loop: Loop, v1_guess=None):
             sub = Loop(**{k: _bcast(getattr(loop, k), shape)[sel] for k in
                           ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
                        diode="junction")
-            if solve is _junction_on:
-                v1[sel], slope[sel] = solve(v0[sel], sub, None if v1_guess is None
-                                            else _bcast(v1_guess, shape)[sel])
-            else:
-                v1[sel], slope[sel] = solve(v0[sel], sub)
+            v1[sel], slope[sel] = solve(v0[sel], sub, None if v1_guess is None else _bcast(v1_guess, shape)[sel])
     return v1, slope
 
 
@@ -397,14 +393,19 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
                 s_g = np.log(np.abs(1.0 / q1 - wi))
             else:
                 s_g = np.log(wg[up] - wi)
-        lo, hi = s0 - tt, s0.copy()  # Φ'(s) = (w + 1)/w ≥ 1
+        # 1 ≤ Φ'(s) = (w + 1)/w ≤ (1 + w_I)/w_I for w > w_I, so s0 − Δτ ≤ s1 ≤ s0 − Δτ·w_I/(1 + w_I)
         s_lin = s0 - tt * wi / (1.0 + wi)
+        lo, hi = s0 - tt, s_lin
         s = np.where(np.isfinite(s_g) & (s_g > lo) & (s_g < hi), s_g, s_lin)
         s = np.clip(s, lo, hi)
 
+        ln_wi = np.log(wi)
+
         def f_up(x):
+            # ln(1 − w_I/w) = −ln(1 + w_I·e^(−x)) as logaddexp: accurate for small w_I/w and finite
+            # where w − w_I is below the rounding of w (a settled interval), so Newton keeps its steps
             w = wi + np.exp(x)
-            return np.log1p(-wi / w) / wi + x - target, (w + 1.0) / w
+            return -np.logaddexp(0.0, ln_wi - x) / wi + x - target, (w + 1.0) / w
 
         s = _bracketed_newton(f_up, s, lo, hi, tt > 0)
         w1[up] = wi + np.exp(s)
@@ -416,16 +417,14 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
         wi, ww, tt = w_i[dn], w0[dn], tau[dn]
         l0 = lam0[dn]
         d0 = wi - ww
-        target = (np.log(d0) - l0) / wi + np.log(d0) - tt
-        lo = l0.copy()
-        hi = np.minimum(np.log(wi), l0 + tt * wi)  # |Φ'(λ)| = (w + 1)/(w_I − w) ≥ 1/w_I
-        lam = l0 + tt * wi / (1.0 + wi)
+        u0 = np.log(d0)
+        target = (u0 - l0) / wi + u0 - tt
+        lam_half = np.log(0.5 * wi)
+        lam_g = None
         if wg is not None:
-            lg = (np.broadcast_to(yg, w0.shape) - np.broadcast_to(wg, w0.shape))[dn]  # _lam_of_v of the guess
-            lam = np.where(np.isfinite(lg) & (lg >= lo) & (lg <= hi), lg, lam)
-        lam = np.clip(lam, lo, hi)
+            lam_g = (np.broadcast_to(yg, w0.shape) - np.broadcast_to(wg, w0.shape))[dn]  # _lam_of_v of the guess
 
-        def f_dn(x):
+        def f_dn(x, wi=wi, target=target):
             w = np.exp(x)
             d = wi - w
             with np.errstate(divide="ignore", invalid="ignore"):
@@ -433,31 +432,75 @@ def _junction_on(v0, loop: Loop, v1_guess=None):
             # Φ decreases with λ: return −Φ so the bracketed solver sees an increasing function
             return -val, (w + 1.0) / d
 
-        lam = _bracketed_newton(f_dn, lam, lo, hi, tt > 0)
+        # Where the end lies below w_I/2 solve in λ (d = w_I − w is then at least w_I/2, no cancellation);
+        # above it in u = ln(w_I − w), with λ = ln w_I + ln(1 − e^u/w_I): near the equilibrium λ no longer
+        # resolves d, but u does, down to a settled interval (d far below the rounding of w_I)
+        with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
+            near = (l0 >= lam_half) | (f_dn(lam_half)[0] <= 0)
+        lam = np.empty(ww.shape)
+        sl = np.empty(ww.shape)
+        far = ~near
+        if far.any():
+            lo = l0[far]
+            hi = np.minimum(lam_half[far], l0[far] + tt[far] * wi[far])  # |Φ'(λ)| = (w + 1)/(w_I − w) ≥ 1/w_I
+            x = l0[far] + tt[far] * wi[far] / (1.0 + wi[far])
+            if lam_g is not None:
+                g = lam_g[far]
+                x = np.where(np.isfinite(g) & (g >= lo) & (g <= hi), g, x)
+            x = _bracketed_newton(lambda z: f_dn(z, wi[far], target[far]), np.clip(x, lo, hi), lo, hi, tt[far] > 0)
+            lam[far] = x
+            sl[far] = (wi[far] - np.exp(x)) / d0[far]
+        if near.any():
+            wn, un, tn, wwn = wi[near], u0[near], tt[near], ww[near]
+            # (1 + w_I)/w_I ≤ dΦ/du = (1 + w)/w ≤ (1 + w0)/w0 while w rises from w0 to w_I
+            lo = un - tn * wn / (1.0 + wn)
+            hi = np.minimum(un - tn * np.minimum(wwn, wn) / (1.0 + np.minimum(wwn, wn)), np.log(0.5 * wn))
+            lo = np.minimum(lo, hi)
+            x = un - tn * wn / (1.0 + wn)
+            if lam_g is not None:
+                with np.errstate(invalid="ignore", divide="ignore"):
+                    g = np.log(wn - np.exp(lam_g[near]))
+                x = np.where(np.isfinite(g) & (g >= lo) & (g <= hi), g, x)
+            tg = target[near]
+            ln_wn = np.log(wn)
+
+            def f_u(z):
+                e = np.exp(z)
+                lam_z = ln_wn + np.log1p(-e / wn)
+                return (z - lam_z) / wn + z - tg, (wn - e + 1.0) / (wn - e)
+
+            x = _bracketed_newton(f_u, np.clip(x, lo, hi), lo, hi, tn > 0)
+            lam[near] = ln_wn + np.log1p(-np.exp(x) / wn)
+            sl[near] = np.exp(x - un)
+        lam = np.where(tt > 0, lam, l0)
         w1[dn] = np.exp(lam)
         lam1[dn] = lam
-        sl = (wi - w1[dn]) / d0
         slope = np.array(np.broadcast_to(slope, w0.shape), dtype=float)
-        slope[dn] = sl
+        slope[dn] = np.where(tt > 0, sl, 1.0)
     k_v = loop.v_src + i_s * R + th * np.log(i_s * R / th)
     v1 = np.where(tau > 0, k_v - th * (lam1 + w1), v0)   # _v_of_w in terms of λ
     v1 = np.where(w0 == w_i, v0, v1)
     return v1, np.broadcast_to(slope, w0.shape)
 
 
-def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
+def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60, bracket_tol: float = 1e-15):
     """Newton's method for an increasing ``fun`` (returning value and derivative), kept in [lo, hi].
 
-    Stops where the step falls below 1e-14 relative and no longer grows. A tiny step alone is not
-    enough: next to a logarithmic singularity at a bracket end (Φ at the equilibrium current) the
-    derivative is huge and the first steps are tiny although the root is far away; there the steps
-    grow geometrically while the iterate creeps off the singularity.
+    Stops where the step falls below 1e-14 relative and no longer grows, or where the bracket has
+    shrunk below ``bracket_tol`` relative (a few ulp; wider for a ``fun`` with quadrature noise,
+    whose iterates would otherwise wander inside the noise band until ``iters``). A tiny step alone is not enough: next to a logarithmic singularity at a
+    bracket end (Φ at the equilibrium current) the derivative is huge and the first steps are tiny
+    although the root is far away; there the steps grow geometrically while the iterate creeps off
+    the singularity. A Newton step that leaves the bracket goes to the bracket end it crossed if
+    that end (an a-priori bound) has not been evaluated yet, else to the midpoint: a root at the
+    bound itself, within rounding, is then found at once instead of by halving.
     """
     lo = np.array(lo, dtype=float)  # own copies, updated in place
     hi = np.array(hi, dtype=float)
     inactive = ~_bcast(active, np.shape(x))
     all_active = not inactive.any()
     prev = np.zeros(np.shape(x))
+    lo_seen = hi_seen = None  # bracket ends evaluated (or tried), made on the first step out
     for _ in range(iters):
         with np.errstate(invalid="ignore", over="ignore", divide="ignore"):
             f, df = fun(x)
@@ -473,11 +516,21 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60):
         if any_bad:
             out |= bad
         if out.any():
-            x_new = np.where(out, 0.5 * (lo + hi), x_new)
+            if hi_seen is None:
+                hi_seen = np.zeros(np.shape(x), dtype=bool)
+                lo_seen = np.zeros(np.shape(x), dtype=bool)
+            hi_seen |= f > 0
+            lo_seen |= f < 0
+            to_hi = out & ~bad & (x_new > hi) & ~hi_seen
+            to_lo = out & ~bad & (x_new < lo) & ~lo_seen
+            x_new = np.where(to_hi, hi, np.where(to_lo, lo, np.where(out, 0.5 * (lo + hi), x_new)))
+            hi_seen |= to_hi
+            lo_seen |= to_lo
         step = np.abs(x_new - x)
         x = x_new if all_active else np.where(inactive, x, x_new)
-        done = (step <= 1e-14 * np.maximum(1.0, np.abs(x))) & (step <= prev)
-        done |= f == 0
+        scale = np.maximum(1.0, np.abs(x))
+        done = (step <= 1e-14 * scale) & (step <= prev)
+        done |= (f == 0) | (hi - lo <= bracket_tol * scale)  # root bracketed to rounding
         if not all_active:
             done |= inactive
         if done.all():
@@ -585,8 +638,12 @@ class _JunctionG:
         h = self.h_d(d)
         return self.C * self.th * (1.0 + np.exp(self.lam_e + d)) * np.abs(d) / np.abs(h)
 
-    def solve(self, v0, dt):
-        """End state of each interval: σ1, sign, whether it reached the equilibrium within rounding."""
+    def solve(self, v0, dt, v1_guess=None):
+        """End state of each interval: σ1, sign, whether it reached the equilibrium within rounding.
+
+        ``v1_guess`` (optional) seeds the Newton iteration where it lies on the
+        start's side of the equilibrium and inside the bracket.
+        """
         lam0 = self.lam_of_v(v0)
         diff = lam0 - self.lam_e
         sign = np.where(diff >= 0, 1.0, -1.0)
@@ -607,13 +664,21 @@ class _JunctionG:
             lo = np.full(ia.shape, floor[ia])
             hi = s0.copy()
             guess = s0 - tt / np.maximum(sub.q_at(s0, sg), 1e-300)
+            if v1_guess is not None:
+                d_g = sub.lam_of_v(np.asarray(v1_guess)[ia]) - sub.lam_e
+                with np.errstate(divide="ignore", invalid="ignore"):
+                    s_g = np.log(np.abs(d_g))
+                use = (d_g * sg > 0) & (s_g > lo) & (s_g < hi)
+                guess = np.where(use, s_g, guess)
             guess = np.clip(guess, lo, hi)
 
             def fun(z):
                 return tt - sub.elapsed(s0, z, sg), sub.q_at(z, sg)
 
             # elapsed(z) falls as z rises: tt − elapsed is increasing in z
-            x[ia] = _bracketed_newton(fun, guess, lo, hi, np.ones(ia.shape, dtype=bool), iters=60)
+            # the quadrature's rounding noise is ~1e-14 of σ: a bracket that narrow is the root
+            x[ia] = _bracketed_newton(fun, guess, lo, hi, np.ones(ia.shape, dtype=bool), iters=60,
+                                      bracket_tol=1e-13)
         x = np.where(dt > 0, x, sig0)
         return sig0, x, sign, settles & (dt > 0)
 
@@ -625,10 +690,10 @@ def _take_g(jg: _JunctionG, idx) -> _JunctionG:
     return out
 
 
-def _junction_g_on(v0, loop: Loop):
+def _junction_g_on(v0, loop: Loop, v1_guess=None):
     """:func:`junction_map` for conducting-capable intervals with a conductance load (1-D arrays)."""
     jg = _JunctionG(loop)
-    sig0, sig1, sign, _ = jg.solve(v0, loop.dt)
+    sig0, sig1, sign, _ = jg.solve(v0, loop.dt, v1_guess)
     lam1 = jg.lam_e + sign * np.exp(sig1)
     v1 = np.where(loop.dt > 0, jg.v(lam1), v0)
     h0 = jg.h_d(sign * np.exp(sig0))
