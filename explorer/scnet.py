@@ -210,6 +210,16 @@ def _phi(x: np.ndarray, second: bool = True) -> tuple[np.ndarray, np.ndarray | N
     return f1, f2
 
 
+def _phi1(x: np.ndarray) -> np.ndarray:
+    """(e^x − 1)/x, 1 at x = 0 (expm1 keeps full relative accuracy for small x, so only x = 0 is special)."""
+    x = np.asarray(x, dtype=float)
+    zero = x == 0.0
+    if zero.any():
+        xs = np.where(zero, 1.0, x)
+        return np.where(zero, 1.0, np.expm1(xs) / xs)
+    return np.expm1(x) / x
+
+
 def _exp_sum_roots(b: np.ndarray, lam: np.ndarray, T: np.ndarray) -> np.ndarray:
     """Real roots in (0, T) of f(t) = Σ_i b_i·e^{λ_i t} (n terms), shape (..., n − 1), NaN where absent.
 
@@ -226,6 +236,15 @@ def _exp_sum_roots(b: np.ndarray, lam: np.ndarray, T: np.ndarray) -> np.ndarray:
     shape = np.broadcast_shapes(b.shape[:-1], lam.shape[:-1], np.shape(T))
     if n <= 1:
         return np.full(shape + (0,), np.nan)
+    if n == 2:  # the closed form, with the larger exponent first (as sorted below) without a sort
+        swap = lam[..., 1] > lam[..., 0]
+        l_hi, l_lo = np.where(swap, lam[..., 1], lam[..., 0]), np.where(swap, lam[..., 0], lam[..., 1])
+        b_hi, b_lo = np.where(swap, b[..., 1], b[..., 0]), np.where(swap, b[..., 0], b[..., 1])
+        mu = l_lo - l_hi
+        with np.errstate(divide="ignore", invalid="ignore"):
+            t = np.log(-b_hi / b_lo) / mu
+            ok = (mu < 0) & (t > 0) & (t < T)
+        return np.broadcast_to(np.where(ok, t, np.nan), shape)[..., None]
     order = np.argsort(-lam, axis=-1)
     lam = np.take_along_axis(np.broadcast_to(lam, shape + (n,)), np.broadcast_to(order, shape + (n,)), -1)
     b = np.take_along_axis(np.broadcast_to(b, shape + (n,)), np.broadcast_to(order, shape + (n,)), -1)
@@ -293,6 +312,208 @@ def _modal_maps(modes, nx: int, nu: int, d: np.ndarray) -> tuple[np.ndarray, np.
     return E, S
 
 
+def _all_above(x, lo: float, strict: bool) -> bool:
+    """Whether every value of x is > lo (``strict``) or ≥ lo; plain floats skip numpy."""
+    if type(x) in (float, int):
+        return x > lo if strict else x >= lo
+    a = np.asarray(x)
+    return bool(np.all(a > lo) if strict else np.all(a >= lo))
+
+
+def _stack_values(vals, shape: tuple) -> np.ndarray:
+    """Element values as one array of shape (*shape, len(vals)); plain floats skip numpy's broadcasting."""
+    if shape == ():
+        return np.array([float(v) for v in vals], dtype=float)
+    return np.stack([np.broadcast_to(np.asarray(v, dtype=float), shape) for v in vals], axis=-1)
+
+
+@dataclass(frozen=True)
+class _Stamps:
+    """Value-independent nodal analysis of every phase of one topology (see :func:`_stamps`).
+
+    Y0 (P, n, n) and R0 (P, n, n_z): the MNA matrix without the branch resistances and the
+    right-hand side per phase, padded to one size n with identity rows (``real`` marks the
+    phase's own unknowns); ``res_p``, ``res_row``, ``res_val``: where each branch resistance
+    goes (phase, row) and which element value it is (capacitor ESRs and resistances in element
+    order); ``k_rows`` (P, n_probes): each probe's row in [W; 0; I_{n_z}]; ``cap_rows`` (P, n_x):
+    each capacitor's branch-current row of W.
+    """
+
+    size: int
+    Y0: np.ndarray
+    R0: np.ndarray
+    real: np.ndarray
+    res_p: np.ndarray
+    res_row: np.ndarray
+    res_val: np.ndarray
+    k_rows: np.ndarray
+    cap_rows: np.ndarray
+
+
+_STAMPS: dict = {}
+
+
+def _stamps(topology: tuple) -> _Stamps:
+    """The nodal analysis's structure for a :attr:`Network._topology` (cached: networks of one
+    topology differ only in element values).
+
+    Every capacitor (x in series with its ESR), closed switch or resistor and voltage source
+    has a branch-current unknown, so currents are solved for directly: no 1/R stamps and no
+    (v_a − v_b − x)/ESR differences, which lose digits for small ESR or R. A node group that
+    nothing ties to the reference in a phase gets a zero-current anchor (module notes).
+    """
+    hit = _STAMPS.get(topology)
+    if hit is not None:
+        return hit
+    els, inputs, P = topology
+    seen: dict = {}
+    for _, _, a, b, _, _ in els:
+        for nd in (a, b):
+            if nd != GROUND:
+                seen.setdefault(nd, None)
+    nodes = tuple(seen)
+    idx = {nd: i for i, nd in enumerate(nodes)}
+    nn = len(nodes)
+    caps = [e for e in els if e[0] == "Cap"]
+    nx, nu = len(caps), len(inputs)
+    n_z = nx + nu
+    cap_idx = {e[1]: i for i, e in enumerate(caps)}
+    inp = {nm: i for i, nm in enumerate(inputs)}
+    val_idx = {}
+    for e in els:
+        if e[0] in ("Cap", "Res"):
+            val_idx[e[1]] = len(val_idx)
+    per_phase = []
+    for p in range(P):
+        parent = {nd: nd for nd in nodes + (GROUND,)}
+
+        def find(nd):
+            while parent[nd] != nd:
+                parent[nd] = parent[parent[nd]]
+                nd = parent[nd]
+            return nd
+
+        def union(a, b):
+            parent[find(a)] = find(b)
+
+        branches = []  # (a, b, kind, ref, value index or None)
+        for kind_e, name, a, b, closed, inp_name in els:
+            if kind_e == "Cap":
+                union(a, b)
+                branches.append((a, b, "x", cap_idx[name], val_idx[name]))
+            elif kind_e == "Res":
+                if closed is None or p in closed:
+                    union(a, b)
+                    branches.append((a, b, "r", name, val_idx[name]))
+            elif kind_e == "VSrc":
+                union(a, b)
+                branches.append((a, b, "u", inp[inp_name], None))
+        groups: dict = {}
+        for nd in nodes:
+            groups.setdefault(find(nd), []).append(nd)
+        g_root = find(GROUND)
+        for root, members in groups.items():
+            if root == g_root:
+                continue
+            ms = set(members)
+            for kind_e, name, a, b, _, _ in els:
+                if kind_e == "ISrc" and ((a in ms) != (b in ms)):
+                    raise DesignError(f"network.{name}", f"in phase {p} the current source feeds nodes "
+                                      f"{sorted(ms)} that nothing else connects to the reference")
+            branches.append((members[0], GROUND, "0", 0, None))
+        per_phase.append(branches)
+    n = nn + max((len(br) for br in per_phase), default=0) if nn else 0
+    Y0 = np.zeros((P, n, n))
+    R0 = np.zeros((P, n, n_z))
+    real = np.zeros((P, n), bool)
+    res_p, res_row, res_val = [], [], []
+    names = ([f"v({nd})" for nd in nodes] + [f"i({e[1]})" for e in els] + [f"x({e[1]})" for e in caps])
+    zero_row, unit0 = n, n + 1
+    k_rows = np.full((P, len(names)), zero_row, dtype=np.intp)
+    cap_rows = np.zeros((P, nx), dtype=np.intp)
+    for p, branches in enumerate(per_phase):
+        if not n:
+            break
+        nj = len(branches)
+        real[p, :nn + nj] = True
+        for i in range(nn + nj, n):
+            Y0[p, i, i] = 1.0  # padding: an unknown of its own, solved as 0
+        for kind_e, name, a, b, _, inp_name in els:
+            if kind_e == "ISrc":
+                k = nx + inp[inp_name]
+                if a != GROUND:
+                    R0[p, idx[a], k] -= 1.0
+                if b != GROUND:
+                    R0[p, idx[b], k] += 1.0
+        jrow = {}
+        for j, (a, b, kind, ref, vi) in enumerate(branches):
+            r = nn + j
+            jrow[(kind, ref)] = r
+            if a != GROUND:
+                Y0[p, idx[a], r] += 1.0
+                Y0[p, r, idx[a]] += 1.0
+            if b != GROUND:
+                Y0[p, idx[b], r] -= 1.0
+                Y0[p, r, idx[b]] -= 1.0
+            if vi is not None:  # v_a − v_b − R·i = x (capacitor) or 0
+                res_p.append(p)
+                res_row.append(r)
+                res_val.append(vi)
+            if kind == "x":
+                R0[p, r, ref] = 1.0
+            elif kind == "u":
+                R0[p, r, nx + ref] = 1.0
+        k_rows[p, :nn] = np.arange(nn)
+        for i, (kind_e, name, a, b, closed, inp_name) in enumerate(els):
+            if kind_e == "Res":
+                if closed is None or p in closed:
+                    k_rows[p, nn + i] = jrow[("r", name)]
+            elif kind_e == "Cap":
+                k_rows[p, nn + i] = cap_rows[p, cap_idx[name]] = jrow[("x", cap_idx[name])]
+            elif kind_e == "VSrc":
+                k_rows[p, nn + i] = jrow[("u", inp[inp_name])]
+            else:
+                k_rows[p, nn + i] = unit0 + nx + inp[inp_name]
+        for k in range(nx):
+            k_rows[p, nn + len(els) + k] = unit0 + k
+    out = _Stamps(size=n, Y0=Y0, R0=R0, real=real, res_p=np.array(res_p, np.intp),
+                  res_row=np.array(res_row, np.intp), res_val=np.array(res_val, np.intp), k_rows=k_rows,
+                  cap_rows=cap_rows)
+    for a in (Y0, R0, real, k_rows, cap_rows):
+        a.flags.writeable = False
+    if len(_STAMPS) > 256:
+        _STAMPS.clear()
+    _STAMPS[topology] = out
+    return out
+
+
+def _solve_phases(Y: np.ndarray, R: np.ndarray, real: np.ndarray, cond_max: float, problem: str) -> np.ndarray:
+    """Y⁻¹·R for every phase (axis −3) over leading batch dimensions, in one batched inversion.
+
+    ``real`` (P, n) marks each phase's own unknowns; the rest are identity padding, left out of
+    the 1-norm condition number (of the phase's own block, as :func:`_solve_checked`). Raises
+    DesignError("phase p " + problem) for the first phase whose matrix is singular or whose
+    condition number exceeds ``cond_max``.
+    """
+    try:
+        inv = np.linalg.inv(Y)
+    except np.linalg.LinAlgError:
+        inv = None
+    if inv is not None:
+        m = real[:, None, :]  # (P, 1, n): sum over rows, keep the phase's own columns
+        cond = (np.where(m, np.abs(Y).sum(axis=-2)[..., None, :], 0.0).max(axis=-1)
+                * np.where(m, np.abs(inv).sum(axis=-2)[..., None, :], 0.0).max(axis=-1))[..., 0]  # (..., P)
+        bad = ~(cond <= cond_max)
+    if inv is not None and not bad.any():
+        return inv @ R
+    # some phase is singular or ill-conditioned (or only its padded form is, by rounding): phase by phase
+    W = np.zeros(np.broadcast_shapes(Y.shape[:-2], R.shape[:-2]) + R.shape[-2:])
+    for p in range(Y.shape[-3]):
+        sel = real[p]
+        W[..., p, sel, :] = _solve_checked(Y[..., p, :, :][..., sel, :][..., :, sel], R[p][sel], cond_max,
+                                           f"phase {p} {problem}")
+    return W
+
 @dataclass(frozen=True)
 class Network:
     """A linear switched-capacitor network with a fixed cycle of phases.
@@ -332,9 +553,9 @@ class Network:
         for e in self.elements:
             if e.a == e.b:
                 raise DesignError(f"network.{e.name}", "both terminals on the same node", e.a)
-            if isinstance(e, Cap) and not (np.all(np.asarray(e.c) > 0) and np.all(np.asarray(e.esr) >= 0)):
+            if isinstance(e, Cap) and not (_all_above(e.c, 0.0, True) and _all_above(e.esr, 0.0, False)):
                 raise DesignError(f"network.{e.name}", "expected c > 0 F and esr \u2265 0 \u03a9", (e.c, e.esr))
-            if isinstance(e, Res) and not np.all(np.asarray(e.r) > 0):
+            if isinstance(e, Res) and not _all_above(e.r, 0.0, True):
                 raise DesignError(f"network.{e.name}", "expected r > 0 \u03a9", e.r)
             if isinstance(e, (VSrc, ISrc)) and e.input not in self.inputs:
                 raise DesignError(f"network.{e.name}", f"input not declared; inputs: {self.inputs}", e.input)
@@ -379,7 +600,8 @@ class Network:
     @cached_property
     def systems(self) -> tuple:
         """One :class:`PhaseSystem` per phase."""
-        return tuple(self._phase_system(p) for p in range(self.n_phases))
+        F, K = self._FK
+        return tuple(PhaseSystem(F=F[..., p, :, :], K=K[..., p, :, :]) for p in range(self.n_phases))
 
     def _shape_of(self, resistive_only: bool) -> tuple:
         vals = []
@@ -388,6 +610,8 @@ class Network:
                 vals += [e.esr] if resistive_only else [e.c, e.esr]
             elif isinstance(e, Res):
                 vals.append(e.r)
+        if all(type(v) in (float, int) for v in vals):
+            return ()
         try:
             return np.broadcast_shapes(*(np.shape(v) for v in vals))
         except ValueError:
@@ -406,119 +630,56 @@ class Network:
 
     @cached_property
     def _F(self) -> np.ndarray:
-        return np.stack([s.F for s in self.systems], axis=-3)
+        return self._FK[0]
 
     def stacked(self, rows=None) -> tuple[np.ndarray, np.ndarray]:
         """F of every phase, shape (*batch, P, n_z, n_z), and K's ``rows`` (all if None), (*batch, P, m, n_z)."""
-        K = np.stack([s.K if rows is None else s.K[..., rows, :] for s in self.systems], axis=-3)
-        return self._F, K
+        F, K = self._FK
+        return F, (K if rows is None else K[..., rows, :])
 
-    def _phase_system(self, p: int) -> PhaseSystem:
-        nodes = self.nodes
-        idx = {n: i for i, n in enumerate(nodes)}
-        nn, nx, nu = len(nodes), self.n_x, self.n_u
-        bs = self._g_shape  # Y, W and K do not depend on the capacitances; F broadcasts to the batch
-        cap_idx = {e.name: i for i, e in enumerate(self.caps)}
-        inp = {n: i for i, n in enumerate(self.inputs)}
-        # connectivity for anchoring floating groups
-        parent = {n: n for n in nodes + (GROUND,)}
+    @cached_property
+    def _FK(self) -> tuple[np.ndarray, np.ndarray]:
+        """State matrices F (*batch, P, n_z, n_z) and probe matrices K (*g, P, n_probes, n_z) of every phase.
 
-        def find(n):
-            while parent[n] != n:
-                parent[n] = parent[parent[n]]
-                n = parent[n]
-            return n
-
-        def union(a, b):
-            parent[find(a)] = find(b)
-
-        # every capacitor (x in series with its ESR), closed switch/resistor and voltage source has a
-        # branch-current unknown, so currents are solved for directly: no 1/R stamps and no
-        # (v_a − v_b − x)/ESR differences, which lose digits for small ESR or R
-        branches = []  # (a, b, kind, ref, resistance or None)
-        for e in self.elements:
-            if isinstance(e, Cap):
-                union(e.a, e.b)
-                branches.append((e.a, e.b, "x", cap_idx[e.name], e.esr))
-            elif isinstance(e, Res):
-                if e.on(p):
-                    union(e.a, e.b)
-                    branches.append((e.a, e.b, "r", e.name, e.r))
-            elif isinstance(e, VSrc):
-                union(e.a, e.b)
-                branches.append((e.a, e.b, "u", inp[e.input], None))
-        groups: dict = {}
-        for n in nodes:
-            groups.setdefault(find(n), []).append(n)
-        g_root = find(GROUND)
-        for root, members in groups.items():
-            if root == g_root:
-                continue
-            ms = set(members)
-            for e in self.elements:
-                if isinstance(e, ISrc) and ((e.a in ms) != (e.b in ms)):
-                    raise DesignError(f"network.{e.name}", f"in phase {p} the current source feeds nodes "
-                                      f"{sorted(ms)} that nothing else connects to the reference")
-            branches.append((members[0], GROUND, "0", 0, None))
-        nj = len(branches)
-        n_z = nx + nu
-        Y = np.zeros(bs + (nn + nj, nn + nj))
-        R = np.zeros(bs + (nn + nj, n_z))
-        for e in self.elements:
-            if isinstance(e, ISrc):
-                k = nx + inp[e.input]
-                if e.a != GROUND:
-                    R[..., idx[e.a], k] -= 1.0
-                if e.b != GROUND:
-                    R[..., idx[e.b], k] += 1.0
-        jrow = {}
-        for j, (a, b, kind, ref, res) in enumerate(branches):
-            r = nn + j
-            jrow[(kind, ref)] = r
-            if a != GROUND:
-                Y[..., idx[a], r] += 1.0
-                Y[..., r, idx[a]] += 1.0
-            if b != GROUND:
-                Y[..., idx[b], r] -= 1.0
-                Y[..., r, idx[b]] -= 1.0
-            if res is not None:
-                Y[..., r, r] = -np.asarray(res, dtype=float)  # v_a − v_b − R·i = x (capacitor) or 0
-            if kind == "x":
-                R[..., r, ref] = 1.0
-            elif kind == "u":
-                R[..., r, nx + ref] = 1.0
-        if Y.size:
-            W = _solve_checked(Y, R, 1e13, f"phase {p} has a loop of capacitors without ESR and voltage "
-                               "sources with no resistance in it (no unique solution)")
+        The value-independent part of the nodal analysis (:func:`_stamps`, shared by every
+        network of the same topology) is filled with this network's resistances, and the
+        phases' systems are solved in one batched inversion (each phase padded to one size
+        by identity rows, which leave its own block and its solution unchanged).
+        """
+        st = _stamps(self._topology)
+        nx, nz, P, n = self.n_x, self.n_x + self.n_u, self.n_phases, st.size
+        bs = self._g_shape
+        if n:
+            Y = np.array(np.broadcast_to(st.Y0, bs + st.Y0.shape))
+            if st.res_p.size:
+                v = _stack_values([e.esr if isinstance(e, Cap) else e.r for e in self.elements
+                                   if isinstance(e, (Cap, Res))], bs)
+                Y[..., st.res_p, st.res_row, st.res_row] = -v[..., st.res_val]
+            W = _solve_phases(Y, st.R0, st.real, 1e13, "has a loop of capacitors without ESR and voltage "
+                              "sources with no resistance in it (no unique solution)")
         else:
-            W = np.zeros(bs + (0, n_z))
-
-        K = np.zeros(bs + (len(self.probes), n_z))
-        K[..., :nn, :] = W[..., :nn, :]
-        icap = np.zeros(bs + (nx, n_z))
-        for i, e in enumerate(self.elements):
-            row = np.zeros(bs + (n_z,))
-            if isinstance(e, Res):
-                if e.on(p):
-                    row = W[..., jrow[("r", e.name)], :]
-            elif isinstance(e, Cap):
-                k = cap_idx[e.name]
-                row = W[..., jrow[("x", k)], :]
-                icap[..., k, :] = row
-            elif isinstance(e, VSrc):
-                row = W[..., jrow[("u", inp[e.input])], :]
-            elif isinstance(e, ISrc):
-                row[..., nx + inp[e.input]] = 1.0
-            K[..., nn + i, :] = row
-        ne = len(self.elements)
-        for k in range(nx):
-            K[..., nn + ne + k, k] = 1.0
-        F = np.zeros(self.batch_shape + (n_z, n_z))
+            W = np.zeros(bs + (P, 0, nz))
+        ext = np.concatenate([W, np.zeros(bs + (P, 1, nz)), np.broadcast_to(np.eye(nz), bs + (P, nz, nz))],
+                             axis=-2)
+        ph = np.arange(P)[:, None]
+        K = ext[..., ph, st.k_rows, :]  # (*g, P, n_probes, n_z)
+        F = np.zeros(self.batch_shape + (P, nz, nz))
         if nx:
-            cvals = np.stack([np.broadcast_to(np.asarray(e.c, dtype=float), self.batch_shape)
-                              for e in self.caps], axis=-1)
-            F[..., :nx, :] = icap / cvals[..., :, None]
-        return PhaseSystem(F=F, K=K)
+            icap = W[..., ph, st.cap_rows, :]  # (*g, P, nx, n_z)
+            F[..., :nx, :] = icap / self._c[..., None, :, None]
+        return F, K
+
+    @cached_property
+    def _c(self) -> np.ndarray:
+        """Capacitances in state order, shape (*batch, n_x) [F]."""
+        return _stack_values([e.c for e in self.caps], self.batch_shape)
+
+    @cached_property
+    def _topology(self) -> tuple:
+        """The network without its element values: what the nodal analysis's structure depends on."""
+        els = tuple((type(e).__name__, e.name, e.a, e.b, getattr(e, "closed", None), getattr(e, "input", None))
+                    for e in self.elements)
+        return els, self.inputs, self.n_phases
 
     # ------------------------------------------------------------------ maps
     def phase_maps(self, durations, *, method: str = "auto") -> tuple[np.ndarray, np.ndarray]:
@@ -581,8 +742,7 @@ class Network:
         F = self._F
         M = F[..., :nx, :nx]
         N = F[..., :nx, nx:]
-        c = np.stack([np.broadcast_to(np.asarray(e.c, dtype=float), self.batch_shape) for e in self.caps],
-                     axis=-1)[..., None, :] if nx else np.ones(self.batch_shape + (1, 0))
+        c = self._c[..., None, :] if nx else np.ones(self.batch_shape + (1, 0))
         sq = np.sqrt(c)  # (*batch, 1, nx)
         Ms = sq[..., :, None] * M / sq[..., None, :]
         asym = np.abs(Ms - np.swapaxes(Ms, -1, -2)).max(initial=0.0)
@@ -769,27 +929,25 @@ class PeriodicSolution:
         nx = net.n_x
         K = self._K(names)
         x0 = self.z0[..., :nx]
-        u = self.z0[..., 0, nx:]
-        w = np.einsum("...pij,...pj->...pi", Vinv, x0)
-        gv = np.einsum("...pij,...j->...pi", VN, u)
-        k = np.einsum("...pmi,...pij->...pmj", K[..., :nx], V)
-        ku = np.einsum("...pmj,...j->...pm", K[..., nx:], u)
+        u = self.z0[..., 0, None, nx:, None]  # (..., 1, n_u, 1): matrix products below, not einsum
+        w = (Vinv @ x0[..., None])[..., 0]  # (..., P, nx)
+        gv = (VN @ u)[..., 0]
+        k = K[..., :nx] @ V  # (..., P, m, nx)
+        ku = (K[..., nx:] @ u)[..., 0]  # (..., P, m)
         b = k * (lam * w + gv)[..., None, :]
         d = self.durations
         roots = _exp_sum_roots(b, lam[..., None, :], d[..., None])
         # the phase's two ends do not depend on the probe: their modal states once per phase
         xd = lam * d[..., None]  # (..., P, nx)
-        f1d, _ = _phi(xd, second=False)
-        end = np.exp(xd) * w + f1d * d[..., None] * gv
-        y0 = np.einsum("...pmi,...pi->...pm", k, w) + ku
-        y1 = np.einsum("...pmi,...pi->...pm", k, end) + ku
+        end = np.exp(xd) * w + _phi1(xd) * d[..., None] * gv
+        y0 = (k @ w[..., None])[..., 0] + ku
+        y1 = (k @ end[..., None])[..., 0] + ku
         lo, hi = np.minimum(y0, y1), np.maximum(y0, y1)
         if roots.shape[-1]:
             t = np.where(np.isnan(roots), 0.0, roots)  # an absent root repeats the phase start
             x = lam[..., None, None, :] * t[..., None]  # (..., P, m, c, nx)
-            f1, _ = _phi(x, second=False)
-            modal = np.exp(x) * w[..., None, None, :] + f1 * t[..., None] * gv[..., None, None, :]
-            y = np.einsum("...pmi,...pmci->...pmc", k, modal) + ku[..., None]
+            modal = np.exp(x) * w[..., None, None, :] + _phi1(x) * t[..., None] * gv[..., None, None, :]
+            y = (modal @ k[..., None])[..., 0] + ku[..., None]
             lo, hi = np.minimum(lo, y.min(axis=-1)), np.maximum(hi, y.max(axis=-1))
         return lo, hi
 
@@ -1195,8 +1353,11 @@ class StartupTransient:
         dmode = np.where(self._real[None, :], real_d, gen_d) * self._rest[None, :]
         return np.einsum("ni,ipm->npm", dmode, amp)
 
-    def _bounds(self, a: np.ndarray, b: np.ndarray, names):
+    def _bounds(self, a: np.ndarray, b: np.ndarray, names, extra=None):
         """Each probe's extremes in each phase of cycle a, and bounds on them over a ≤ k < b.
+
+        ``extra``: more cycle-start states (q, n_x) whose phase extrema are wanted too, solved in
+        the same batch; then their (lo, hi), each (q, P, m), follow the four results.
 
         Returns (lo_a, hi_a, lo_bound, hi_bound), each of shape (len(a), P, m). A real mode
         μ_i ∈ [0, 1] moves the cycle-start state by −s_i·μ_i^a·c_i·w_i with s_i = 1 − μ_i^{k−a} in
@@ -1228,7 +1389,13 @@ class StartupTransient:
             same[(b - a) <= 1.0, 1:] = True
             if nc > 3:
                 same[:, 3] |= np.all(sig[:, 3] == sig[:, 2], axis=-1)
-            lo_r, hi_r = self._solution(x[~same], self.u).phase_extrema(names)
+            xs = x[~same]
+            if extra is not None:
+                xs = np.concatenate([xs, extra])
+            lo_r, hi_r = self._solution(xs, self.u).phase_extrema(names)
+            if extra is not None:
+                q = len(extra)
+                lo_r, hi_r, lo_e, hi_e = lo_r[:-q], hi_r[:-q], lo_r[-q:], hi_r[-q:]
             lo = np.empty((n, nc) + lo_r.shape[1:])
             hi = np.empty((n, nc) + hi_r.shape[1:])
             lo[~same], hi[~same] = lo_r, hi_r
@@ -1237,11 +1404,16 @@ class StartupTransient:
                 hi[same[:, c], c] = hi[same[:, c], c - 1]
             lo_a, hi_a, lo_b, hi_b = lo[:, 0], hi[:, 0], lo.min(axis=1), hi.max(axis=1)
         else:
-            lo_a, hi_a = self._solution(xa, self.u).phase_extrema(names)
+            xs = xa if extra is None else np.concatenate([xa, extra])
+            lo_a, hi_a = self._solution(xs, self.u).phase_extrema(names)
+            if extra is not None:
+                lo_a, hi_a, lo_e, hi_e = lo_a[:n], hi_a[:n], lo_a[n:], hi_a[n:]
             lo_b, hi_b = lo_a, hi_a
         if not self.modal or self._rest.any():
             dev = self._deviation_bound(a, b, names)
             lo_b, hi_b = lo_b - dev, hi_b + dev
+        if extra is not None:
+            return lo_a, hi_a, lo_b, hi_b, lo_e, hi_e
         return lo_a, hi_a, lo_b, hi_b
 
     # ------------------------------------------------------------------ questions over all cycles
@@ -1283,11 +1455,14 @@ class StartupTransient:
 
     def _search(self, names, rtol: float, peak: bool):
         """Branch and bound over the cycle ranges (class notes) for the extremes or the peak magnitude."""
-        lo_best, hi_best = (v[0] for v in self.periodic.extrema(names))
         a, b = self._initial_ranges()
         first = True
         while a.size:
-            lo, hi, lo_b, hi_b = self._bounds(a, b, names)  # (n, P, m)
+            if first:  # the periodic steady state (the limit k → ∞) in the same batch as the first ranges
+                lo, hi, lo_b, hi_b, lo_p, hi_p = self._bounds(a, b, names, extra=self.xss[None, :])
+                lo_best, hi_best = lo_p[0].min(axis=0), hi_p[0].max(axis=0)
+            else:
+                lo, hi, lo_b, hi_b = self._bounds(a, b, names)  # (n, P, m)
             lo_best = np.minimum(lo_best, lo.min(axis=(0, 1)))
             hi_best = np.maximum(hi_best, hi.max(axis=(0, 1)))
             if first:  # the scale: the largest magnitude the start-up can reach
@@ -1363,8 +1538,8 @@ class StartupTransient:
         return k, float(t)
 
     def _first_pass(self, name: str, thr: float, sgn: float):
-        """(k, (lo, hi)): the first cycle whose exact extremes reach sgn·thr and its phase extrema (P, 1) each,
-        from a cheap scan of the first cycles, or None.
+        """(k, (lo, hi, z)): the first cycle whose exact extremes reach sgn·thr, its phase extrema (P, 1) each and
+        its phase-start states (P, n_z), from a cheap scan of the first cycles, or None.
 
         A short start-up (tens of cycles) would pay the search's fixed cost many times
         over. The states at the starts of the first :data:`_FIRST_PASS` cycles come in one
@@ -1381,15 +1556,20 @@ class StartupTransient:
         k = np.arange(_FIRST_PASS, dtype=float)
         z = self._solution(self.states(k), self.u).z0  # (n, P, n_z)
         K = self.net.stacked(self.net.probe_index([name]))[1][:, 0, :]  # (P, n_z)
-        y0 = np.einsum("pj,npj->np", K, z)
-        y1 = np.einsum("pi,pij,npj->np", K, self.E, z)
+        y0 = (z * K).sum(axis=-1)  # (n, P)
+        y1 = (z * (K[:, None, :] @ self.E)[:, 0, :]).sum(axis=-1)  # K·E_p·z
         cand = np.flatnonzero((np.maximum(sgn * y0, sgn * y1) >= thr).any(axis=1))
         if cand.size == 0 or cand[0] >= _FIRST_EXACT:
             return None
-        lo, hi = self._solution(self.states(k[:cand[0] + 1]), self.u).phase_extrema([name])
+        zc = z[:cand[0] + 1]
+        lo, hi = PeriodicSolution(net=self.net, durations=np.broadcast_to(self.durations, zc.shape[:2]), z0=zc,
+                                  E=self.E, S=self.S).phase_extrema([name])
         top = hi[..., 0] if sgn > 0 else -lo[..., 0]  # (n, P)
         hit = np.flatnonzero((top >= thr).any(axis=1))
-        return (int(hit[0]), (lo[hit[0]], hi[hit[0]])) if hit.size else None
+        if not hit.size:
+            return None
+        h = int(hit[0])
+        return h, (lo[h], hi[h], zc[h])
 
     def _guess(self, a: np.ndarray, top: np.ndarray, name: str, thr: float, sgn: float) -> np.ndarray:
         """Cycles near the predicted crossing after each a, shape (len(a), 4), to split the ranges at.
@@ -1421,13 +1601,18 @@ class StartupTransient:
         y(t) = Σ_i k_i·(e^{λ_i t}·w_i + φ₁(λ_i t)·t·g_i) + k_u·u is monotone between the
         zeros of y′ (:func:`_exp_sum_roots`); the first monotone piece that reaches
         the threshold holds the crossing, solved by Brent's method to rounding. ``ext``:
-        the cycle's phase extrema (lo, hi), each (P, 1), when already at hand.
+        the cycle's phase extrema (lo, hi), each (P, 1), and its phase-start states (P, n_z),
+        when already at hand.
         """
         net = self.net
         nx = net.n_x
         lam, V, Vinv, VN = net.modes
-        sol = self._solution(self.states([k]), self.u)
-        lo, hi = sol.phase_extrema([name]) if ext is None else (e[None] for e in ext)  # ext: (P, 1) each
+        if ext is None:
+            sol = self._solution(self.states([k]), self.u)
+            lo, hi = sol.phase_extrema([name])
+            zk = sol.z0[0]
+        else:
+            lo, hi, zk = ext[0][None], ext[1][None], ext[2]
         top = (hi if sgn > 0 else -lo)[0, :, 0]
         reach = np.flatnonzero(top >= sgn * thr)
         if reach.size == 0:
@@ -1435,7 +1620,7 @@ class StartupTransient:
         p = int(reach[0])
         t_start = float(self.durations[:p].sum())
         dur = float(self.durations[p])
-        z0 = sol.z0[0, p]
+        z0 = zk[p]
         K = net.stacked(net.probe_index([name]))[1][p, 0, :]
         w = Vinv[p] @ z0[:nx]
         g = VN[p] @ self.u
