@@ -544,6 +544,10 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60, bracket_tol: floa
 _GQ_X, _GQ_W = np.polynomial.legendre.leggauss(16)
 #: Graded panels of the composite Gauss–Legendre rule along σ (finest at the interval start).
 _GQ_PANELS = 8
+#: Intervals per block of the quadrature (rows × 128 nodes per temporary array).
+_GQ_ROWS = 256
+#: Largest move of σ between Newton iterates whose elapsed time is added with one panel.
+_GQ_STEP = 0.25
 
 
 class _JunctionG:
@@ -604,9 +608,9 @@ class _JunctionG:
         y = (self.K - v) / self.th  # w + ln w = y
         return y - wright_omega(y)
 
-    def _nodes(self, sig0, sig1, sign):
+    def _nodes(self, sig0, sig1, sign, panels: int = _GQ_PANELS):
         """Composite rule nodes along σ from σ0 down to σ1: λ at the nodes and weights ·q (time per node)."""
-        P = _GQ_PANELS
+        P = panels
         L = (sig0 - sig1)[:, None]
         k = np.arange(P + 1)
         br = sig0[:, None] - L * (2.0 ** k - 1.0) / (2.0 ** P - 1.0)  # panels finest at the start
@@ -630,8 +634,15 @@ class _JunctionG:
         th = self.th[sl]
         return (th / self.R[sl] + self.G[sl] * th) * self.w_e[sl] * np.expm1(d) + self.G[sl] * th * d
 
-    def elapsed(self, sig0, sig1, sign):
-        return np.sum(self._nodes(sig0, sig1, sign)[3], axis=-1)
+    def elapsed(self, sig0, sig1, sign, panels: int = _GQ_PANELS):
+        n = len(sig0)
+        if n <= _GQ_ROWS:
+            return np.sum(self._nodes(sig0, sig1, sign, panels)[3], axis=-1)
+        out = np.empty(n)  # in blocks: the node arrays stay in cache instead of being mapped afresh
+        for a in range(0, n, _GQ_ROWS):
+            j = slice(a, a + _GQ_ROWS)
+            out[j] = np.sum(_take_g(self, j)._nodes(sig0[j], sig1[j], sign[j], panels)[3], axis=-1)
+        return out
 
     def q_at(self, sig, sign):
         d = sign * np.exp(sig)
@@ -672,8 +683,24 @@ class _JunctionG:
                 guess = np.where(use, s_g, guess)
             guess = np.clip(guess, lo, hi)
 
+            # the elapsed time at each iterate: the whole graded rule from σ0, or, once the iterate is
+            # within _GQ_STEP of the last one, that one's time plus one 16-point panel between the two
+            # (the integrand is analytic there: the panel is exact to rounding)
+            z_ref = s0.copy()
+            e_ref = np.zeros(ia.shape)
+
             def fun(z):
-                return tt - sub.elapsed(s0, z, sg), sub.q_at(z, sg)
+                near = np.abs(z - z_ref) <= _GQ_STEP
+                if near.all():
+                    e = e_ref + sub.elapsed(z_ref, z, sg, panels=1)
+                else:
+                    e = sub.elapsed(s0, z, sg)
+                    if near.any():
+                        j = np.flatnonzero(near)
+                        e[j] = e_ref[j] + _take_g(sub, j).elapsed(z_ref[j], z[j], sg[j], panels=1)
+                z_ref[:] = z
+                e_ref[:] = e
+                return tt - e, sub.q_at(z, sg)
 
             # elapsed(z) falls as z rises: tt − elapsed is increasing in z
             # the quadrature's rounding noise is ~1e-14 of σ: a bracket that narrow is the root

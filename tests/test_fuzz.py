@@ -62,8 +62,9 @@ FUZZ_STARTUP_CYCLES = (10, 30)
 #: Most switching periods per three-phase fundamental in the long run. Since the three-phase duty-limit
 #: search was bounded (cee4b30, 000784b) the long run draws bootstraps on three-phase legs again, with
 #: the straight-line diode (0.1-0.9 s each). Two things keep this bound and the junction diode out:
-#: a junction-diode bootstrap on a 50 Hz leg at 177 kHz (3 500 periods) still took 36 s (open finding
-#: bootstrap-three-phase-junction-slow, reproducer in tests/reference/bootstrap/fuzz), and at 10⁴
+#: a junction-diode bootstrap on a 50 Hz leg at 177 kHz (3 500 periods) took 36 s (finding
+#: bootstrap-three-phase-junction-slow, reproducer in tests/reference/bootstrap/fuzz; 2.7 s since its
+#: Newton iterations stopped degrading to bisection, still too slow for ~10³ draws), and at 10⁴
 #: periods the isolated module's charge balance exceeds this file's rounding floor (2e-14 C against
 #: 6e-15 C: the floor does not grow with the number of intervals summed; to be revisited).
 FUZZ_MAX_PERIODS = 4000
