@@ -383,6 +383,9 @@ class IsolatedOption:
     v_iso: float = _f("V", "rated isolation working voltage", **POS)
     cmti: float = _f("V/s", "driver common-mode transient immunity", **POS)
     v_in: float | None = _f("V", "module input rail (null = the aux rail)", None, nullable=True, **POS)
+    v_in_rated: float | None = _f("V", "input voltage at which v_out is specified, for a module without "
+                                  "output regulation (its output follows its input in proportion); null = "
+                                  "a regulated module", None, nullable=True, **POS)
     r_out: float = _f("\u03a9", "module output resistance", 0.0, **NONNEG)
     t_start: float = _f("s", "start-up delay", 0.0, **NONNEG)
     t_ramp: float = _f("s", "output ramp time", 0.0, **NONNEG)

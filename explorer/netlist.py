@@ -443,9 +443,11 @@ def _isolated_lines(design: Design, option: IsolatedOption, plan: NetlistPlan) -
     c_out = float(plan.result.capacitors[0].c_eff)
     t1 = option.t_start
     t2 = t1 + max(option.t_ramp, 1e-3 * design.bridge.t_edge)
-    pts = [(0.0, 0.0)] + ([(t1, 0.0)] if t1 > 0 else []) + [(t2, option.v_out)]
+    from .options.isolated import module_output
+    v_mod = module_output(design, option)
+    pts = [(0.0, 0.0)] + ([(t1, 0.0)] if t1 > 0 else []) + [(t2, v_mod)]
     if plan.t_stop > t2:
-        pts.append((plan.t_stop, option.v_out))
+        pts.append((plan.t_stop, v_mod))
     return ["* --- isolated module: source (delay t_start, ramp t_ramp) behind r_out, C_out with ESR",
             f"VMOD m vs {_pwl(pts)}",
             f"RMOD m vb {_n(max(option.r_out, R_MIN))}",

@@ -15,6 +15,7 @@ from .design import (BootstrapOption, ChargePumpOption, Design, IsolatedOption, 
 from .errors import DesignError
 from .loads import load_power
 from .options import model_for
+from .options.isolated import module_output
 from .preferred import next_preferred, preferred_values
 from .schedule import period_schedule
 from .tolerance import worst_case
@@ -181,7 +182,7 @@ def size_isolated_rating(design, label: str, *, headroom: float = 2.0, series: s
         raise DesignError(f"options[{i}].kind", "rating sizing applies to isolated options", opt.kind)
     if not (isinstance(headroom, (int, float)) and headroom >= 1):
         raise DesignError("headroom", "expected a factor >= 1", headroom)
-    p_load = float(load_power(d, period_schedule(d), opt.v_out))
+    p_load = float(load_power(d, period_schedule(d), module_output(d, opt)))
     p = next_preferred(p_load * headroom, series)
     path = f"options[{i}].p_rated"
     dd = replace_fields(d, {path: p, f"options[{i}].p_no_load": opt.p_no_load * p / opt.p_rated})

@@ -144,7 +144,8 @@ def _ranges(design: Design, label: str) -> dict:
     """Range of every spread; spreads that cannot affect this option are pinned at nominal.
 
     The diode forward voltage and the temperature (through leakage) act on a
-    bootstrap only; a (regulated) isolated module does not follow its input rail.
+    bootstrap only; a regulated isolated module does not follow its input rail
+    (one without output regulation, ``v_in_rated`` given, does).
     """
     s = design.spread
     opt = design.option(label)
@@ -152,7 +153,7 @@ def _ranges(design: Design, label: str) -> dict:
     boot = isinstance(opt, BootstrapOption)
     t_amb = design.checks.t_amb
     return {"k_c": (k_lo, k_hi), "q_g": (1 - s.q_g, 1 + s.q_g), "i_q": (1 - s.i_q, 1 + s.i_q),
-            "v_dd": (1.0, 1.0) if isinstance(opt, IsolatedOption) else
+            "v_dd": (1.0, 1.0) if isinstance(opt, IsolatedOption) and opt.v_in_rated is None else
             (1 - design.aux.v_dd_tol, 1 + design.aux.v_dd_tol),
             "v_f": (1 - s.v_f, 1 + s.v_f) if boot else (1.0, 1.0),
             "t": (design.checks.t_min, design.checks.t_max) if boot and opt.i_leak > 0 else (t_amb, t_amb)}

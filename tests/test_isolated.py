@@ -462,3 +462,60 @@ def test_collapsed_rail_reports_no_efficiency():
     assert r.efficiency is None and not r.feasible
     assert r.v_rail.min == 0.0 and 0.0 <= r.v_rail.mean <= r.v_rail.max
     assert any("collapses" in w for w in r.warnings)
+
+
+# --------------------------------------------------------------------------- module without output regulation
+
+def test_unregulated_module_output_follows_its_input_in_proportion():
+    # source: at a fixed duty the conversion ratio of a transformer-coupled converter is fixed, M = n·D
+    # (Erickson & Maksimović, Fundamentals of Power Electronics, 3rd ed., 2020, ch. 6), so V_out ∝ V_in.
+    # With r_out = 0 the module is an ideal source: the rail's highest value is that output exactly
+    # (invented scenario: the demo's 12 V aux rail, a module specified at 12 V in)
+    base = _set(DEMO, r_out=0.0, v_in_rated=12.0)
+    r12 = _run(base)
+    hi = replace_field(base, "aux.v_dd", 13.2)
+    r13 = _run(hi)
+    v_out = base.options[_idx(base)].v_out
+    assert r12.v_rail.max == pytest.approx(v_out, rel=1e-12)
+    assert r13.v_rail.max == pytest.approx(v_out * 13.2 / 12.0, rel=1e-12)
+    # a regulated module (v_in_rated null) does not follow its input
+    reg = replace_field(_set(DEMO, r_out=0.0), "aux.v_dd", 13.2)
+    assert _run(reg).v_rail.max == pytest.approx(v_out, rel=1e-12)
+    # an explicit module input rail sets the output, not the aux rail
+    sep = _set(base, v_in=9.0)
+    assert _run(sep).v_rail.max == pytest.approx(v_out * 9.0 / 12.0, rel=1e-12)
+
+
+def test_unregulated_module_pre_pwm_rail_is_the_source_behind_r_out():
+    # source: Ohm's law on the source-behind-r_out model with the driver's quiescent current as the
+    # only load before the PWM starts, V = V_src − r_out·I_Q, with V_src = v_out·V_in/v_in_rated
+    d = _set(DEMO, v_in_rated=10.0, r_out=2.0)
+    r = _run(d)
+    v_src = d.options[_idx(d)].v_out * 12.0 / 10.0
+    assert r.extra["v_pre_pwm"] == pytest.approx(v_src - 2.0 * d.driver.i_q, rel=1e-12)
+
+
+def test_unregulated_module_spread_follows_the_aux_tolerance():
+    # the aux-rail spread reaches an unregulated module's output: its corners include the rail
+    # high and low, and the batched Monte Carlo samples equal evaluate_option on the perturbed design
+    from explorer.tolerance import _batch_for, apply_factors, corner_factors, sample_factors
+    d = _set(DEMO, v_in_rated=12.0)
+    names = [n for n, _ in corner_factors(d, LABEL)]
+    assert any("v_dd high" in n for n in names) and any("v_dd low" in n for n in names)
+    assert not any("v_dd" in n for n, _ in corner_factors(DEMO, LABEL))  # regulated: pinned
+    f = sample_factors(d, LABEL, 6, np.random.default_rng(5))
+    assert np.ptp(f.v_dd) > 0
+    batch = _batch_for("isolated")(d, d.option(LABEL), f)
+    for i in range(6):
+        di = apply_factors(d, LABEL, f.at(i))
+        assert batch[i] == pytest.approx(_run(di).v_rail.min, rel=1e-12)
+
+
+def test_unregulated_module_netlist_source_reaches_the_scaled_output():
+    from explorer.netlist import export_netlist
+    d = _set(DEMO, v_in_rated=10.0)
+    net = export_netlist(d, LABEL)
+    v_src = d.options[_idx(d)].v_out * 12.0 / 10.0
+    line = next(ln for ln in net.splitlines() if ln.startswith("VMOD"))
+    pwl = [float(x) for x in line[line.index("PWL(") + 4:line.rindex(")")].split()]
+    assert max(pwl[1::2]) == pytest.approx(v_src, rel=1e-11)  # the ramp's end level

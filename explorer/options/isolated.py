@@ -11,7 +11,9 @@ voltage ``v_iso``. The model is:
   and ``P/P_in(P_rated) = eta_full``. The module's own output resistance is
   inside the measured efficiency, so ``r_out``'s I²R is part of ``k·P²`` and
   is not added again.
-* **Output rail** an ideal source ``v_out`` behind ``r_out`` feeding ``c_out``
+* **Output rail** an ideal source behind ``r_out`` feeding ``c_out``: ``v_out``
+  for a regulated module, ``v_out·V_in/v_in_rated`` for one without output
+  regulation (:func:`module_output`),
   (effective capacitance at the corner and at its DC bias). At every HS turn-on
   the gate takes the charge ``Q_G + Q_LS`` from ``c_out`` as a step (the gate
   charges in nanoseconds, far faster than ``tau = r_out·C_out``); the driver's
@@ -381,6 +383,22 @@ def _rail_load(design: Design, sched: Schedule) -> tuple[float, float]:
     return q0, q1
 
 
+def module_output(design: Design, option: IsolatedOption) -> float:
+    """Open-circuit output of the module at its input rail [V].
+
+    A regulated module holds ``v_out``. One without output regulation runs at a
+    fixed duty, so its conversion ratio ``M = V_out/V_in`` is fixed (``M = n·D``
+    for a transformer-coupled converter: Erickson & Maksimović, *Fundamentals of
+    Power Electronics*, 3rd ed., Springer 2020, ch. 6) and its output follows
+    its input in proportion: ``v_out·V_in/v_in_rated``, with ``V_in`` the
+    option's ``v_in`` or else the aux rail.
+    """
+    if option.v_in_rated is None:
+        return option.v_out
+    v_in = option.v_in if option.v_in is not None else design.aux.v_dd
+    return option.v_out * v_in / option.v_in_rated
+
+
 def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> dict:
     """Highest f_sw and Q_G whose gate load stays within p_rated (any duty works) [Hz], [C].
 
@@ -390,8 +408,9 @@ def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> d
     rated load, V = v_out − r_out·I with V·I = p_rated (the mean rail of the
     source-behind-r_out model is exactly v_out − r_out·mean(I) by charge balance).
     """
-    disc = option.v_out ** 2 - 4.0 * option.r_out * option.p_rated
-    v = 0.5 * (option.v_out + math.sqrt(disc)) if disc > 0 else 0.5 * option.v_out
+    v_src = module_output(design, option)
+    disc = v_src ** 2 - 4.0 * option.r_out * option.p_rated
+    v = 0.5 * (v_src + math.sqrt(disc)) if disc > 0 else 0.5 * v_src
     budget = option.p_rated / v - design.driver.i_q
     if design.gate.r_gs is not None:
         budget -= v * float(sched.dt[sched.hs_on].sum()) / sched.period / design.gate.r_gs
@@ -455,11 +474,12 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     # ---- output capacitor and rail -----------------------------------------------------------
     cap = option.c_out
     diel = parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric")
-    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=diel, v_applied=option.v_out,
+    v_src = module_output(design, option)
+    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=diel, v_applied=v_src,
                               v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
     sched = period_schedule(design)
     q_on = charge_per_turn_on(design)
-    rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=option.v_out, r_out=option.r_out,
+    rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=v_src, r_out=option.r_out,
                        c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=gate.r_gs)
     t_wave, v_wave = rail.waveform(sched.dt, points=8 if len(sched) <= 2000 else 2)
     collapsed = rail.min < 0.0
@@ -470,7 +490,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
                     "than the module refills; the minimum is shown as 0 V")
         rail = dataclasses.replace(rail, min=0.0, max=max(rail.max, 0.0), mean=max(rail.mean, 0.0))
         v_wave = np.maximum(v_wave, 0.0)
-    v_pre = option.v_out - option.r_out * drv.i_q       # rail before the PWM starts (load I_Q only)
+    v_pre = v_src - option.r_out * drv.i_q              # rail before the PWM starts (load I_Q only)
     v_max = max(rail.max, v_pre)
 
     # ---- load, losses, power split -------------------------------------------------------------
@@ -574,8 +594,9 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
     ``factors`` is a :class:`explorer.tolerance.Factors` of equal-length arrays.
     Each sample is exactly what :func:`evaluate_option` computes for the design
     perturbed by :func:`explorer.tolerance.apply_factors` (capacitance ×
-    ``k_c`` with the DC-bias factor, gate charge × ``q_g``, quiescent × ``i_q``);
-    the module output does not follow the aux rail (a regulated module).
+    ``k_c`` with the DC-bias factor, gate charge × ``q_g``, quiescent × ``i_q``,
+    and, for a module without output regulation, its output × ``v_dd`` with its
+    input rail); a regulated module's output does not follow its input.
     """
     cap = option.c_out
     sched = period_schedule(design)
@@ -583,11 +604,14 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
     n = k_c.size
     q_g = np.broadcast_to(np.asarray(factors.q_g, dtype=float), (n,))
     i_q = np.broadcast_to(np.asarray(factors.i_q, dtype=float), (n,))
-    c_eff = capacitance(cap.c * k_c, v_applied=option.v_out, v_rating=cap.v_rating, dc_bias=cap.dc_bias)
+    k_in = (np.broadcast_to(np.asarray(factors.v_dd, dtype=float), (n,)) if option.v_in_rated is not None
+            else np.ones(n))
+    v_src = module_output(design, option) * k_in
+    c_eff = capacitance(cap.c * k_c, v_applied=v_src, v_rating=cap.v_rating, dc_bias=cap.dc_bias)
     out = np.empty(n)
     for i in range(n):
         q_on = design.gate.q_g * q_g[i] + design.driver.q_ls
-        out[i] = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=option.v_out, r_out=option.r_out,
+        out[i] = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=float(v_src[i]), r_out=option.r_out,
                              c_out=float(c_eff[i]), q_pulse=q_on, i_q=design.driver.i_q * i_q[i],
                              r_gs=design.gate.r_gs).min
     return out
