@@ -126,17 +126,18 @@ def isolated_charge_residual(design, option, result):
         return None
     s = period_schedule(design)
     c_eff = result.capacitors[0].c_eff
-    rail = iso.output_rail(s.dt, s.hs_on, s.hs_turn_on, v_src=option.v_out, r_out=option.r_out, c_out=c_eff,
+    v_src = iso.module_output(design, option)
+    rail = iso.output_rail(s.dt, s.hs_on, s.hs_turn_on, v_src=v_src, r_out=option.r_out, c_out=c_eff,
                            q_pulse=charge_per_turn_on(design), i_q=design.driver.i_q, r_gs=design.gate.r_gs)
     with np.errstate(over="ignore"):
         decay = -np.expm1(-s.dt / rail.tau)
     area = rail.v_inf * s.dt + (rail.v_after - rail.v_inf) * rail.tau * decay
-    q_mod = float(np.sum(option.v_out * s.dt - area)) / option.r_out
+    q_mod = float(np.sum(v_src * s.dt - area)) / option.r_out
     g = s.hs_on / design.gate.r_gs if design.gate.r_gs is not None else np.zeros(s.dt.shape)
     q_load = (np.count_nonzero(s.hs_turn_on) * charge_per_turn_on(design) + design.driver.i_q * s.period
               + float(np.sum(g * area)))
     # the stored charge C·V is itself known only to eps·C·V, and V to eps·v_out·(1 + tau/T)
-    floor = 64 * np.finfo(float).eps * option.v_out * (s.period / option.r_out + c_eff)
+    floor = 64 * np.finfo(float).eps * v_src * (s.period / option.r_out + c_eff)
     return abs(q_mod - q_load), CHARGE_RTOL * max(abs(q_mod), abs(q_load)) + floor
 
 
