@@ -184,30 +184,32 @@ def _expm(a: np.ndarray) -> np.ndarray:
 
 
 def _phi(x: np.ndarray, second: bool = True) -> tuple[np.ndarray, np.ndarray | None]:
-    """(e^x − 1)/x and (e^x − 1 − x)/x², with their Taylor series for |x| < 0.1 (error < 1e-16).
+    """(e^x − 1)/x and (e^x − 1 − x)/x², the second by its Taylor series for |x| < 0.1 (error < 1e-16).
 
-    The series is summed only where it is used (on a start-up's batches of corner states most
-    entries are large), and ``second=False`` skips the second function (None).
+    The first is :func:`_phi1` (expm1 keeps it accurate for small x); the second cancels for
+    small x, so the series is summed there, and only there; ``second=False`` skips it (None).
     """
     x = np.asarray(x, dtype=float)
+    f1 = np.asarray(_phi1(x))
+    if not second:
+        return f1, None
     small = np.abs(x) < 0.1
     xs = np.where(small, 1.0, x)
-    em1 = np.expm1(xs)
-    f1 = np.asarray(em1 / xs)
-    f2 = np.asarray((em1 - xs) / (xs * xs)) if second else None
+    f2 = np.asarray((np.expm1(xs) - xs) / (xs * xs))
     if small.any():
-        # series: Σ x^k/(k+1)! and Σ x^k/(k+2)!, k = 0..9
+        # series Σ x^k/(k+2)!, k = 0..9, as a table of powers (running products) times the coefficients:
+        # a few numpy calls instead of twenty for Horner's rule on tiny arrays; |x| < 0.1, so the terms
+        # fall by 10× each and the sum is good to a few units in the last place
         xv = x[small]
-        s1 = np.zeros_like(xv)
-        s2 = np.zeros_like(xv)
-        for k in range(9, -1, -1):
-            s1 = s1 * xv + 1.0 / math.factorial(k + 1)
-            if second:
-                s2 = s2 * xv + 1.0 / math.factorial(k + 2)
-        f1[small] = s1
-        if second:
-            f2[small] = s2
+        pw = np.empty((xv.size, _SERIES_C2.size))
+        pw[:, 0] = 1.0
+        pw[:, 1:] = xv[:, None]
+        np.cumprod(pw, axis=1, out=pw)
+        f2[small] = pw @ _SERIES_C2
     return f1, f2
+
+
+_SERIES_C2 = np.array([1.0 / math.factorial(k + 2) for k in range(10)])
 
 
 def _phi1(x: np.ndarray) -> np.ndarray:
@@ -289,25 +291,31 @@ def _solve_checked(A: np.ndarray, B: np.ndarray, cond_max: float, problem: str) 
     return inv @ B
 
 
-def _modal_maps(modes, nx: int, nu: int, d: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """E and S of every phase from the modes (:attr:`Network.modes`) for durations d (..., P)."""
+def _modal_maps(modes, nx: int, nu: int, d: np.ndarray, integrals: bool = True):
+    """E and S of every phase from the modes (:attr:`Network.modes`) for durations d (..., P).
+
+    ``integrals=False`` skips S (None): the modal solution integrates from the modes directly.
+    """
     lam, V, Vinv, VN = modes
     t = d[..., None]
     x = lam * t  # (..., P, nx)
-    f1, f2 = _phi(x)
     e = np.exp(x)
-    p1 = f1 * t
-    p2 = f2 * t * t
     nz = nx + nu
     shape = np.broadcast_shapes(lam.shape[:-1], d.shape)
+    iu = np.arange(nx, nz)
     E = np.zeros(shape + (nz, nz))
-    S = np.zeros(shape + (nz, nz))
     E[..., :nx, :nx] = (V * e[..., None, :]) @ Vinv
+    E[..., iu, iu] = 1.0
+    f1, f2 = _phi(x, second=integrals)
+    if not integrals:
+        E[..., :nx, nx:] = (V * (f1 * t)[..., None, :]) @ VN
+        return E, None
+    p1 = f1 * t
+    p2 = f2 * t * t
     E[..., :nx, nx:] = (V * p1[..., None, :]) @ VN
+    S = np.zeros(shape + (nz, nz))
     S[..., :nx, :nx] = (V * p1[..., None, :]) @ Vinv
     S[..., :nx, nx:] = (V * p2[..., None, :]) @ VN
-    iu = np.arange(nx, nz)
-    E[..., iu, iu] = 1.0
     S[..., iu, iu] = d[..., None]
     return E, S
 
@@ -682,7 +690,7 @@ class Network:
         return els, self.inputs, self.n_phases
 
     # ------------------------------------------------------------------ maps
-    def phase_maps(self, durations, *, method: str = "auto") -> tuple[np.ndarray, np.ndarray]:
+    def phase_maps(self, durations, *, method: str = "auto", integrals: bool = True):
         """Exact transition and integral matrices of every phase.
 
         Parameters
@@ -695,12 +703,15 @@ class Network:
             matrix exponential (scipy); ``"auto"``: modal when the state matrix
             is that of a reciprocal RC network (always, for networks of this
             module), else expm.
+        integrals : bool
+            False: the modal form skips S and returns None for it (its solutions
+            integrate from the modes directly); expm returns S regardless.
 
         Returns
         -------
         E : ndarray, shape (..., n_phases, n_z, n_z)
             z(t_p) = E_p·z(0) within phase p (e^{F_p t_p}).
-        S : ndarray, shape (..., n_phases, n_z, n_z)
+        S : ndarray, shape (..., n_phases, n_z, n_z), or None
             ∫_0^{t_p} z ds = S_p·z(0).
         """
         d = np.asarray(durations, dtype=float)
@@ -714,7 +725,7 @@ class Network:
         if method == "modal" and modes is None:
             raise DesignError("method", "the state matrix is not that of a reciprocal RC network", method)
         if modes is not None:
-            return _modal_maps(modes, self.n_x, self.n_u, d)
+            return _modal_maps(modes, self.n_x, self.n_u, d, integrals)
         nz = self.n_x + self.n_u
         Fs = self._F  # (*batch, P, nz, nz)
         shape = np.broadcast_shapes(Fs.shape[:-2], d.shape)
@@ -770,13 +781,13 @@ class Network:
         return z[:self.n_x], ends
 
 
-def cycle_map(net: Network, durations):
+def cycle_map(net: Network, durations, *, integrals: bool = True):
     """One-cycle map of the augmented state: z_{k+1} = E_tot·z_k (batched over durations).
 
-    Returns (E, S, E_tot) with E and S from :meth:`Network.phase_maps` and
-    E_tot = E_{P−1}·…·E_0.
+    Returns (E, S, E_tot) with E and S from :meth:`Network.phase_maps` (``integrals``
+    as there) and E_tot = E_{P−1}·…·E_0.
     """
-    E, S = net.phase_maps(durations)
+    E, S = net.phase_maps(durations, integrals=integrals)
     tot = E[..., 0, :, :]
     for p in range(1, net.n_phases):
         tot = E[..., p, :, :] @ tot
@@ -796,14 +807,15 @@ class PeriodicSolution:
     z0 : ndarray (..., P, n_z)
         Augmented state [x; u] at the start of each phase.
     E, S : ndarray (..., P, n_z, n_z)
-        Phase transition and integral matrices.
+        Phase transition and integral matrices; S is None for a network with the
+        modal form (:attr:`Network.modes`), whose integrals come from the modes.
     """
 
     net: Network
     durations: np.ndarray
     z0: np.ndarray
     E: np.ndarray
-    S: np.ndarray
+    S: np.ndarray | None
 
     @property
     def period(self) -> np.ndarray:
@@ -839,7 +851,8 @@ class PeriodicSolution:
         net = self.net
         modes = net.modes
         if modes is None or net.n_x == 0:
-            iz = np.einsum("...pij,...pj->...pi", self.S, self.z0)
+            S = self.S if self.S is not None else net.phase_maps(self.durations)[1]
+            iz = np.einsum("...pij,...pj->...pi", S, self.z0)
             return np.einsum("...pmj,...pj->...m", K, iz)
         lam, V, Vinv, VN = modes
         nx = net.n_x
@@ -885,7 +898,7 @@ class PeriodicSolution:
         """
         K = self._K(names)
         d = self.durations
-        Es, _ = self.net.phase_maps(d / n)  # (..., P, nz, nz)
+        Es, _ = self.net.phase_maps(d / n, integrals=False)  # (..., P, nz, nz)
         zs = [self.z0]
         z = self.z0
         for _ in range(n):
@@ -1012,7 +1025,7 @@ def periodic_steady_state(net: Network, durations, u) -> PeriodicSolution:
         When the cycle map has an eigenvalue at 1 (a capacitor whose charge no
         phase ever changes, so its steady state is undefined).
     """
-    E, S, tot = cycle_map(net, durations)
+    E, S, tot = cycle_map(net, durations, integrals=False)  # S only without the modal form
     nx = net.n_x
     u = np.asarray(u, dtype=float)
     d = np.asarray(durations, dtype=float)
@@ -1244,7 +1257,7 @@ class StartupTransient:
             raise DesignError("network", "start-up over many cycles needs the modal form of a reciprocal RC network")
         self.net = net
         self.durations = np.asarray(durations, float)
-        E, S, tot = cycle_map(net, self.durations)
+        E, S, tot = cycle_map(net, self.durations, integrals=False)  # the modal form: no S needed
         nx = net.n_x
         self.E, self.S = E, S
         self.u = np.asarray(u, dtype=float)
@@ -1304,6 +1317,14 @@ class StartupTransient:
             z = z @ self.E[p].T
         d = np.broadcast_to(self.durations, (x.shape[0], self.net.n_phases))
         return PeriodicSolution(net=self.net, durations=d, z0=np.stack(zs, axis=1), E=self.E, S=self.S)
+
+    def cycles(self, cycles) -> PeriodicSolution:
+        """The cycles k (any indices) as a batch of one-cycle solutions (phase-start states, integrals, extrema).
+
+        Same closed form as :func:`startup` (x_k = x_ss + Φ^k·(x₀ − x_ss)), from the
+        decomposition this object already holds.
+        """
+        return self._solution(self.states(cycles), self.u)
 
     def cycle_extrema(self, cycles, names) -> tuple[np.ndarray, np.ndarray]:
         """Exact lowest and highest value of each probe in each phase of each cycle, each (len(cycles), P, m)."""

@@ -67,8 +67,7 @@ from ..errors import DesignError
 from ..loads import charge_per_turn_on, load_power, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
 from ..schedule import period_schedule
-from ..scnet import (MAX_STARTUP_CYCLES, Cap, ISrc, Network, Res, StartupTransient, VSrc, periodic_steady_state,
-                     startup)
+from ..scnet import MAX_STARTUP_CYCLES, Cap, ISrc, Network, Res, StartupTransient, VSrc, periodic_steady_state
 
 __all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
            "r_out_exact", "r_out_sqrt", "r_out_limits", "r_out_engine", "rail_from_r_out",
@@ -466,7 +465,7 @@ def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
     return r_out, m_engine, net, periodic_steady_state(net, pump.durations, u)
 
 
-def _rail_bounds(sol, pump: _Pump, load: _Load, r_out) -> dict:
+def _rail_bounds(sol, pump: _Pump, load: _Load, r_out, pump_extrema=None) -> dict:
     """Rail extremes: the pump's steady-state waveform plus the gate-charge pulse train.
 
     The pump's extremes are exact (:meth:`explorer.scnet.PeriodicSolution.extrema`:
@@ -474,9 +473,10 @@ def _rail_bounds(sol, pump: _Pump, load: _Load, r_out) -> dict:
 
     Worst-case relative phase of the two clocks (module notes):
     V_min = min(pump) + y_min, V_max = max(pump) + y_max [V]. Works on scalars
-    and on arrays of samples alike.
+    and on arrays of samples alike. ``pump_extrema``: the pump's (min, max) of v(out) when
+    already at hand.
     """
-    lo, hi = (a[..., 0] for a in sol.extrema(["v(out)"]))
+    lo, hi = (a[..., 0] for a in sol.extrema(["v(out)"])) if pump_extrema is None else pump_extrema
     if load.n_on > 0:
         r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
         y_min, y_max = pulse_train_extremes(load.q_pulse, pump.c_out, r_th, load.t_a / load.n_on)
@@ -526,7 +526,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
 
     t_w, y = sol.samples(["v(out)"], n=32)
     v_out_w = y[0]  # the plotted waveform; extremes are exact (PeriodicSolution.extrema)
-    x_lo, x_hi = sol.extrema(["x(c_fly)", "x(c_out)"])
+    x_lo, x_hi = sol.extrema(["x(c_fly)", "x(c_out)", "v(out)"])  # one batch; v(out) for the rail bounds
     mean = sol.mean(["v(out)", "i(v_in)"])
     v_mean = float(mean[0])
     i_in = -float(mean[1])
@@ -537,7 +537,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     i_peak_ss = np.maximum(np.abs(starts).max(axis=1), np.abs(ends[:6]).max(axis=1))
 
     # --- the pulse train, worst-case relative phase
-    rail = _rail_bounds(sol, pump, load, r_out)
+    rail = _rail_bounds(sol, pump, load, r_out, pump_extrema=(x_lo[2], x_hi[2]))
     y_min, y_max = rail["y_min"], rail["y_max"]
     v_min, v_max = rail["v_min"], rail["v_max"]
 
@@ -696,9 +696,9 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
     n_keep = int(min(max(n_keep, 200), MAX_STARTUP_CYCLES))
     step = max(1, n_keep // 2000)
     kk = np.arange(0, n_keep, step)
-    s = startup(net, pump.durations, u, cycles=kk)
-    v_tr = s.at_phase_ends(["v(out)"])[0][:, -1]
-    q_first = -s.phase_integrals(["i(v_in)"])[0, 0].sum()
+    s = tr.cycles(kk)  # the closed form of the recurrence, from the decomposition already at hand
+    v_tr = s.at_phase_ends(["v(out)"])[:, 0, -1]
+    q_first = -float(tr.cycles([0]).integral(["i(v_in)"])[0, 0])
     v_dd_dip = None
     if from_aux:  # the first cycle's charge taken from C_DD before the aux regulator responds
         v_dd_dip = float(max(q_first, 0.0) / design.aux.c_dd)
