@@ -238,14 +238,10 @@ def _exp_sum_roots(b: np.ndarray, lam: np.ndarray, T: np.ndarray) -> np.ndarray:
     shape = np.broadcast_shapes(b.shape[:-1], lam.shape[:-1], np.shape(T))
     if n <= 1:
         return np.full(shape + (0,), np.nan)
-    if n == 2:  # the closed form, with the larger exponent first (as sorted below) without a sort
-        swap = lam[..., 1] > lam[..., 0]
-        l_hi, l_lo = np.where(swap, lam[..., 1], lam[..., 0]), np.where(swap, lam[..., 0], lam[..., 1])
-        b_hi, b_lo = np.where(swap, b[..., 1], b[..., 0]), np.where(swap, b[..., 0], b[..., 1])
-        mu = l_lo - l_hi
+    if n == 2:  # the closed form, symmetric in the two terms (no sort needed)
         with np.errstate(divide="ignore", invalid="ignore"):
-            t = np.log(-b_hi / b_lo) / mu
-            ok = (mu < 0) & (t > 0) & (t < T)
+            t = np.log(-b[..., 0] / b[..., 1]) / (lam[..., 1] - lam[..., 0])
+            ok = (lam[..., 0] != lam[..., 1]) & (t > 0) & (t < T)
         return np.broadcast_to(np.where(ok, t, np.nan), shape)[..., None]
     order = np.argsort(-lam, axis=-1)
     lam = np.take_along_axis(np.broadcast_to(lam, shape + (n,)), np.broadcast_to(order, shape + (n,)), -1)
@@ -857,8 +853,10 @@ class PeriodicSolution:
         lam, V, Vinv, VN = modes
         nx = net.n_x
 
-        def mv(A, x):  # matrix times vector over the batch and phase dimensions; the matrices are
-            out = A[..., 0] * x[..., None, 0]  # tiny, so a sum of columns beats a batched matmul
+        def mv(A, x):  # matrix times vector over the batch and phase dimensions; the matrices are tiny, so
+            if x.size <= 1024:  # for a few of them one batched matmul costs least, for many a sum of columns
+                return (A @ x[..., None])[..., 0]
+            out = A[..., 0] * x[..., None, 0]
             for j in range(1, A.shape[-1]):
                 out = out + A[..., j] * x[..., None, j]
             return out
@@ -898,14 +896,12 @@ class PeriodicSolution:
         """
         K = self._K(names)
         d = self.durations
-        Es, _ = self.net.phase_maps(d / n, integrals=False)  # (..., P, nz, nz)
-        zs = [self.z0]
-        z = self.z0
-        for _ in range(n):
-            z = np.einsum("...pij,...pj->...pi", Es, z)
-            zs.append(z)
-        Z = np.stack(zs, axis=-2)  # (..., P, n+1, nz)
-        y = np.einsum("...pmj,...pkj->...mpk", K, Z)
+        frac = np.linspace(0.0, 1.0, n + 1).reshape((n + 1,) + (1,) * d.ndim)
+        # every sample instant's exact phase map at once (not n steps of one map), the instants on a
+        # leading axis so that they broadcast with the network's batch: (n+1, ..., P, nz, nz)
+        Es, _ = self.net.phase_maps(frac * d, integrals=False)
+        Z = np.moveaxis((Es @ self.z0[..., None])[..., 0], 0, -2)  # (..., P, n+1, nz)
+        y = np.swapaxes(K @ np.swapaxes(Z, -1, -2), -2, -3)  # (..., m, P, n+1)
         t0 = np.concatenate([np.zeros(d.shape[:-1] + (1,)), np.cumsum(d, axis=-1)[..., :-1]], axis=-1)
         t = t0[..., :, None] + d[..., :, None] * np.linspace(0.0, 1.0, n + 1)
         sh = y.shape[:-2] + (-1,)
@@ -1279,10 +1275,14 @@ class StartupTransient:
             rest = np.ones(nx, bool)
             rest[self._corner] = False
             self._rest = rest
-        self.periodic = self._solution(self.xss[None, :], self.u)
         self._amp: dict = {}
 
     # ------------------------------------------------------------------ evaluation
+    @cached_property
+    def periodic(self) -> PeriodicSolution:
+        """The periodic steady state the start-up tends to (one cycle from x_ss)."""
+        return self._solution(self.xss[None, :], self.u)
+
     @property
     def settling_cycles(self) -> float:
         """Cycles per e-fold of the slowest decaying mode, −1/ln ρ with ρ the largest |μ_i| < 1 (0 if none)."""
@@ -1495,7 +1495,10 @@ class StartupTransient:
             else:
                 open_ = ((hi_b > hi_best + tol) | (lo_b < lo_best - tol)).any(axis=(1, 2))
             keep = open_ & (b - a > 1.0) & (a < MAX_STARTUP_CYCLES)
-            if np.count_nonzero(keep) > _MAX_OPEN:  # bounded work: settle for the (conservative) bounds
+            n_open = np.count_nonzero(keep)
+            if n_open == 0:
+                break
+            if n_open > _MAX_OPEN:  # bounded work: settle for the (conservative) bounds
                 lo_best = np.minimum(lo_best, lo_b[keep].min(axis=(0, 1)))
                 hi_best = np.maximum(hi_best, hi_b[keep].max(axis=(0, 1)))
                 break

@@ -335,6 +335,8 @@ def rail_from_r_out(v_in, r_out, i_load, *, ratio: str, g_load=0.0):
         Resistive part of the load (V/R_GS share: duty/R_GS).
     """
     m = _circuit(ratio).m
+    if type(v_in) is float and type(r_out) is float and type(i_load) is float and type(g_load) is float:
+        return (m * v_in - r_out * i_load) / (1.0 + r_out * g_load)  # scalars: the same arithmetic, no numpy
     return (m * np.asarray(v_in) - np.asarray(r_out) * np.asarray(i_load)) / (1.0 + np.asarray(r_out) * g_load)
 
 
@@ -363,6 +365,13 @@ def pulse_train_extremes(q, c_out, r_th, t_p):
     -------
     y_min, y_max : float or array [V]
     """
+    if (all(type(v) is float or np.ndim(v) == 0 for v in (q, c_out, r_th, t_p))
+            and float(r_th) * float(c_out) > 0.0):
+        # scalars (the load-limit searches call this many times): the same arithmetic without numpy
+        qc = float(q) / float(c_out)
+        a = float(t_p) / (float(r_th) * float(c_out))
+        frac = 0.5 - a / 12.0 if a < 1e-6 else 1.0 / a - 1.0 / math.expm1(min(a, 700.0))
+        return qc * frac - qc, qc * frac
     q = np.asarray(q, float)
     a = np.asarray(t_p, float) / (np.asarray(r_th, float) * np.asarray(c_out, float))
     small = a < 1e-6
@@ -696,8 +705,10 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
     n_keep = int(min(max(n_keep, 200), MAX_STARTUP_CYCLES))
     step = max(1, n_keep // 2000)
     kk = np.arange(0, n_keep, step)
-    s = tr.cycles(kk)  # the closed form of the recurrence, from the decomposition already at hand
-    v_tr = s.at_phase_ends(["v(out)"])[:, 0, -1]
+    # v(out) at the end of each kept cycle: the last phase's probe row on the next cycle's start state
+    # (the closed form of the recurrence, from the decomposition already at hand)
+    k_last = net.stacked(net.probe_index(["v(out)"]))[1][-1, 0, :]
+    v_tr = tr.states(kk + 1) @ k_last[:net.n_x] + k_last[net.n_x:] @ u
     q_first = -float(tr.cycles([0]).integral(["i(v_in)"])[0, 0])
     v_dd_dip = None
     if from_aux:  # the first cycle's charge taken from C_DD before the aux regulator responds
