@@ -204,6 +204,55 @@ class RailSolution:
         return t, v
 
 
+def _rail_boundaries(dt, hs_on, hs_turn_on, *, v_src, r_out: float, c_out, q_pulse, i_q=0.0,
+                     r_gs: float | None = None):
+    """Boundary values of :func:`output_rail`'s periodic orbit, for a batch of element values.
+
+    ``v_src``, ``c_out``, ``q_pulse`` and ``i_q`` may be arrays of shape ``(m,)``
+    (one set per sample, over the same schedule); the results then have shape
+    ``(m, n)``, otherwise ``(n,)``. Returns ``v_start, v_after, v_end, v_inf,
+    tau, alpha`` (see :func:`output_rail` for the equations).
+    """
+    dt = np.asarray(dt, dtype=float)
+    hs_on = np.asarray(hs_on, dtype=bool)
+    batch = any(np.ndim(x) > 0 for x in (v_src, c_out, q_pulse, i_q))
+    v_src, c_out, q_pulse, i_q = ((np.asarray(x, dtype=float)[..., None] if batch else float(x))
+                                  for x in (v_src, c_out, q_pulse, i_q))
+    jump = np.where(np.asarray(hs_turn_on, dtype=bool), q_pulse / c_out, 0.0)
+    g = hs_on / r_gs if r_gs is not None else np.zeros(dt.shape)
+    # written without 1/r_out so that a vanishing r_out tends smoothly to the ideal source
+    tau = c_out * r_out / (1.0 + g * r_out)
+    shape = np.broadcast(jump, tau, v_src).shape
+    if r_out > 0.0 and np.all(tau > 0.0):
+        v_inf = np.broadcast_to((v_src - i_q * r_out) / (1.0 + g * r_out), shape)
+        with np.errstate(over="ignore"):
+            x = dt / tau                              # may be inf: the interval forgets its start
+        alpha = np.broadcast_to(np.exp(-x), shape)
+        one_minus_a = -np.expm1(-np.sum(np.broadcast_to(x, shape), axis=-1, keepdims=True))
+    else:  # ideal source: recovers at once to v_src
+        tau = np.zeros(shape)
+        v_inf = np.broadcast_to(v_src, shape).astype(float)
+        alpha = np.zeros(shape)
+        one_minus_a = 1.0
+    tau = np.broadcast_to(tau, shape)
+    jump = np.broadcast_to(jump, shape)
+    # interval map: V_end = alpha·(V_start − jump) + (1 − alpha)·V_inf
+    a_cum, b_cum = affine_scan(alpha, (1.0 - alpha) * v_inf - alpha * jump)
+    v0 = b_cum[..., -1:] / one_minus_a
+    v_end = a_cum * v0 + b_cum
+    v_start = np.concatenate((v0, v_end[..., :-1]), axis=-1)
+    v_after = v_start - jump
+    return v_start, v_after, v_end, v_inf, tau, alpha
+
+
+def output_rail_min(dt, hs_on, hs_turn_on, *, v_src, r_out: float, c_out, q_pulse, i_q=0.0,
+                    r_gs: float | None = None) -> np.ndarray:
+    """:func:`output_rail`'s ``min`` for a batch of element values (arrays of shape ``(m,)``) [V]."""
+    _, v_after, v_end, _, _, _ = _rail_boundaries(dt, hs_on, hs_turn_on, v_src=v_src, r_out=r_out, c_out=c_out,
+                                                   q_pulse=q_pulse, i_q=i_q, r_gs=r_gs)
+    return np.minimum(v_after.min(axis=-1), v_end.min(axis=-1))
+
+
 def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: float,
                 q_pulse: float, i_q: float = 0.0, r_gs: float | None = None) -> RailSolution:
     """Periodic steady state of a source behind a resistance charging a capacitor that feeds a gate driver.
@@ -245,28 +294,8 @@ def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: flo
     RailSolution
     """
     dt = np.asarray(dt, dtype=float)
-    hs_on = np.asarray(hs_on, dtype=bool)
-    jump = np.where(np.asarray(hs_turn_on, dtype=bool), q_pulse / c_out, 0.0)
-    g = hs_on / r_gs if r_gs is not None else np.zeros(dt.shape)
-    # written without 1/r_out so that a vanishing r_out tends smoothly to the ideal source
-    tau = c_out * r_out / (1.0 + g * r_out)
-    if r_out > 0.0 and np.all(tau > 0.0):
-        v_inf = (v_src - i_q * r_out) / (1.0 + g * r_out)
-        with np.errstate(over="ignore"):
-            x = dt / tau                              # may be inf: the interval forgets its start
-        alpha = np.exp(-x)
-        one_minus_a = -math.expm1(-float(x.sum()))
-    else:  # ideal source: recovers at once to v_src
-        tau = np.zeros(dt.shape)
-        v_inf = np.full(dt.shape, float(v_src))
-        alpha = np.zeros(dt.shape)
-        one_minus_a = 1.0
-    # interval map: V_end = alpha·(V_start − jump) + (1 − alpha)·V_inf
-    a_cum, b_cum = affine_scan(alpha, (1.0 - alpha) * v_inf - alpha * jump)
-    v0 = b_cum[-1] / one_minus_a
-    v_end = a_cum * v0 + b_cum
-    v_start = np.concatenate(([v0], v_end[:-1]))
-    v_after = v_start - jump
+    v_start, v_after, v_end, v_inf, tau, alpha = _rail_boundaries(
+        dt, hs_on, hs_turn_on, v_src=v_src, r_out=r_out, c_out=c_out, q_pulse=q_pulse, i_q=i_q, r_gs=r_gs)
     period = float(dt.sum())
     # time average: ∫V = V_inf·dt + (V_after − V_inf)·tau·(1 − alpha)
     area = v_inf * dt + (v_after - v_inf) * tau * (1.0 - alpha)
@@ -588,6 +617,10 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         checks=tuple(checks), extra=extra, cautions=(INSULATION_STATEMENT,), t=t_wave, v=v_wave)
 
 
+#: Samples per block in :func:`rail_min_batch`.
+_BATCH = 512
+
+
 def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarray:
     """Steady-state rail minimum for many spread samples at once [V].
 
@@ -608,10 +641,11 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
             else np.ones(n))
     v_src = module_output(design, option) * k_in
     c_eff = capacitance(cap.c * k_c, v_applied=v_src, v_rating=cap.v_rating, dc_bias=cap.dc_bias)
+    q_on = design.gate.q_g * q_g + design.driver.q_ls
     out = np.empty(n)
-    for i in range(n):
-        q_on = design.gate.q_g * q_g[i] + design.driver.q_ls
-        out[i] = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=float(v_src[i]), r_out=option.r_out,
-                             c_out=float(c_eff[i]), q_pulse=q_on, i_q=design.driver.i_q * i_q[i],
-                             r_gs=design.gate.r_gs).min
+    for a in range(0, n, _BATCH):  # blocks keep the (samples × intervals) arrays in cache
+        j = slice(a, a + _BATCH)
+        out[j] = output_rail_min(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=v_src[j], r_out=option.r_out,
+                                 c_out=np.asarray(c_eff, dtype=float)[j], q_pulse=q_on[j],
+                                 i_q=design.driver.i_q * i_q[j], r_gs=design.gate.r_gs)
     return out
