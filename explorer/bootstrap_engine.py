@@ -860,12 +860,11 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
     observed miss divided by ``δ²``, an overestimate where rounding dominates),
     and an interval is re-linearised while that predicted miss exceeds
     ``tol·(1 + |V|)·(1 − S)/(10·n)`` (``n`` intervals, ``S`` the product of
-    the slopes of a periodic row, 0 for a trajectory). The trajectory's error
-    is the misses propagated through slopes no larger than one, so the
-    misses together stay below a tenth of the tolerance (Deuflhard, *Newton
-    Methods for Nonlinear Problems*, Springer 2004, §1.2: error estimates from
-    the observed contraction). Intervals never re-linearised yet keep the plain
-    ``δ ≤ tol`` rule.
+    the slopes of a periodic row, 0 for a trajectory). The miss is the Taylor
+    remainder of the tangent (second order in ``δ``); the trajectory's error
+    is the misses propagated through slopes no larger than one, so the misses
+    together stay below a tenth of the tolerance. Intervals never
+    re-linearised yet keep the plain ``δ ≤ tol`` rule.
     """
     q = loop.q_step / loop.c
     linear = loop.diode == "linear"
