@@ -1,5 +1,7 @@
 """Charge-pump models against Seeman & Sanders (2008) and first principles."""
 
+import warnings
+
 import numpy as np
 import pytest
 from hypothesis import given, settings
@@ -7,7 +9,7 @@ from hypothesis import strategies as st
 from numpy.testing import assert_allclose
 
 from explorer import demo_design, replace_field
-from explorer.errors import DesignError
+from explorer.errors import DesignError, ModelValidityWarning
 from explorer.options.charge_pump import (CIRCUITS, evaluate_option, pulse_train_extremes, pump_durations,
                                           pump_network, r_fsl, r_out_engine, r_out_exact, r_out_limits,
                                           r_out_sqrt, r_ssl, rail_from_r_out)
@@ -168,9 +170,12 @@ def test_f_sw_max_is_where_the_rail_meets_the_requirement(demo):
     d2 = replace_field(demo, "bridge.f_sw", f_max * 0.9)
     d3 = replace_field(demo, "bridge.f_sw", min(f_max * 1.1, 4.9e6))
     from explorer.loads import required_rail
-    assert evaluate_option(d2, d2.options[1]).v_rail.min > required_rail(demo)
+    # at these bridge frequencies the 500 kHz pump runs under one cycle per turn-on: the model says so
+    with pytest.warns(ModelValidityWarning, match="cycles between high-side turn-ons"):
+        assert evaluate_option(d2, d2.options[1]).v_rail.min > required_rail(demo)
     assert f_max * 1.1 < 4.9e6
-    assert evaluate_option(d3, d3.options[1]).v_rail.min < required_rail(demo)
+    with pytest.warns(ModelValidityWarning, match="cycles between high-side turn-ons"):
+        assert evaluate_option(d3, d3.options[1]).v_rail.min < required_rail(demo)
 
 
 @settings(max_examples=25, deadline=None)
@@ -180,7 +185,9 @@ def test_efficiency_never_above_ideal(idx, f, c, r):
     d = replace_field(demo_design(), f"options[{idx}].f_cp", f)
     d = replace_field(d, f"options[{idx}].c_fly.c", c)
     d = replace_field(d, f"options[{idx}].r_on", r)
-    res = evaluate_option(d, d.options[idx])
+    with warnings.catch_warnings():  # slow pump clocks leave the model's range (warned); the bound holds anyway
+        warnings.simplefilter("ignore", ModelValidityWarning)
+        res = evaluate_option(d, d.options[idx])
     if res.v_rail.mean <= 0:  # the rail collapses under the load: no efficiency is reported
         assert res.efficiency is None and not res.feasible
         return

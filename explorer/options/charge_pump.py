@@ -51,11 +51,17 @@ state under the average load, from the engine; (2) the zero-mean pulse train
 pump ripple's minimum and its peak at the pump ripple's maximum, so
 V_min = min(pump) + y_min and V_max = max(pump) + y_max, a bound over every
 relative phase of the two clocks.
+
+Model validity. :func:`pump_validity` states where these assumptions stop holding (switch-node
+edges or switch transitions that fill a pump phase, too few pump cycles between gate pulses for the
+averaged pulse treatment, an R_GS load whose on/off pattern the averaging hides); each reason is
+warned with :class:`~explorer.errors.ModelValidityWarning` and listed in ``OptionResult.warnings``.
 """
 
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
 
 import numpy as np
@@ -63,7 +69,7 @@ from scipy.optimize import brentq
 
 from ..capacitors import capacitance, parse_dielectric
 from ..design import ChargePumpOption, Design
-from ..errors import DesignError
+from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, load_power, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
 from ..schedule import period_schedule
@@ -71,7 +77,8 @@ from ..scnet import MAX_STARTUP_CYCLES, Cap, ISrc, Network, Res, StartupTransien
 
 __all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
            "r_out_exact", "r_out_sqrt", "r_out_limits", "r_out_engine", "rail_from_r_out",
-           "pulse_train_extremes", "evaluate_option", "rail_min_batch"]
+           "pulse_train_extremes", "pump_validity", "pull_down_sag", "longest_on_time", "evaluate_option",
+           "rail_min_batch"]
 
 PHI1, DEAD1, PHI2, DEAD2 = 0, 1, 2, 3
 
@@ -384,6 +391,185 @@ def pulse_train_extremes(q, c_out, r_th, t_p):
     return y_min, y_max
 
 
+# --------------------------------------------------------------------------- model validity
+
+#: Common practice, no source: an event the model treats as instantaneous (a switch-node edge: the domain
+#: crossing, the gate-charge pulse) should last at most a tenth of the pump phase it falls in.
+EDGE_PHASES = 10.0
+#: Common practice, no source: the switches' transitions, which the pump dead time allows for, should take at
+#: most a quarter of a conducting phase for switches modelled as R_on or open.
+DEAD_SHARE = 0.25
+#: Common practice, no source: a loop time constant below a tenth of the switch transitions is not resolved
+#: (the same rule the bootstrap model applies to its charging loop against the edge time).
+TAU_TRANSITION_RATIO = 0.1
+#: Pump cycles between HS turn-ons below which the averaged treatment of the gate-charge pulses stops holding.
+#: Common practice, no source (averaged models need the disturbance slower than the switching); set where a
+#: comparison of the demo pumps with the exact periodic solution of pump and pulse train (worked out with this
+#: engine, pulses as charge steps, every relative phase) moved from a few % of Q/C_out (2.5 cycles per pulse) to
+#: over 20 % (one cycle) and 40 % (a quarter cycle).
+PULSE_CYCLES_MIN = 2.0
+#: Common practice, no source: the droop the averaged R_GS current hides may be at most a tenth of the rail
+#: ripple the model reports.
+RGS_RIPPLE_SHARE = 0.1
+
+
+def longest_on_time(schedule) -> float:
+    """Longest unbroken high-side on-time of a schedule [s] (wrapping round for a periodic one; 0 if never on).
+
+    Parameters
+    ----------
+    schedule : explorer.schedule.Schedule
+    """
+    on = np.asarray(schedule.hs_on, bool)
+    dt = np.asarray(schedule.dt, float)
+    if not on.any():
+        return 0.0
+    if on.all():
+        return math.inf if schedule.periodic else float(dt.sum())
+    # run sums of consecutive on-intervals (rolled so that the array starts with an off-interval)
+    start = int(np.flatnonzero(~on)[0]) if schedule.periodic else 0
+    on, dt = np.roll(on, -start), np.roll(dt, -start)
+    grp = np.cumsum(~on)  # a run of on-intervals shares the count of off-intervals before it
+    return float(np.bincount(grp[on], weights=dt[on]).max())
+
+
+def pump_validity(design: Design, option: ChargePumpOption, *, tau_loop: float, r_th: float, c_out: float,
+                  v_mean: float, ripple: float, schedule=None) -> list[str]:
+    """Plain-words reasons why a pump design leaves the range the model assumes (empty: none).
+
+    The model (module notes) rests on these assumptions; each check flags where one stops holding:
+
+    * **Switch-node edges are instants inside a pump phase.** The domain crossing (``c_par`` swung
+      through V_bus) and the gate-charge pulse drawn from C_out are events of one edge time
+      ``t_edge``; the per-phase state equations contain neither. A conducting pump phase
+      t_c = 1/(2·f_cp) − t_dead,cp shorter than :data:`EDGE_PHASES` edge times is flagged (unless
+      the edge outlasts an interval of the schedule, which
+      :func:`explorer.schedule.schedule_validity` already flags for every model).
+    * **Pump switches are R_on or open, switching instantly.** The switches' own transitions are not
+      given; the dead time is what a design allows for them, so a dead time above
+      :data:`DEAD_SHARE` of t_c is flagged, and so is a charge-transfer loop whose time constant
+      (the fastest mode of the pump's network, τ = 1/max|λ|) is below
+      :data:`TAU_TRANSITION_RATIO` of the dead time: its peak and RMS currents are then set by the
+      transitions, not by R_on (no dead time given: the switches are taken as ideal, no check).
+    * **The gate-charge pulses meet an averaged pump.** Between HS turn-ons (every
+      t_p = t_a/n_on) the pump's recovery is its output resistance with C_out, spread evenly over
+      time; with fewer than :data:`PULSE_CYCLES_MIN` pump cycles per t_p the recovery comes in a few
+      discrete transfers at fixed phases of the pulse train and the worst-phase rail minimum can be
+      lower than shown.
+    * **The R_GS share of the load is averaged.** The pull-down draws V/R_GS only while the HS is
+      on; the model spreads it over t_a. Over the longest HS on-time t_on,max the rail sags by about
+      ΔV = (V/R_GS)·(1 − d_on)·min(R_th, t_on,max/C_out) more than that average (first-order RC
+      response to the zero-mean part of the on/off current: quasi-static R·I for long on-times,
+      charge I·t/C for short ones); flagged above :data:`RGS_RIPPLE_SHARE` of the reported ripple.
+
+    Not flagged, because the model does not depend on it: the frequency relation of the pump clock
+    and the PWM. The rail extremes take the worst relative phase (module notes), a bound for a
+    fixed phase (synchronised or harmonically related clocks) as for a drifting one; the
+    domain-crossing loss is the average over a drifting phase, with its worst case (a fixed phase
+    at the worst point) in ``extra["domain_crossing_worst"]``. Edges longer than an interval of the
+    schedule are flagged for every model by :func:`explorer.schedule.schedule_validity`.
+
+    Parameters
+    ----------
+    design : Design
+    option : ChargePumpOption
+    tau_loop : float [s]
+        Time constant of the pump network's fastest mode over its phases.
+    r_th : float [Ω]
+        Thevenin resistance of the rail (R_out, in parallel with the averaged R_GS resistor).
+    c_out : float [F]
+        Effective output capacitance.
+    v_mean : float [V]
+        Mean rail voltage.
+    ripple : float [V]
+        Rail ripple the model reports (maximum − minimum).
+    schedule : explorer.schedule.Schedule, optional
+        The design's period schedule (computed if not given).
+
+    Returns
+    -------
+    list of str
+        One plain-words line per assumption that does not hold.
+    """
+    from ..units import format_eng
+
+    def f(x, unit):
+        return format_eng(x, unit)
+
+    sched = schedule if schedule is not None else period_schedule(design)
+    b = design.bridge
+    out = []
+    t_c = 0.5 / option.f_cp - option.dead_time_cp  # one conducting phase
+    live = sched.dt[sched.dt > 0]
+    edge_flagged = bool(live.size) and b.t_edge > float(live.min())  # already said for every model
+    if t_c < EDGE_PHASES * b.t_edge and not edge_flagged:
+        out.append(f"the pump's conducting phase ({f(t_c, 's')}) is shorter than {EDGE_PHASES:g} switch-node edge "
+                   f"times (t_edge = {f(b.t_edge, 's')}): the model treats the domain crossing and the gate-charge "
+                   "pulse as instants inside a pump phase, so its rail, current and crossing-loss figures are not "
+                   "reliable at this pump clock")
+    t_d = option.dead_time_cp
+    if t_d > DEAD_SHARE * t_c:
+        out.append(f"the pump's dead time ({f(t_d, 's')}) is more than {DEAD_SHARE:g} of its conducting phase "
+                   f"({f(t_c, 's')}): the switch transitions it allows for, which the model treats as instant "
+                   "(each switch at r_on or open), fill much of each phase, so R_out, the losses and the currents "
+                   "are not reliable")
+    if t_d > 0.0 and tau_loop < TAU_TRANSITION_RATIO * t_d:
+        out.append(f"the pump's fastest charge-transfer loop has a time constant of {f(tau_loop, 's')}, below "
+                   f"{TAU_TRANSITION_RATIO:g} of its dead time ({f(t_d, 's')}, the allowance for its switch "
+                   "transitions): the loop settles while a switch is still turning on, so the peak and RMS currents "
+                   "are set by the transitions and not resolved by the model")
+    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    if n_on > 0:
+        q_pulse = charge_per_turn_on(design)
+        t_p = sched.period / n_on
+        cycles = option.f_cp * t_p
+        if cycles < PULSE_CYCLES_MIN:
+            out.append(f"the pump runs only {cycles:.3g} cycles between high-side turn-ons (f_cp = "
+                       f"{f(option.f_cp, 'Hz')}, a turn-on every {f(t_p, 's')}): the model spreads the pump's "
+                       f"recovery from each gate-charge pulse evenly, which needs at least {PULSE_CYCLES_MIN:g}; "
+                       "the rail minimum can be lower than shown by a sizable part of the pulse dip "
+                       f"Q/C_out = {f(q_pulse / c_out, 'V')}")
+    sag = pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=c_out)
+    if sag > RGS_RIPPLE_SHARE * ripple:
+        out.append(f"the gate pull-down R_GS draws V/R_GS = {f(v_mean / design.gate.r_gs, 'A')} only while the "
+                   f"high side is on, which the model averages over the period: over the longest on-time "
+                   f"({f(longest_on_time(sched), 's')}) the rail sags about {f(sag, 'V')} more than shown, over "
+                   f"{RGS_RIPPLE_SHARE:g} of the ripple the model reports ({f(ripple, 'V')})")
+    return out
+
+
+def pull_down_sag(design: Design, schedule, *, v_mean: float, r_th: float, c_out: float) -> float:
+    """Extra sag of the rail the averaged R_GS load hides [V] (0 without R_GS or without an on/off pattern).
+
+    The pull-down draws I = V/R_GS only while the HS is on (a share d_on of the period); the
+    model spreads it evenly. The zero-mean rest, (1 − d_on)·I during an on-time, drives the rail's
+    averaged source (R_th with C_out) down by at most
+
+        ΔV = I·(1 − d_on)·min(R_th, t_on,max/C_out)
+
+    (first-order RC circuit driven by a current step, any circuit-theory textbook: the quasi-static
+    R·I for on-times far above R_th·C_out, the charge I·t/C_out for far shorter ones).
+
+    Parameters
+    ----------
+    design : Design
+    schedule : explorer.schedule.Schedule
+    v_mean : float [V]
+        Mean rail.
+    r_th : float [Ω]
+        Thevenin resistance of the rail.
+    c_out : float [F]
+        Effective output capacitance.
+    """
+    r_gs = design.gate.r_gs
+    if r_gs is None or v_mean <= 0.0:
+        return 0.0
+    d_on = float(schedule.dt[schedule.hs_on].sum()) / schedule.period
+    if not 0.0 < d_on < 1.0:
+        return 0.0
+    return (v_mean / r_gs) * (1.0 - d_on) * min(r_th, longest_on_time(schedule) / c_out)
+
+
 # --------------------------------------------------------------------------- the option model
 
 @dataclass(frozen=True)
@@ -584,7 +770,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     st = _startup(pump, v_in, design, from_aux=option.v_in is None, net=net if r_eq is None else None)
 
     # --- capacitor stress (steady state and start-up)
-    warnings = []
+    warn = []
     checks = []
     caps = []
     for name, xw, i_rms, i_pk, cap, c_eff, extra_rip in (
@@ -613,7 +799,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         checks.append(Check("switch_v_block", v_block, lim_sw, "max", "V",
                             "pump switches block V_bus + V_in within their derated rating"))
         if v_block > lim_sw:
-            warnings.append(f"the pump switches must block V_bus + V_in = {v_block:g} V, above "
+            warn.append(f"the pump switches must block V_bus + V_in = {v_block:g} V, above "
                             f"{design.checks.switch_derating:g} \u00d7 their {option.v_rating_sw:g} V rating "
                             f"= {lim_sw:g} V")
 
@@ -637,15 +823,24 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
                         "the pump alone brings the rail up to the UVLO rising threshold (highest rail "
                         "during start-up)"))
     if collapsed:
-        warnings.append("the pump cannot carry the gate-drive load: its mean rail would fall below 0 V "
+        warn.append("the pump cannot carry the gate-drive load: its mean rail would fall below 0 V "
                         "(the driver would stay in UVLO); efficiency is not defined")
     if v_ideal > design.gate.v_gs_max:
-        warnings.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the gate's "
+        warn.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the gate's "
                         f"V_GS rating of {design.gate.v_gs_max:g} V")
     if v_ideal > design.driver.v_bs_max:
-        warnings.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the driver's "
+        warn.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the driver's "
                         f"V_BS maximum of {design.driver.v_bs_max:g} V")
-    feasible, verdict = verdict_from(checks, warnings)
+    # --- where the model's assumptions stop holding (pump_validity); warned once per evaluation
+    lam = net.modes[0] if net.modes is not None else np.zeros(1)
+    rate = float(np.max(-lam, initial=0.0))
+    tau_loop = 1.0 / rate if rate > 0.0 else math.inf
+    r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
+    for msg in pump_validity(design, option, tau_loop=tau_loop, r_th=r_th, c_out=pump.c_out, v_mean=v_mean,
+                             ripple=v_max - v_min, schedule=sched):
+        warnings.warn(f"{option.label}: {msg}", ModelValidityWarning, stacklevel=2)
+        warn.append(msg)
+    feasible, verdict = verdict_from(checks, warn)
 
     extra = {
         "ratio": circ.ratio, "m": circ.m, "m_engine": m_engine, "v_in": v_in, "v_ideal": v_ideal,
@@ -661,11 +856,13 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         "f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
         "switch_i_rms": [float(v) for v in i_sw_rms], "switch_i_peak": [float(v) for v in i_peak_ss[:4]],
         "startup_i_peak_switch": st["i_peak"],
+        "tau_loop": tau_loop, "pump_cycles_per_turn_on": (pump.f_cp * t_a / n_on) if n_on else None,
+        "pull_down_sag": pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=pump.c_out),
         "treatment_async": "superposition: pump steady state under the average load plus the gate-charge "
                            "pulse train through R_out and C_out, extremes aligned (worst-case phase)",
     }
     return OptionResult(
-        label=option.label, kind="charge_pump", feasible=feasible, verdict=verdict, warnings=tuple(warnings),
+        label=option.label, kind="charge_pump", feasible=feasible, verdict=verdict, warnings=tuple(warn),
         v_rail=RailStats(min=v_min, max=v_max, mean=v_mean), efficiency=efficiency,
         p_delivered=p_delivered, p_drawn=p_drawn, startup=st["startup"], duty=duty, r_out=r_out,
         capacitors=tuple(caps), p_drawn_aux=p_drawn_aux, p_drawn_bus=p_cross, losses=losses,
