@@ -641,6 +641,19 @@ class Network:
         F, K = self._FK
         return F, (K if rows is None else K[..., rows, :])
 
+    def probe_rows(self, names) -> np.ndarray:
+        """K's rows of the named probes, shape (*batch, P, m, n_z) (kept per list of names: an evaluation asks
+        for the same few lists many times)."""
+        key = tuple(names)
+        hit = self._rows_cache.get(key)
+        if hit is None:
+            hit = self._rows_cache[key] = self._FK[1][..., self.probe_index(key), :]
+        return hit
+
+    @cached_property
+    def _rows_cache(self) -> dict:
+        return {}
+
     @cached_property
     def _FK(self) -> tuple[np.ndarray, np.ndarray]:
         """State matrices F (*batch, P, n_z, n_z) and probe matrices K (*g, P, n_probes, n_z) of every phase.
@@ -824,7 +837,7 @@ class PeriodicSolution:
         return self.z0[..., 0, :self.net.n_x]
 
     def _K(self, names):
-        return self.net.stacked(self.net.probe_index(names))[1]  # (*batch, P, m, nz)
+        return self.net.probe_rows(names)  # (*batch, P, m, nz)
 
     def integral(self, names) -> np.ndarray:
         """∫ y dt over one cycle for each probe, shape (..., m) [V·s or C].
@@ -982,7 +995,7 @@ def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarra
     ndarray (..., P, m)
         For a current probe times a resistance, the energy dissipated [J].
     """
-    F, K = net.stacked(net.probe_index(names))
+    F, K = net.stacked()[0], net.probe_rows(names)
     z0 = np.asarray(z_start, float)
     nz = z0.shape[-1]
     d = np.asarray(durations, float)
@@ -1579,7 +1592,7 @@ class StartupTransient:
             return None
         k = np.arange(_FIRST_PASS, dtype=float)
         z = self._solution(self.states(k), self.u).z0  # (n, P, n_z)
-        K = self.net.stacked(self.net.probe_index([name]))[1][:, 0, :]  # (P, n_z)
+        K = self.net.probe_rows([name])[:, 0, :]  # (P, n_z)
         y0 = (z * K).sum(axis=-1)  # (n, P)
         y1 = (z * (K[:, None, :] @ self.E)[:, 0, :]).sum(axis=-1)  # K·E_p·z
         cand = np.flatnonzero((np.maximum(sgn * y0, sgn * y1) >= thr).any(axis=1))
@@ -1645,7 +1658,7 @@ class StartupTransient:
         t_start = float(self.durations[:p].sum())
         dur = float(self.durations[p])
         z0 = zk[p]
-        K = net.stacked(net.probe_index([name]))[1][p, 0, :]
+        K = net.probe_rows([name])[p, 0, :]
         w = Vinv[p] @ z0[:nx]
         g = VN[p] @ self.u
         kk = K[:nx] @ V[p]

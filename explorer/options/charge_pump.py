@@ -426,11 +426,12 @@ def longest_on_time(schedule) -> float:
         return 0.0
     if on.all():
         return math.inf if schedule.periodic else float(dt.sum())
-    # run sums of consecutive on-intervals (rolled so that the array starts with an off-interval)
-    start = int(np.flatnonzero(~on)[0]) if schedule.periodic else 0
-    on, dt = np.roll(on, -start), np.roll(dt, -start)
     grp = np.cumsum(~on)  # a run of on-intervals shares the count of off-intervals before it
-    return float(np.bincount(grp[on], weights=dt[on]).max())
+    runs = np.bincount(grp[on], weights=dt[on])
+    best = float(runs.max())
+    if schedule.periodic and on[0] and on[-1]:  # the last run continues into the first
+        best = max(best, float(runs[grp[0]] + runs[grp[-1]]))
+    return best
 
 
 def pump_validity(design: Design, option: ChargePumpOption, *, tau_loop: float, r_th: float, c_out: float,
@@ -904,7 +905,7 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
     kk = np.arange(0, n_keep, step)
     # v(out) at the end of each kept cycle: the last phase's probe row on the next cycle's start state
     # (the closed form of the recurrence, from the decomposition already at hand)
-    k_last = net.stacked(net.probe_index(["v(out)"]))[1][-1, 0, :]
+    k_last = net.probe_rows(["v(out)"])[-1, 0, :]
     v_tr = tr.states(kk + 1) @ k_last[:net.n_x] + k_last[net.n_x:] @ u
     q_first = -float(tr.cycles([0]).integral(["i(v_in)"])[0, 0])
     v_dd_dip = None
