@@ -403,10 +403,11 @@ DEAD_SHARE = 0.25
 #: (the same rule the bootstrap model applies to its charging loop against the edge time).
 TAU_TRANSITION_RATIO = 0.1
 #: Pump cycles between HS turn-ons below which the averaged treatment of the gate-charge pulses stops holding.
-#: Common practice, no source (averaged models need the disturbance slower than the switching); set where a
-#: comparison of the demo pumps with the exact periodic solution of pump and pulse train (worked out with this
-#: engine, pulses as charge steps, every relative phase) moved from a few % of Q/C_out (2.5 cycles per pulse) to
-#: over 20 % (one cycle) and 40 % (a quarter cycle).
+#: Common practice, no source (averaged models need the disturbance slower than the switching). Where the demo
+#: pumps were compared with the exact periodic solution of pump and pulse train at every relative phase, the
+#: model's worst-phase minimum held to a few % of Q/C_out at 2.5 cycles per turn-on and was optimistic by over
+#: 20 % at one cycle and about 40 % at half a cycle (pulse just before a transfer phase); ngspice confirms both
+#: sides (tests/test_charge_pump_validity.py).
 PULSE_CYCLES_MIN = 2.0
 #: Common practice, no source: the droop the averaged R_GS current hides may be at most a tenth of the rail
 #: ripple the model reports.
