@@ -647,7 +647,9 @@ class Network:
         key = tuple(names)
         hit = self._rows_cache.get(key)
         if hit is None:
-            hit = self._rows_cache[key] = self._FK[1][..., self.probe_index(key), :]
+            hit = self._FK[1][..., self.probe_index(key), :]
+            hit.flags.writeable = False  # shared by every caller
+            self._rows_cache[key] = hit
         return hit
 
     @cached_property
