@@ -860,7 +860,11 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
     observed miss divided by ``δ²``, an overestimate where rounding dominates),
     and an interval is re-linearised while that predicted miss exceeds
     ``tol·(1 + |V|)·(1 − S)/(10·n)`` (``n`` intervals, ``S`` the product of
-    the slopes of a periodic row, 0 for a trajectory). The miss is the Taylor
+    the slopes of a periodic row, 0 for a trajectory). The estimate is used
+    only where it is local: measured over a step below 1 % of the junction's
+    voltage scale ``n·V_T`` and no shorter than the new step (a map that is
+    flat where the rail settles and bends where the diode takes over would
+    otherwise look straight from a wide step). The miss is the Taylor
     remainder of the tangent (second order in ``δ``); the trajectory's error
     is the misses propagated through slopes no larger than one, so the misses
     together stay below a tenth of the tolerance. Intervals never
@@ -876,6 +880,8 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
     else:
         v1, s = junction_map(v0, loop)
         curv = np.full(v0.shape, np.inf)  # |V1''|/2 estimates, unknown at first
+        span = np.full(v0.shape, np.inf)  # the step over which each estimate was measured
+        local = 0.01 * loop.n_vt          # estimates from steps this small are local (the junction's scale)
         n_iv = v0.shape[-1]
     for passes in range(1, _MAX_PASSES + 1):
         u = _fixed_point(s, v1 - s * v_lin, q, v_init)
@@ -888,7 +894,7 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
             if v_init is None:  # periodic rows: a miss is amplified by 1/(1 − S)
                 share = share * np.clip(1.0 - np.prod(s, axis=-1, keepdims=True), 0.0, 1.0)
             with np.errstate(invalid="ignore"):  # inf·0 where a never-linearised interval did not move
-                moved &= ~(curv * step * step <= share * tol_v)
+                moved &= ~((curv * step * step <= share * tol_v) & (span <= local) & (step <= span))
         moved &= np.isfinite(v0)
         if not moved.any():
             converged = True
@@ -904,6 +910,7 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
             with np.errstate(divide="ignore", invalid="ignore"):
                 c_m = np.abs(v1_m - guess) / (dv * dv)
             curv[moved] = np.where(np.isfinite(c_m), c_m, np.inf)
+            span[moved] = np.abs(dv)
         v1[moved] = v1_m
         s[moved] = s_m
         v_lin[moved] = v0[moved]

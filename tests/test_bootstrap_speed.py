@@ -213,6 +213,24 @@ def test_fuzz_junction_mean_rail_matches_solve_ivp():
         assert ss.integrals["int_v"][k] == pytest.approx(sol.y[1, -1], rel=1e-7)
 
 
+def test_fuzz_orbit_tangent_is_not_carried_across_the_diode_knee():
+    # a boost at 2.8 kHz whose bus (5 V) is below the aux rail: while the HS is on the rail falls
+    # from above the source through the pull-down and leakage, with the diode off. The orbit
+    # iteration had linearised that interval where the rail settles (slope 0, no curvature) and
+    # kept the tangent across a 4.8 V step. Sources: conservation of charge per steady-state
+    # period, and the exact maps stepped one interval at a time (the orbit is their fixed point)
+    d = _fuzz("bootstrap-orbit-tangent-across-knee.json")
+    ss = steady_state(d, d.options[0])
+    q_in, q_out = ss.charge_balance()
+    assert q_in == pytest.approx(q_out, rel=1e-9)
+    lp = _broadcast_loop(ss.loop)
+    for k in range(len(lp.dt)):
+        one = Loop(**{f: getattr(lp, f)[k:k + 1] for f in ("dt", "v_src", "c", "r", "i_load", "g_load",
+                                                            "q_step", "v_f", "i_s", "n_vt")}, diode="junction")
+        v1, _ = interval_map(ss.orbit.v_start[k:k + 1], one)
+        assert v1[0] == pytest.approx(ss.orbit.v_end[k], rel=1e-12)
+
+
 def test_fuzz_collapsed_rail_reports_no_efficiency():
     d = _fuzz("bootstrap-efficiency-collapsed.json")
     r = evaluate_option(d, d.options[0])
