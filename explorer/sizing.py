@@ -8,13 +8,18 @@ capacitor searches, the next lower preferred value does not.
 from __future__ import annotations
 
 import math
+import warnings
 from dataclasses import dataclass
+
+import numpy as np
 
 from .design import (BootstrapOption, ChargePumpOption, Design, IsolatedOption, LinearDiode, load_design, replace_field,
                      replace_fields)
 from .errors import DesignError
 from .loads import load_power
+from .errors import ModelValidityWarning
 from .options import model_for
+from .options.charge_pump import PULSE_CYCLES_MIN
 from .options.isolated import module_output
 from .preferred import next_preferred, preferred_values
 from .schedule import period_schedule
@@ -66,7 +71,25 @@ def _index(design: Design, label: str) -> int:
 
 
 def _margin(design: Design, label: str) -> float:
-    return worst_case(design, label).margin
+    """Worst-corner margin of a candidate; its model-validity warnings are held back (see :func:`_validity`)."""
+    with warnings.catch_warnings():
+        warnings.simplefilter("ignore", ModelValidityWarning)
+        return worst_case(design, label).margin
+
+
+def _validity(design: Design, label: str) -> str:
+    """The chosen design's model-validity reasons, warned once and returned for the note ('' if none).
+
+    A search visits many candidates, so their warnings are held back; the answer's own are what
+    the user must see.
+    """
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always", ModelValidityWarning)
+        model_for(design.option(label).kind)(design, design.option(label))
+    reasons = list(dict.fromkeys(str(w.message) for w in rec if issubclass(w.category, ModelValidityWarning)))
+    for r in reasons:
+        warnings.warn(r, ModelValidityWarning, stacklevel=3)
+    return "; model validity: " + "; ".join(reasons) if reasons else ""
 
 
 def size_capacitor(design, label: str, *, series: str = "E12", lo: float = 1e-9, hi: float = 1e-3) -> SizingResult:
@@ -104,9 +127,10 @@ def size_capacitor(design, label: str, *, series: str = "E12", lo: float = 1e-9,
         else:
             a = c
     below = cands[a] if a >= 0 else None
-    return SizingResult(label, path, cands[b], m(b), below, m(a) if a >= 0 else None,
-                        replace_field(d, path, cands[b]),
-                        f"smallest {series} value holding the worst corner: {cands[b]:.3g} F")
+    chosen = replace_field(d, path, cands[b])
+    return SizingResult(label, path, cands[b], m(b), below, m(a) if a >= 0 else None, chosen,
+                        f"smallest {series} value holding the worst corner: {cands[b]:.3g} F"
+                        + _validity(chosen, label))
 
 
 def size_bootstrap_resistor(design, label: str, i_max: float, *, series: str = "E24") -> SizingResult:
@@ -134,11 +158,18 @@ def size_bootstrap_resistor(design, label: str, i_max: float, *, series: str = "
     ok = margin >= 0
     return SizingResult(label, path, r if ok else None, margin, None, None, dd if ok else None,
                         f"R = {r:.3g} \u03a9 limits the inrush to {i_max:.3g} A" +
-                        ("" if ok else "; but the rail then no longer holds at the worst corner"))
+                        ("" if ok else "; but the rail then no longer holds at the worst corner")
+                        + (_validity(dd, label) if ok else ""))
 
 
 def size_pump_frequency(design, label: str, *, f_lo: float = 1e3, f_hi: float = 50e6, rel: float = 1e-3) -> SizingResult:
-    """Lowest pump clock f_cp whose rail holds the margin at the worst corner (bisection in log f)."""
+    """Lowest pump clock f_cp whose rail holds the margin at the worst corner (bisection in log f).
+
+    The search starts no lower than the model's own validity floor: at least
+    :data:`explorer.options.charge_pump.PULSE_CYCLES_MIN` pump cycles between
+    high-side turn-ons (below it the averaged pump can show a rail minimum
+    higher than the real one), and the note says when that floor is the answer.
+    """
     d = load_design(design)
     i = _index(d, label)
     opt = d.options[i]
@@ -150,21 +181,29 @@ def size_pump_frequency(design, label: str, *, f_lo: float = 1e3, f_hi: float = 
         return _margin(replace_field(d, path, f), label)
 
     f_hi = min(f_hi, 0.49 / max(opt.dead_time_cp, 1e-300))
-    if m(f_hi) < 0:
+    sched = period_schedule(d)
+    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    f_floor = PULSE_CYCLES_MIN * n_on / sched.period * (1 + 1e-9) if n_on else 0.0  # just inside the floor
+    floor_binds = f_floor > f_lo
+    f_lo = max(f_lo, f_floor)
+    if f_lo >= f_hi or m(f_hi) < 0:
         return SizingResult(label, path, None, None, None, None, None,
-                            f"no pump clock up to {f_hi:g} Hz holds the worst corner")
+                            f"no pump clock from {f_lo:.4g} to {f_hi:.4g} Hz holds the worst corner")
     a, b = f_lo, f_hi
     if m(a) >= 0:
-        return SizingResult(label, path, a, m(a), None, None, replace_field(d, path, a),
-                            f"already holds at {a:g} Hz")
+        chosen = replace_field(d, path, a)
+        why = (f"the model's validity floor ({PULSE_CYCLES_MIN:g} pump cycles per high-side turn-on, "
+               f"{a:.4g} Hz) already holds the worst corner" if floor_binds else f"already holds at {a:g} Hz")
+        return SizingResult(label, path, a, m(a), None, None, chosen, why + _validity(chosen, label))
     while b / a > 1 + rel:
         c = math.sqrt(a * b)
         if m(c) >= 0:
             b = c
         else:
             a = c
-    return SizingResult(label, path, b, m(b), a, m(a), replace_field(d, path, b),
-                        f"lowest pump clock holding the worst corner: {b:.4g} Hz")
+    chosen = replace_field(d, path, b)
+    return SizingResult(label, path, b, m(b), a, m(a), chosen,
+                        f"lowest pump clock holding the worst corner: {b:.4g} Hz" + _validity(chosen, label))
 
 
 def size_isolated_rating(design, label: str, *, headroom: float = 2.0, series: str = "E6") -> SizingResult:
