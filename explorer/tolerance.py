@@ -10,9 +10,13 @@ option, factors)``; Monte Carlo then runs vectorised, otherwise it loops.
 Spreads (design sections ``spread``, ``aux`` and each capacitor):
 
 * capacitance: the part's symmetric tolerance ``c_tol`` times the EIA-198
-  temperature-class envelope [1 + ΔC_low, 1 + ΔC_high]. The class gives an
-  envelope, not a curve, so corners take its bounds and Monte Carlo samples
-  uniformly within it; the DC-bias factor stays in the model;
+  temperature-class envelope [1 + ΔC_low, 1 + ΔC_high], for each capacitor of
+  the option on its own (a pump's flying and output capacitors are separate
+  parts, each with its own tolerance and class: ``k_c`` and ``k_out``). The
+  class gives an envelope, not a curve, so corners take its bounds and Monte
+  Carlo samples uniformly within it, independently per capacitor (the corners
+  therefore include combinations a common temperature would not produce: on
+  the safe side); the DC-bias factor stays in the model;
 * gate charge, driver quiescent current, diode forward voltage: ± the
   relative spreads of the ``spread`` section;
 * aux rail: ± ``aux.v_dd_tol``;
@@ -48,7 +52,7 @@ from .options import model_for
 __all__ = ["Factors", "apply_factors", "corner_factors", "sample_factors", "worst_case", "WorstCase", "monte_carlo",
            "MonteCarlo", "clopper_pearson"]
 
-_NAMES = ("k_c", "q_g", "i_q", "v_dd", "v_f", "t")
+_NAMES = ("k_c", "k_out", "q_g", "i_q", "v_dd", "v_f", "t")
 
 
 @dataclass(frozen=True)
@@ -57,12 +61,15 @@ class Factors:
 
     Attributes
     ----------
-    k_c : capacitance factor (tolerance × temperature class) on every capacitor of the option [-]
+    k_c : capacitance factor (tolerance × temperature class) on the option's first capacitor: C_boot,
+          a pump's C_fly, an isolated module's C_out [-]
+    k_out : the same for a charge pump's output capacitor (1 for the other kinds) [-]
     q_g, i_q, v_dd, v_f : factors on gate charge, quiescent current, aux rail, diode forward voltage [-]
     t : temperature [°C]; sets the leakage growth
     """
 
     k_c: float | np.ndarray = 1.0
+    k_out: float | np.ndarray = 1.0
     q_g: float | np.ndarray = 1.0
     i_q: float | np.ndarray = 1.0
     v_dd: float | np.ndarray = 1.0
@@ -87,9 +94,10 @@ def _scaled_cap(cap: Capacitor, k: float) -> Capacitor:
 def apply_factors(design: Design, label: str, f: Factors) -> Design:
     """The design with one option and the shared parts perturbed by scalar factors.
 
-    The option's capacitors get ``c·k_c`` with tolerance and temperature class
-    already applied; gate, driver, aux rail and the bootstrap diode are scaled.
-    The result is evaluated at the ``"nominal"`` corner.
+    The option's capacitors get ``c·k_c`` (a pump's output capacitor ``c·k_out``)
+    with tolerance and temperature class already applied; gate, driver, aux rail
+    and the bootstrap diode are scaled. The result is evaluated at the
+    ``"nominal"`` corner.
     """
     opt = design.option(label)
     leak = float(f.leak(design))
@@ -106,7 +114,8 @@ def apply_factors(design: Design, label: str, f: Factors) -> Design:
         opt = dataclasses.replace(opt, c=opt.c * f.k_c, c_tol=0.0, dielectric="ideal", diode=diode,
                                   i_leak=opt.i_leak * leak)
     elif isinstance(opt, ChargePumpOption):
-        opt = dataclasses.replace(opt, c_fly=_scaled_cap(opt.c_fly, f.k_c), c_out=_scaled_cap(opt.c_out, f.k_c),
+        opt = dataclasses.replace(opt, c_fly=_scaled_cap(opt.c_fly, f.k_c),
+                                  c_out=_scaled_cap(opt.c_out, f.k_out),
                                   v_in=None if opt.v_in is None else opt.v_in * f.v_dd)
     elif isinstance(opt, IsolatedOption):
         opt = dataclasses.replace(opt, c_out=_scaled_cap(opt.c_out, f.k_c),
@@ -128,16 +137,10 @@ def _capacitors(opt) -> list[Capacitor]:
     return [opt.c_out]
 
 
-def _cap_envelope(design: Design, label: str) -> tuple[float, float]:
-    """Lowest and highest capacitance factor of the option's capacitors (tolerance × class)."""
-    opt = design.option(label)
-    caps = _capacitors(opt)
-    lo, hi = [], []
-    for c in caps:
-        d = parse_dielectric(c.dielectric)
-        lo.append((1 - c.c_tol) * (1 + d.dc_low))
-        hi.append((1 + c.c_tol) * (1 + d.dc_high))
-    return min(lo), max(hi)
+def _cap_range(cap: Capacitor) -> tuple[float, float]:
+    """Lowest and highest capacitance factor of one capacitor (tolerance × temperature class)."""
+    d = parse_dielectric(cap.dielectric)
+    return (1 - cap.c_tol) * (1 + d.dc_low), (1 + cap.c_tol) * (1 + d.dc_high)
 
 
 def _ranges(design: Design, label: str) -> dict:
@@ -149,10 +152,11 @@ def _ranges(design: Design, label: str) -> dict:
     """
     s = design.spread
     opt = design.option(label)
-    k_lo, k_hi = _cap_envelope(design, label)
+    caps = _capacitors(opt)
     boot = isinstance(opt, BootstrapOption)
     t_amb = design.checks.t_amb
-    return {"k_c": (k_lo, k_hi), "q_g": (1 - s.q_g, 1 + s.q_g), "i_q": (1 - s.i_q, 1 + s.i_q),
+    return {"k_c": _cap_range(caps[0]), "k_out": _cap_range(caps[1]) if len(caps) > 1 else (1.0, 1.0),
+            "q_g": (1 - s.q_g, 1 + s.q_g), "i_q": (1 - s.i_q, 1 + s.i_q),
             "v_dd": (1.0, 1.0) if isinstance(opt, IsolatedOption) and opt.v_in_rated is None else
             (1 - design.aux.v_dd_tol, 1 + design.aux.v_dd_tol),
             "v_f": (1 - s.v_f, 1 + s.v_f) if boot else (1.0, 1.0),
@@ -254,19 +258,18 @@ def sample_factors(design: Design, label: str, n: int, rng: np.random.Generator)
         lo, hi = ranges[name]
         if lo == hi:
             out[name] = np.full(n, lo)
-        elif name in ("k_c", "t") or not gaussian:
+        elif name in ("k_c", "k_out", "t") or not gaussian:
             out[name] = rng.uniform(lo, hi, n)
         else:
             mid, sigma = 0.5 * (lo + hi), (hi - lo) / 6.0
             out[name] = mid + sigma * np.clip(rng.standard_normal(n), -4.5, 4.5)
     if gaussian:
-        # capacitance: tolerance gaussian (3σ = c_tol) times the class envelope sampled uniformly
-        opt = design.option(label)
-        caps = _capacitors(opt)
-        tol = max(c.c_tol for c in caps)
-        d = [parse_dielectric(c.dielectric) for c in caps]
-        k_t = rng.uniform(min(x.dc_low for x in d), max(x.dc_high for x in d), n)
-        out["k_c"] = (1 + tol / 3 * np.clip(rng.standard_normal(n), -4.5, 4.5)) * (1 + k_t)
+        # capacitance, per capacitor: its tolerance gaussian (3σ = c_tol) times its class envelope
+        # sampled uniformly
+        for name, cap in zip(("k_c", "k_out"), _capacitors(design.option(label))):
+            d = parse_dielectric(cap.dielectric)
+            k_t = rng.uniform(d.dc_low, d.dc_high, n)
+            out[name] = (1 + cap.c_tol / 3 * np.clip(rng.standard_normal(n), -4.5, 4.5)) * (1 + k_t)
     return Factors(**out)
 
 

@@ -233,3 +233,27 @@ def test_temperature_sweep_grows_leakage():
     assert rail[1] == pytest.approx(evaluate(d)[BOOT].v_rail.min, rel=1e-12)
     s2 = sweep(d, {"temperature": [200.0]}, labels=[BOOT], figures=["rail_min"])
     assert "checks.t_amb" in s2.invalid[(0,)]
+
+
+def test_pump_capacitors_spread_each_within_its_own_class():
+    # invented scenario: the demo's 1:1 pump with a C0G output capacitor (5 %) beside its X7R flying
+    # capacitor (10 %). Sources: EIA-198 class limits (X7R ±15 % and C0G 0 ± 30 ppm/K, i.e. within
+    # ±0.3 %, over −55…+125 °C) times each part's own tolerance
+    d = demo_with(**{"options.1.c_out.dielectric": "C0G", "options.1.c_out.c_tol": 0.05,
+                     "options.1.c_fly.c_tol": 0.10})
+    label = "pump 1:1"
+    f = sample_factors(d, label, 4000, np.random.default_rng(2))
+    assert f.k_c.min() >= 0.90 * 0.85 - 1e-12 and f.k_c.max() <= 1.10 * 1.15 + 1e-12
+    assert f.k_out.min() >= 0.95 * 0.997 - 1e-12 and f.k_out.max() <= 1.05 * 1.003 + 1e-12
+    assert f.k_out.min() < 0.96 and f.k_c.min() < 0.80  # both envelopes are explored
+    assert abs(np.corrcoef(f.k_c, f.k_out)[0, 1]) < 0.1  # drawn independently
+    names = [n for n, _ in corner_factors(d, label)]
+    assert any("k_out low" in n for n in names) and any("k_c high" in n and "k_out low" in n for n in names)
+    # the batched samples equal evaluate_option on the design apply_factors perturbs
+    from explorer.options.charge_pump import evaluate_option, rail_min_batch
+    g = sample_factors(d, label, 6, np.random.default_rng(9))
+    batch = rail_min_batch(d, d.option(label), g)
+    for i in range(6):
+        di = apply_factors(d, label, g.at(i))
+        assert di.option(label).c_out.c == pytest.approx(1e-6 * g.k_out[i], rel=1e-15)
+        assert batch[i] == pytest.approx(evaluate_option(di, di.option(label)).v_rail.min, rel=1e-12)

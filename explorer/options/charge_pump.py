@@ -593,26 +593,27 @@ class _Pump:
     r_on: float
 
 
-def _resolve(design: Design, opt: ChargePumpOption, corner: str, *, k_c=None, k_v=None) -> _Pump:
-    """Effective pump values; ``k_c``, ``k_v`` (arrays) scale the nominal capacitances and V_in per sample.
+def _resolve(design: Design, opt: ChargePumpOption, corner: str, *, k_c=None, k_out=None, k_v=None) -> _Pump:
+    """Effective pump values; ``k_c``, ``k_out``, ``k_v`` (arrays) scale C_fly, C_out and V_in per sample.
 
     With factors the arithmetic is that of :func:`explorer.tolerance.apply_factors`
-    followed by the nominal corner (c·k_c, then × the DC-bias factor; V_in·k_v).
+    followed by the nominal corner (c·k, then × the DC-bias factor; V_in·k_v).
+    ``k_out`` None: C_out takes ``k_c`` as well.
     """
     circ = _circuit(opt.ratio)
     v_in = opt.v_in if opt.v_in is not None else design.aux.v_dd
     if k_v is not None:
         v_in = v_in * k_v
 
-    def ceff(cap, v, name):
-        c = capacitance(cap.c if k_c is None else cap.c * k_c, c_tol=cap.c_tol,
+    def ceff(cap, v, name, k):
+        c = capacitance(cap.c if k is None else cap.c * k, c_tol=cap.c_tol,
                         dielectric=parse_dielectric(cap.dielectric, name), v_applied=v, v_rating=cap.v_rating,
                         dc_bias=cap.dc_bias, corner=corner)
         return float(c) if np.ndim(c) == 0 else np.asarray(c, dtype=float)
 
     return _Pump(circ=circ, v_in=v_in, f_cp=opt.f_cp, durations=pump_durations(opt.f_cp, opt.dead_time_cp),
-                 c_fly=ceff(opt.c_fly, circ.v_fly * v_in, "c_fly.dielectric"),
-                 c_out=ceff(opt.c_out, circ.m * v_in, "c_out.dielectric"),
+                 c_fly=ceff(opt.c_fly, circ.v_fly * v_in, "c_fly.dielectric", k_c),
+                 c_out=ceff(opt.c_out, circ.m * v_in, "c_out.dielectric", k_c if k_out is None else k_out),
                  esr_fly=opt.c_fly.esr, esr_out=opt.c_out.esr, r_on=opt.r_on)
 
 
@@ -972,7 +973,7 @@ def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndar
     ``factors`` is an :class:`explorer.tolerance.Factors` of equal-length
     arrays. Sample ``i`` is what :func:`evaluate_option` gives for the design
     perturbed by :func:`explorer.tolerance.apply_factors` with ``factors.at(i)``:
-    both capacitors × k_c with the DC-bias factor at the sample's V_in, V_in ×
+    C_fly × k_c and C_out × k_out with the DC-bias factor at the sample's V_in, V_in ×
     v_dd, gate charge × q_g and quiescent current × i_q (v_f and temperature do
     not enter a pump). The samples are one batch of networks of the same
     topology (arrays of element values, see :mod:`explorer.scnet`), solved at
@@ -986,7 +987,7 @@ def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndar
     def col(x):
         return np.broadcast_to(np.asarray(x, dtype=float), (n,))
 
-    pump = _resolve(design, option, "nominal", k_c=k_c, k_v=col(factors.v_dd))
+    pump = _resolve(design, option, "nominal", k_c=k_c, k_out=col(factors.k_out), k_v=col(factors.v_dd))
     load = _rail_load(design, period_schedule(design), k_q=col(factors.q_g), k_i=col(factors.i_q))
     r_out, _, _, sol = _steady(pump, option, load)
     return np.asarray(_rail_bounds(sol, pump, load, r_out)["v_min"], dtype=float).reshape(n)
