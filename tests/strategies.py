@@ -87,7 +87,8 @@ def options(draw, i, kinds=None, f_cp_min=1e3, junction=True):
             "p_no_load": p_rated * (1 / eta - 1) * draw(st.floats(0, 0.9)), "eta_full": eta,
             "c_out": capacitor(draw), "c_iso": draw(logu(1e-13, 1e-10)), "v_iso": draw(logu(10, 1e4)),
             "cmti": draw(logu(1e9, 1e12)), "r_out": draw(st.sampled_from([0, 0.5, 5])),
-            "t_start": draw(st.sampled_from([0, 1e-4])), "t_ramp": draw(st.sampled_from([0, 1e-3]))}
+            "t_start": draw(st.sampled_from([0, 1e-4])), "t_ramp": draw(st.sampled_from([0, 1e-3])),
+            "v_in_rated": draw(st.sampled_from([None, 12.0]))}
 
 
 @st.composite
