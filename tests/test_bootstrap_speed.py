@@ -322,6 +322,24 @@ def test_fundamental_bounds_bracket_the_exact_minimum(kw):
         assert a <= exact + 1e-9 and exact <= b + 1e-9
 
 
+@pytest.mark.parametrize("axis", ["m", "f_o"])
+def test_limit_screening_equals_the_exact_scan(axis):
+    # reference: the exact rail minimum of every case along the axis (every switching period of the
+    # fundamental solved), scanned from the easiest case until the first failure. _passes screens
+    # with the bounds and bisects among the undecided cases; the answers must be the same
+    from explorer.options.bootstrap import _passes
+    d = _three_phase(f_sw=20e3, m=1.0, f_o=1.0, c=10e-6, v_rating=25.0)
+    circ = bootstrap_circuit(d, d.options[0])
+    need = required_rail(d)
+    if axis == "m":
+        cases = [(float(m), 1.0) for m in np.linspace(0.9, 1.2, 13)]
+    else:
+        cases = [(1.1, float(f)) for f in np.geomspace(50.0, 1.0, 13)]
+    ref = np.cumprod([_full_fundamental_min(d, circ, m, f) >= need for m, f in cases]).astype(bool)
+    assert ref.any() and not ref.all()  # the threshold lies inside the scan
+    assert np.array_equal(_passes(d, circ, cases, need), ref)
+
+
 def test_lowest_output_frequency_is_searched_to_the_quasi_static_limit():
     # a leg that holds at 2 Hz but not at standstill: the search goes down to f_sw/QUASI_STATIC_PERIODS
     # (below it the schedule analyses standstill, the safe-side bound) and the rail minimum at the

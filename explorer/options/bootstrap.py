@@ -858,29 +858,37 @@ def _fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     return lower, upper
 
 
-def _passes(design, circ, cases, need):
+def _passes(design, circ, cases, need, exact=None):
     """Whether the rail minimum over a fundamental stays at or above ``need`` for each ``(m, f_o)``.
 
     ``cases`` must be ordered from the easiest to the hardest (m rising or f_o
-    falling): the rail minimum falls monotonically along them (tested), so once
-    one fails the rest fail. Each is decided by :func:`_fundamental_bounds` where
-    the threshold lies outside the bounds, else by the exact minimum of
-    :func:`_full_fundamental_min`.
+    falling): the rail minimum falls monotonically along them (tested), so the
+    answer is a run of passes followed by a run of failures. Each case is first
+    screened by :func:`_fundamental_bounds` (passes where its lower bound is at
+    or above ``need``, fails where its upper bound is below); the boundary among
+    the undecided ones is found by bisection on exact minima
+    (:func:`_full_fundamental_min`, or ``exact(m, f_o)`` when given, e.g. a
+    memoised one), a few exact solves instead of one per undecided case.
     """
+    exact = exact or (lambda m, f_o: _full_fundamental_min(design, circ, m, f_o))
     n = np.array([periods_per_fundamental(design.bridge.f_sw, f_o) for _, f_o in cases])
     lower = np.full(len(cases), -np.inf)
     upper = np.full(len(cases), np.inf)
     big = np.flatnonzero(n > _BOUNDS_FROM)  # below this the exact solve is cheaper than the bounds
     if big.size:
         lower[big], upper[big] = _fundamental_bounds(design, circ, [cases[i] for i in big])
-    ok = np.zeros(len(cases), dtype=bool)
-    for i in range(len(cases)):
-        if lower[i] >= need:
-            ok[i] = True
-        elif upper[i] < need or not _full_fundamental_min(design, circ, *cases[i]) >= need:
-            break
+    fails = np.flatnonzero(upper < need)
+    hi = int(fails[0]) if fails.size else len(cases)       # cases from hi on fail
+    holds = np.flatnonzero(lower[:hi] >= need)
+    lo = int(holds[-1]) if holds.size else -1              # cases up to lo pass
+    while hi - lo > 1:
+        mid = (lo + hi) // 2
+        if exact(*cases[mid]) >= need:
+            lo = mid
         else:
-            ok[i] = True
+            hi = mid
+    ok = np.zeros(len(cases), dtype=bool)
+    ok[:lo + 1] = True
     return ok
 
 
@@ -899,12 +907,20 @@ def _three_phase_terms(design, circ, need):
     """
     b = design.bridge
     out = {}
+    memo: dict = {}
+
+    def exact(m, f_o):  # each exact minimum once per evaluation (grid rounds share their ends)
+        key = (float(m), float(f_o))
+        if key not in memo:
+            memo[key] = _full_fundamental_min(design, circ, m, f_o)
+        return memo[key]
+
     lo, hi = 0.0, 4 / math.pi
     m_max = None
     bracket = None
     for _ in range(3):
         g = np.linspace(lo, hi, 17)
-        ok = _passes(design, circ, [(float(x), b.f_o) for x in g], need)
+        ok = _passes(design, circ, [(float(x), b.f_o) for x in g], need, exact)
         if ok.all():
             m_max = float(hi)
             bracket = None
@@ -917,11 +933,11 @@ def _three_phase_terms(design, circ, need):
         lo, hi = float(g[j - 1]), float(g[j])
         bracket = (lo, hi)
     if bracket is not None:
-        m0, m1 = (_full_fundamental_min(design, circ, x, b.f_o) for x in bracket)
+        m0, m1 = (exact(x, b.f_o) for x in bracket)
         frac = (m0 - need) / (m0 - m1) if np.isfinite(m1) and m0 != m1 else 0.0
         m_max = float(lo + min(max(frac, 0.0), 1.0) * (hi - lo))
     out["m_max"] = m_max
-    if _full_fundamental_min(design, circ, b.m, 0.0) >= need:
+    if exact(b.m, 0.0) >= need:
         out["f_o_min"] = 0.0
         return out
     f_hi = b.f_sw / 2.0
@@ -930,7 +946,7 @@ def _three_phase_terms(design, circ, need):
         g = np.geomspace(f_lo, f_hi, 17)
         if r:
             g = g[1:-1]  # the bracket ends are known
-        ok = _passes(design, circ, [(b.m, float(f)) for f in g[::-1]], need)[::-1]
+        ok = _passes(design, circ, [(b.m, float(f)) for f in g[::-1]], need, exact)[::-1]
         if r == 0 and not ok[-1]:
             out["f_o_min"] = None
             return out
