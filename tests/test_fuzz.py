@@ -59,14 +59,11 @@ CHARGE_RTOL = 1e-9
 ORBIT_TOL = 1e-13
 #: Start-up cycles drawn in the long run (short, so that 10⁴ examples fit in about five minutes).
 FUZZ_STARTUP_CYCLES = (10, 30)
-#: Most switching periods per three-phase fundamental in the long run. Since the three-phase duty-limit
-#: search was bounded (cee4b30, 000784b) the long run draws bootstraps on three-phase legs again, with
-#: the straight-line diode (0.1-0.9 s each). Two things keep this bound and the junction diode out:
-#: a junction-diode bootstrap on a 50 Hz leg at 177 kHz (3 500 periods) took 36 s (finding
-#: bootstrap-three-phase-junction-slow, reproducer in tests/reference/bootstrap/fuzz; 2.7 s since its
-#: Newton iterations stopped degrading to bisection, still too slow for ~10³ draws), and at 10⁴
-#: periods the isolated module's charge balance exceeds this file's rounding floor (2e-14 C against
-#: 6e-15 C: the floor does not grow with the number of intervals summed; to be revisited).
+#: Most switching periods per three-phase fundamental in the long run. Bootstraps on three-phase legs
+#: are drawn with both diodes (the junction-diode reproducer bootstrap-three-phase-junction-slow took
+#: 36 s and now 0.7 s; a 10⁴ run with them takes about 85 s, slowest example 1.7 s). The bound stays
+#: because at 10⁴ periods the isolated module's charge balance exceeds this file's rounding floor
+#: (2e-14 C against 6e-15 C: the floor does not grow with the number of intervals summed; to be revisited).
 FUZZ_MAX_PERIODS = 4000
 
 
@@ -200,7 +197,7 @@ def _run_shard(shard: int, n: int) -> dict:
 
     @settings(max_examples=n, **_FUZZ_SETTINGS)
     @given(designs(max_options=1, startup_cycles=FUZZ_STARTUP_CYCLES,
-                   max_periods=FUZZ_MAX_PERIODS, bootstrap_three_phase="linear"))
+                   max_periods=FUZZ_MAX_PERIODS, bootstrap_three_phase=True))
     def prop(d):
         stats["examples_run"] += 1
         t = time.perf_counter()
