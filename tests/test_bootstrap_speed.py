@@ -135,6 +135,20 @@ ORBITS = [
 ]
 
 
+def _one_interval(lp, k):
+    """Interval k of a broadcast loop as a loop of its own (for stepping the exact maps one by one)."""
+    return Loop(**{f: getattr(lp, f)[k:k + 1] for f in ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step",
+                                                         "v_f", "i_s", "n_vt")}, diode=lp.diode)
+
+
+def _assert_orbit_balances_charge(d):
+    """Source: conservation of charge per steady-state period (diode charge in = load charge out), 1e-9."""
+    ss = steady_state(d, d.options[0])
+    q_in, q_out = ss.charge_balance()
+    assert q_in == pytest.approx(q_out, rel=1e-9)
+    return ss
+
+
 @pytest.mark.parametrize("case", range(len(ORBITS)))
 def test_junction_steady_orbit_is_a_fixed_point_of_the_exact_maps(case):
     # reference: the exact interval maps applied one interval at a time (no Newton, no tangents) from
@@ -149,9 +163,7 @@ def test_junction_steady_orbit_is_a_fixed_point_of_the_exact_maps(case):
     seq = np.empty(n)
     slope = 1.0
     for k in range(n):
-        one = Loop(**{f: getattr(lp, f)[k:k + 1] for f in ("dt", "v_src", "c", "r", "i_load", "g_load",
-                                                            "q_step", "v_f", "i_s", "n_vt")}, diode="junction")
-        v1, s1 = interval_map(np.array([v - lp.q_step[k] / lp.c[k]]), one)
+        v1, s1 = interval_map(np.array([v - lp.q_step[k] / lp.c[k]]), _one_interval(lp, k))
         v = float(v1[0])
         slope *= float(s1[0])
         seq[k] = v
@@ -168,9 +180,8 @@ import warnings  # noqa: E402
 
 from scipy.integrate import solve_ivp  # noqa: E402
 
-from explorer.bootstrap_engine import Loop, _broadcast_loop, junction_current  # noqa: E402
+from explorer.bootstrap_engine import junction_current  # noqa: E402
 from explorer.errors import ModelValidityWarning  # noqa: E402
-from explorer.options.bootstrap import steady_state  # noqa: E402
 
 FUZZ = os.path.join(os.path.dirname(__file__), "reference", "bootstrap", "fuzz")
 
@@ -191,10 +202,7 @@ def test_fuzz_uvlo_hiccup_is_bounded_and_conserves_charge():
     assert r.extra["startup_segments"] < 40  # was one piece per UVLO event (~4000)
     assert r.v_rail.min <= r.v_rail.mean <= r.v_rail.max
     assert 0 < r.efficiency <= 1 and _finite_figures(r)
-    # source: conservation of charge per steady-state period
-    ss = steady_state(d, d.options[0])
-    q_in, q_out = ss.charge_balance()
-    assert q_in == pytest.approx(q_out, rel=1e-9)
+    _assert_orbit_balances_charge(d)
 
 
 def test_fuzz_junction_mean_rail_matches_solve_ivp():
@@ -220,14 +228,10 @@ def test_fuzz_orbit_tangent_is_not_carried_across_the_diode_knee():
     # kept the tangent across a 4.8 V step. Sources: conservation of charge per steady-state
     # period, and the exact maps stepped one interval at a time (the orbit is their fixed point)
     d = _fuzz("bootstrap-orbit-tangent-across-knee.json")
-    ss = steady_state(d, d.options[0])
-    q_in, q_out = ss.charge_balance()
-    assert q_in == pytest.approx(q_out, rel=1e-9)
+    ss = _assert_orbit_balances_charge(d)
     lp = _broadcast_loop(ss.loop)
     for k in range(len(lp.dt)):
-        one = Loop(**{f: getattr(lp, f)[k:k + 1] for f in ("dt", "v_src", "c", "r", "i_load", "g_load",
-                                                            "q_step", "v_f", "i_s", "n_vt")}, diode="junction")
-        v1, _ = interval_map(ss.orbit.v_start[k:k + 1], one)
+        v1, _ = interval_map(ss.orbit.v_start[k:k + 1], _one_interval(lp, k))
         assert v1[0] == pytest.approx(ss.orbit.v_end[k], rel=1e-12)
 
 
@@ -242,9 +246,7 @@ def test_fuzz_three_phase_junction_reproducer_conserves_charge():
         r = evaluate_option(d, d.options[0])
     assert _finite_figures(r) and r.v_rail.min <= r.v_rail.mean <= r.v_rail.max
     assert r.efficiency is None or 0 < r.efficiency <= 1
-    ss = steady_state(d, d.options[0])
-    q_in, q_out = ss.charge_balance()
-    assert q_in == pytest.approx(q_out, rel=1e-9)
+    _assert_orbit_balances_charge(d)
 
 
 def test_fuzz_collapsed_rail_reports_no_efficiency():
@@ -270,9 +272,7 @@ def test_fuzz_pulldown_while_junction_conducts_balances_charge(name):
     else:
         assert r.efficiency is not None and 0 < r.efficiency <= 1
     assert _finite_figures(r)
-    ss = steady_state(d, d.options[0])
-    q_in, q_out = ss.charge_balance()
-    assert q_in == pytest.approx(q_out, rel=1e-9)
+    _assert_orbit_balances_charge(d)
 
 
 def _loaded_junction_cases():
