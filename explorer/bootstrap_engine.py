@@ -488,10 +488,10 @@ def _bracketed_newton(fun, x, lo, hi, active, iters: int = 60, bracket_tol: floa
 
     Stops where the step falls below 1e-14 relative and no longer grows, or where the bracket has
     shrunk below ``bracket_tol`` relative (a few ulp; wider for a ``fun`` with quadrature noise,
-    whose iterates would otherwise wander inside the noise band until ``iters``). A tiny step alone is not enough: next to a logarithmic singularity at a
-    bracket end (Φ at the equilibrium current) the derivative is huge and the first steps are tiny
-    although the root is far away; there the steps grow geometrically while the iterate creeps off
-    the singularity. A Newton step that leaves the bracket goes to the bracket end it crossed if
+    whose iterates would otherwise wander inside the noise band until ``iters``). A tiny step
+    alone is not enough: next to a logarithmic singularity at a bracket end (Φ at the equilibrium
+    current) the derivative is huge and the first steps are tiny although the root is far away;
+    there the steps grow geometrically while the iterate creeps off the singularity. A Newton step that leaves the bracket goes to the bracket end it crossed if
     that end (an a-priori bound) has not been evaluated yet, else to the midpoint: a root at the
     bound itself, within rounding, is then found at once instead of by halving.
     """

@@ -682,8 +682,13 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         return OrbitSolution(**{k: (v.reshape(shape + (n,)) if v.ndim == 2 else v.reshape(shape))
                                 for k, v in cat.items()},
                              passes=max(o.passes for o in parts), converged=all(o.converged for o in parts))
-    # a collapsing rail reads 0 V, as in evaluate_option (below 0 V the constant-load model no longer holds)
-    return np.where(out < 0.0, 0.0, out).reshape(shape)
+    return _reported_min(out).reshape(shape)
+
+
+def _reported_min(v_min):
+    """Rail minimum as reported: a collapsing rail reads 0 V, as in evaluate_option (below 0 V the
+    constant-load model no longer holds)."""
+    return np.where(v_min < 0.0, 0.0, v_min)
 
 
 #: Design points per block in :func:`rail_min_map`.
@@ -696,7 +701,7 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
     th = np.asarray(thresholds, dtype=float)
     grid = np.linspace(h_lo, h_hi, DUTY_GRID + 1)
     coarse = rail_min_map(design, None, f, grid, circ=circ, full=True)
-    vm = np.where(coarse.v_min < 0.0, 0.0, coarse.v_min)  # as rail_min_map reports a collapsed rail
+    vm = _reported_min(coarse.v_min)
     vm = np.where(np.isfinite(vm), vm, -np.inf)
     out: list = [None] * th.size
     lo = np.zeros(th.size)
