@@ -7,7 +7,7 @@ PYTHON ?= python3
 VENV   := .venv
 BIN    := $(VENV)/bin
 STAMP  := $(VENV)/.installed-$(shell cat pyproject.toml | cksum | cut -d' ' -f1)
-APT_PACKAGES := ngspice
+APT_PACKAGES := ngspice chromium
 
 .PHONY: demo test bench sysdeps venv clean
 
