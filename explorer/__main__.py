@@ -104,14 +104,14 @@ def _netlist(args, design, caught) -> int:
 def _envelope(args, design, caught) -> int:
     """``envelope``: worst corner and Monte Carlo per option, as text or JSON."""
     from .tolerance import monte_carlo, worst_case
-    from .units import format_eng
+    from .views import envelope_text
 
     labels = args.label or [o.label for o in design.options]
     for lab in labels:
         design.option(lab)
     if not 1 <= args.samples <= 10_000_000:
         raise DesignError("--samples", "expected a whole number from 1 to 10000000", args.samples)
-    rows = []
+    results = []
     for lab in labels:
         def progress(done, total, lab=lab):
             if not args.quiet:
@@ -119,23 +119,17 @@ def _envelope(args, design, caught) -> int:
                 if done == total:
                     sys.stderr.write("\n")
         w = worst_case(design, lab)
-        mc = monte_carlo(design, lab, args.samples, seed=args.seed, progress=progress)
-        rows.append({"worst_case": w.to_dict(), "monte_carlo": mc.to_dict()})
+        results.append((w, monte_carlo(design, lab, args.samples, seed=args.seed, progress=progress)))
     if args.json:
+        rows = [{"worst_case": w.to_dict(), "monte_carlo": mc.to_dict()} for w, mc in results]
         sys.stdout.write(json.dumps({"format": "explorer-envelope", "version": 1, "title": design.title,
                                      "options": rows}, indent=2) + "\n")
     else:
-        for r in rows:
-            w, m = r["worst_case"], r["monte_carlo"]
-            sys.stdout.write(
-                f"{w['label']}: worst corner rail min {format_eng(w['rail_min'], 'V')} "
-                f"(margin {w['margin']:+.3g} V, {'holds' if w['holds'] else 'FAILS'}) at {w['corner']}; "
-                f"P(rail < UVLO off) = {m['p_trip']:.4g} "
-                f"[{100 * m['confidence']:g} % interval {m['ci'][0]:.3g} .. {m['ci'][1]:.3g}] "
-                f"over {m['n']} samples, seed {m['seed']}\n")
+        for w, mc in results:
+            sys.stdout.write(envelope_text(w, mc) + "\n")
     for w in caught:
         sys.stderr.write(f"warning: {w.message}\n")
-    failed = [r for r in rows if not r["worst_case"]["holds"]]
+    failed = [w for w, _ in results if not w.holds]
     return 1 if (args.strict and failed) else 0
 
 

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import html
 import json
 import warnings
 from dataclasses import dataclass
@@ -12,7 +11,7 @@ from .errors import DesignError, ModelValidityWarning
 from .options import model_for
 from .results import OptionResult, clean
 from .schedule import schedule_validity
-from .units import format_eng
+from .views.table import CAUTION, comparison_html, comparison_rows, comparison_text, topology_text
 
 __all__ = ["Comparison", "evaluate", "RANKINGS"]
 
@@ -81,136 +80,30 @@ class Comparison:
     def to_json(self, **kw) -> str:
         return json.dumps(self.to_dict(), allow_nan=False, **kw)
 
-    # ------------------------------------------------------------------ views
+    @property
+    def rank_words(self) -> str:
+        """The ranking rule in plain words (e.g. ``lowest overhead among the feasible``)."""
+        return RANKINGS[self.rank][0]
+
+    # Views live in explorer.views; these thin methods keep ``print(result)``, notebooks and the CLI.
     def rows(self) -> list[tuple[str, list[str]]]:
-        """Table rows (quantity, one formatted cell per option) shared by text and HTML views."""
-        def cell(fn):
-            out = []
-            for r in self.options:
-                try:
-                    out.append(fn(r))
-                except (AttributeError, TypeError):
-                    out.append("\u2014")
-            return out
-
-        def pct(x):
-            return "\u2014" if x is None else f"{100 * x:.1f} %"
-
-        def duty(r):
-            d = r.duty
-            if d is None or (d.min is None and d.max is None):
-                return "none feasible" if d is not None else "\u2014"
-            return f"{pct(d.min if d.min is not None else 0.0)} \u2026 {pct(d.max if d.max is not None else 1.0)}"
-
-        def caps(r):
-            return ", ".join(f"{c.name} {format_eng(c.v_max, 'V')}/{format_eng(c.v_rating, 'V')}"
-                             for c in r.capacitors) or "\u2014"
-
-        rows = [
-            ("kind", cell(lambda r: r.kind)),
-            ("verdict", cell(lambda r: ("OK " if r.feasible else "FAIL ") + r.verdict)),
-            ("checks by family", cell(lambda r: " ".join(
-                f"{_FAMILY_SHORT.get(k, k)}:{'ok' if v['ok'] else 'FAIL'}" for k, v in r.families().items()))),
-            ("rail min / max", cell(lambda r: f"{format_eng(r.v_rail.min, 'V')} / {format_eng(r.v_rail.max, 'V')}")),
-            ("efficiency", cell(lambda r: pct(r.efficiency))),
-            ("delivered / drawn", cell(lambda r: f"{format_eng(r.p_delivered, 'W')} / {format_eng(r.p_drawn, 'W')}")),
-            ("overhead", cell(lambda r: format_eng(r.overhead, "W"))),
-            ("start-up to UVLO", cell(lambda r: format_eng(r.startup.t_uvlo, "s") + (
-                f" ({r.startup.cycles_uvlo} cyc)" if r.startup.cycles_uvlo is not None else ""))),
-            ("inrush peak", cell(lambda r: format_eng(r.startup.i_peak, "A"))),
-            ("HS duty range", cell(duty)),
-            ("limit, topology terms", cell(lambda r: topology_text(r.duty.topology))),
-            ("hold-up at 100 %", cell(lambda r: "unlimited" if r.duty.hold_up is None else format_eng(r.duty.hold_up, "s"))),
-            ("R_out", cell(lambda r: format_eng(r.r_out, "\u03a9"))),
-            ("cap V_max / rating", cell(caps)),
-            ("warnings", cell(lambda r: str(len(r.warnings)))),
-        ]
-        return rows
+        """Table rows (see :func:`explorer.views.table.comparison_rows`)."""
+        return comparison_rows(self)
 
     def to_text(self) -> str:
-        """A readable fixed-width table with engineering units."""
-        labels = [r.label for r in self.options]
-        rows = self.rows()
-        rows = [(q, [c if q != "verdict" else c.split(" ", 1)[0].replace("OK", "holds").replace("FAIL", "FAILS")
-                     for c in cells]) for q, cells in rows]
-        w0 = max(len(q) for q, _ in rows)
-        widths = [max(len(labels[i]), *(len(cells[i]) for _, cells in rows)) for i in range(len(labels))]
-        line = lambda q, cells: "  ".join([q.ljust(w0)] + [c.ljust(w) for c, w in zip(cells, widths)]).rstrip()
-        out = [self.title, "", line("", labels), line("", ["-" * w for w in widths])]
-        out += [line(q, cells) for q, cells in rows]
-        out.append("")
-        out.append(f"ranking ({RANKINGS[self.rank][0]}): " + " > ".join(self.ranking()))
-        for r in self.options:
-            out.append(f"verdict [{r.label}]: {r.verdict}")
-            for w in r.warnings:
-                out.append(f"warning [{r.label}]: {w}")
-            for c in r.cautions:
-                out.append(f"caution [{r.label}]: {c}")
-        out.append("")
-        out.append(CAUTION)
-        return "\n".join(out)
+        """The fixed-width text table (see :func:`explorer.views.table.comparison_text`)."""
+        return comparison_text(self)
 
     def __str__(self) -> str:
-        return self.to_text()
+        return comparison_text(self)
 
     def __repr__(self) -> str:
         ok = sum(r.feasible for r in self.options)
         return f"<Comparison {self.title!r}: {len(self.options)} options, {ok} hold; ranking {self.ranking()}>"
 
     def _repr_html_(self) -> str:
-        """A plain HTML table (no JavaScript), readable in an untrusted notebook."""
-        e = html.escape
-        head = "".join(f"<th>{e(r.label)}</th>" for r in self.options)
-        body = []
-        for q, cells in self.rows():
-            tds = []
-            for r, c in zip(self.options, cells):
-                style = ""
-                if q == "verdict":
-                    style = ' style="color:#1b5e20"' if r.feasible else ' style="color:#b71c1c"'
-                tds.append(f"<td{style}>{e(c)}</td>")
-            body.append(f"<tr><th style='text-align:left'>{e(q)}</th>{''.join(tds)}</tr>")
-        warn = "".join(f"<li>[{e(r.label)}] {e(w)}</li>" for r in self.options for w in r.warnings)
-        warn += "".join(f"<li>[{e(r.label)}] caution: {e(c)}</li>" for r in self.options for c in r.cautions)
-        return (f"<div><b>{e(self.title)}</b><table><thead><tr><th></th>{head}</tr></thead>"
-                f"<tbody>{''.join(body)}</tbody></table>"
-                f"<p>ranking ({e(RANKINGS[self.rank][0])}): {e(' > '.join(self.ranking()))}</p>"
-                + (f"<ul>{warn}</ul>" if warn else "")
-                + f"<p style='font-size:smaller'>{e(CAUTION)}</p></div>")
-
-
-_FAMILY_SHORT = {"efficiency": "power", "stress": "stress", "startup": "start", "duty": "duty",
-                 "isolation": "iso", "other": "other"}
-
-#: How the duty-limit figures in the topology's own terms read in a table (key → template).
-_TOPOLOGY_TERMS = {
-    "v_out_max": lambda x: f"V_out \u2264 {format_eng(x, 'V')}",
-    "v_out_over_v_in_min": lambda x: f"V_out/V_in \u2265 {x:.3g}",
-    "duty_command_max": lambda x: f"command \u2264 {100 * x:.1f} %",
-    "m_max": lambda x: f"m \u2264 {x:.3g}",
-    "f_o_min": lambda x: f"f_o \u2265 {format_eng(x, 'Hz')}",
-    "f_sw_max": lambda x: f"f_sw \u2264 {format_eng(x, 'Hz')}",
-    "q_g_max": lambda x: f"Q_G \u2264 {format_eng(x, 'C')}",
-    "passes": lambda x: "holds at this line frequency" if x else "fails at this line frequency",
-}
-
-
-def topology_text(terms: dict) -> str:
-    """Plain words for ``DutyLimits.topology`` (e.g. ``V_out ≤ 47.2 V``); unknown keys are skipped."""
-    parts = []
-    for key, fmt in _TOPOLOGY_TERMS.items():
-        if key in terms:
-            v = terms[key]
-            parts.append("none feasible" if v is None and key != "f_o_min" else
-                         "\u2014" if v is None else fmt(v))
-    return ", ".join(parts) or "\u2014"
-
-
-#: Shown under every comparison (see README "Safety").
-CAUTION = ("Caution: bus voltages in these circuits can be lethal and stored charge persists after "
-           "power-off. Results are estimates to be confirmed by measurement; isolation, creepage and "
-           "clearance follow the applicable safety standards (e.g. IEC 62368-1, IEC 61800-5-1, "
-           "IEC 60664-1), local codes and licensed practice.")
+        """The HTML table (see :func:`explorer.views.table.comparison_html`)."""
+        return comparison_html(self)
 
 
 def evaluate(design, *, rank: str = "overhead") -> Comparison:
@@ -254,4 +147,4 @@ def evaluate(design, *, rank: str = "overhead") -> Comparison:
     return Comparison(d, tuple(results), rank)
 
 
-__all__ += ["CAUTION", "clean"]
+__all__ += ["CAUTION", "clean", "topology_text"]
