@@ -14,7 +14,8 @@ The core depends on numpy and scipy only; the notebook panels live in
 from .compare import CAUTION, RANKINGS, Comparison, evaluate
 from .demo import DEMO, demo_design
 from .design import Design, design_to_dict, load_design, replace_field, save_design
-from .errors import DesignError, ExplorerWarning, ModelValidityWarning
+from .errors import DesignError, ExplorerWarning, ModelValidityWarning, RuleViolation
+from .rules import assert_rules, check_rules, load_rules
 from .units import format_eng, parse_eng
 
 __version__ = "0.1.0"
@@ -23,4 +24,5 @@ __all__ = [
     "CAUTION", "RANKINGS", "Comparison", "evaluate", "DEMO", "demo_design", "Design",
     "design_to_dict", "load_design", "replace_field", "save_design", "DesignError",
     "ExplorerWarning", "ModelValidityWarning", "format_eng", "parse_eng", "__version__",
+    "RuleViolation", "assert_rules", "check_rules", "load_rules",
 ]

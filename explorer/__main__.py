@@ -1,6 +1,7 @@
-"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH] | envelope FILE [--samples N] [--seed S] [--json] [--strict]``.
+"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH] | envelope FILE [--samples N] [--seed S] [--json] [--strict] | check DESIGN RULES [--json]``.
 
-Exit codes: 0 success, 2 bad input (one line ``error: <field path>: <problem>``
+Exit codes: 0 success, 1 a design rule is broken (``check``) or a margin is lost
+(``envelope --strict``), 2 bad input (one line ``error: <field path>: <problem>``
 on stderr, never a traceback).
 """
 
@@ -48,6 +49,11 @@ def _parser() -> argparse.ArgumentParser:
     v.add_argument("--quiet", action="store_true", help="no progress on standard error (for CI logs)")
     v.add_argument("--strict", action="store_true",
                    help="exit with code 1 when an analysed option fails its margin at the worst corner")
+    c = sub.add_parser("check", help="check a design against its design rules (explorer-rules JSON); "
+                                      "exit 1 when a rule is broken")
+    c.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
+    c.add_argument("rules", help="rule file (explorer-rules JSON)")
+    c.add_argument("--json", action="store_true", help="print the outcome of every rule as JSON")
     return p
 
 
@@ -70,6 +76,8 @@ def main(argv=None) -> int:
                 return _netlist(args, load_design(src), caught)
             if args.command == "envelope":
                 return _envelope(args, load_design(src), caught)
+            if args.command == "check":
+                return _check(args, load_design(src), caught)
             result = evaluate(load_design(src), rank=args.rank)
             if args.json:
                 sys.stdout.write(result.to_json(indent=2) + "\n")
@@ -131,6 +139,20 @@ def _envelope(args, design, caught) -> int:
         sys.stderr.write(f"warning: {w.message}\n")
     failed = [w for w, _ in results if not w.holds]
     return 1 if (args.strict and failed) else 0
+
+
+def _check(args, design, caught) -> int:
+    """``check``: every rule's outcome; exit 1 when one is broken."""
+    from .rules import check_rules, load_rules
+
+    report = check_rules(design, load_rules(args.rules))
+    if args.json:
+        sys.stdout.write(json.dumps(report.to_dict(), indent=2, ensure_ascii=False) + "\n")
+    else:
+        sys.stdout.write(report.to_text() + "\n")
+    for w in caught:
+        sys.stderr.write(f"warning: {w.message}\n")
+    return 0 if report.ok else 1
 
 
 if __name__ == "__main__":

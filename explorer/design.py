@@ -74,6 +74,8 @@ class Spec:
             return "one of " + ", ".join(repr(c) for c in self.choices)
         if self.kind == "bool":
             return "true or false"
+        if self.kind == "text":
+            return "text"
         parts = []
         if self.lo is not None:
             parts.append(("> " if self.lo_open else "\u2265 ") + f"{self.lo:g}")
@@ -531,6 +533,16 @@ def _build(cls, data: Any, path: str):
     return obj
 
 
+def _build_tagged(data: Any, classes: dict, tag: str, path: str, what: str):
+    """Build the object whose class the key ``tag`` picks from ``classes`` (an option's kind, a rule's kind)."""
+    if not isinstance(data, dict):
+        raise DesignError(path, f"expected an object with {what}", data)
+    kind = data.get(tag)
+    if kind not in classes:
+        raise DesignError(f"{path}.{tag}", f"expected one of {', '.join(map(repr, classes))}", kind)
+    return _build(classes[kind], data, path)
+
+
 _TOP_KEYS = ("format", "version", "title", "bridge", "gate", "driver", "aux", "options", "checks", "spread")
 
 
@@ -570,12 +582,7 @@ def _design_from_dict(data: Any) -> Design:
     labels = set()
     for i, o in enumerate(opts_raw):
         p = f"options[{i}]"
-        if not isinstance(o, dict):
-            raise DesignError(p, "expected an object with label and kind", o)
-        kind = o.get("kind")
-        if kind not in OPTION_KINDS:
-            raise DesignError(f"{p}.kind", f"expected one of {', '.join(map(repr, OPTION_KINDS))}", kind)
-        opt = _build(OPTION_KINDS[kind], o, p)
+        opt = _build_tagged(o, OPTION_KINDS, "kind", p, "label and kind")
         if opt.label in labels:
             raise DesignError(f"{p}.label", "labels must be unique", opt.label)
         labels.add(opt.label)

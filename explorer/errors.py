@@ -8,7 +8,7 @@ panel can show one plain line.
 
 from __future__ import annotations
 
-__all__ = ["DesignError", "ModelValidityWarning", "ExplorerWarning"]
+__all__ = ["DesignError", "RuleViolation", "ModelValidityWarning", "ExplorerWarning"]
 
 
 class DesignError(ValueError):
@@ -35,6 +35,29 @@ class DesignError(ValueError):
 
     def __reduce__(self):  # keep pickling / copying working with the custom init
         return (type(self), (self.path, self.problem, self.value))
+
+
+class RuleViolation(AssertionError):
+    """A design no longer meets one or more of its design rules (:func:`explorer.rules.assert_rules`).
+
+    An ``AssertionError``, so a broken rule fails a test, a notebook cell or CI like a failed
+    ``assert``. The message names each broken rule, its option and its figures.
+
+    Attributes
+    ----------
+    report : explorer.rules.RulesReport
+        Every rule's outcome.
+    """
+
+    def __init__(self, report):
+        self.report = report
+        broken = report.broken
+        lines = [f"{len(broken)} of {len(report.outcomes)} design rules broken for {report.title!r}:"]
+        lines += [f"  {o.message}" for o in broken]
+        super().__init__("\n".join(lines))
+
+    def __reduce__(self):
+        return (type(self), (self.report,))
 
 
 class ExplorerWarning(UserWarning):

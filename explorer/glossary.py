@@ -38,6 +38,18 @@ def glossary_markdown() -> str:
             allowed = spec.allowed().replace("|", "\\|") + (" or null" if spec.nullable else "")
             out.append(f"| `{name}` | {spec.doc} | {spec.unit} | {allowed} | {_default(spec)} |")
         out.append("")
+    from .rules import RULE_KINDS
+    out += ["# Rule-file glossary", "",
+            "A rule file (format `explorer-rules`, version 1) holds `rules`, a list of objects; the key "
+            "`rule` picks the kind. Field specs in `explorer/rules.py`.", ""]
+    for kind, cls in RULE_KINDS.items():
+        doc = (cls.__doc__ or "").strip().split("\n")[0]
+        out += [f"## rule \"{kind}\" (`{cls.__name__}`)", "", doc, "",
+                "| key | meaning | unit | allowed | default |", "|---|---|---|---|---|"]
+        for name, spec in d.specs(cls).items():
+            allowed = spec.allowed().replace("|", "\\|") + (" or null" if spec.nullable else "")
+            out.append(f"| `{name}` | {spec.doc} | {spec.unit} | {allowed} | {_default(spec)} |")
+        out.append("")
     return "\n".join(out)
 
 
