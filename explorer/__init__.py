@@ -13,7 +13,7 @@ The core depends on numpy and scipy only; the notebook panels live in
 
 from .compare import CAUTION, RANKINGS, Comparison, evaluate
 from .demo import DEMO, demo_design
-from .design import Design, design_to_dict, load_design, replace_field, save_design
+from .design import Design, design_to_dict, load_design, replace_field, replace_fields, save_design
 from .errors import DesignError, ExplorerWarning, ModelValidityWarning, RuleViolation
 from .rules import assert_rules, check_rules, load_rules
 from .units import format_eng, parse_eng
@@ -22,7 +22,7 @@ __version__ = "0.1.0"
 
 __all__ = [
     "CAUTION", "RANKINGS", "Comparison", "evaluate", "DEMO", "demo_design", "Design",
-    "design_to_dict", "load_design", "replace_field", "save_design", "DesignError",
+    "design_to_dict", "load_design", "replace_field", "replace_fields", "save_design", "DesignError",
     "ExplorerWarning", "ModelValidityWarning", "format_eng", "parse_eng", "__version__",
     "RuleViolation", "assert_rules", "check_rules", "load_rules",
 ]

@@ -1,7 +1,7 @@
-"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH] | envelope FILE [--samples N] [--seed S] [--json] [--strict] | check DESIGN RULES [--json]``.
+"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH] | envelope FILE [--samples N] [--seed S] [--json] [--strict] | check DESIGN RULES [--json] | size FILE [--label L] [--series E12] [--headroom 2] [--i-max 2A] [--json]``.
 
-Exit codes: 0 success, 1 a design rule is broken (``check``) or a margin is lost
-(``envelope --strict``), 2 bad input (one line ``error: <field path>: <problem>``
+Exit codes: 0 success, 1 a design rule is broken (``check``), a margin is lost
+(``envelope --strict``) or ``size`` found nothing that works, 2 bad input (one line ``error: <field path>: <problem>``
 on stderr, never a traceback).
 """
 
@@ -12,7 +12,7 @@ import json
 import sys
 import warnings
 
-from .compare import RANKINGS, evaluate
+from .compare import CAUTION, RANKINGS, evaluate
 from .demo import DEMO
 from .design import design_to_dict, load_design
 from .errors import DesignError, ExplorerWarning
@@ -54,7 +54,30 @@ def _parser() -> argparse.ArgumentParser:
     c.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
     c.add_argument("rules", help="rule file (explorer-rules JSON)")
     c.add_argument("--json", action="store_true", help="print the outcome of every rule as JSON")
+    z = sub.add_parser("size", help="size an option's parts for the worst tolerance corner, with headroom")
+    z.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
+    z.add_argument("--label", action="append", help="option to size (repeatable; default: all)")
+    z.add_argument("--series", default="E12", choices=("E6", "E12", "E24"), help="IEC 60063 series (default E12)")
+    z.add_argument("--headroom", default="2",
+                   help="factor over each bare minimum (default 2, common practice)")
+    z.add_argument("--i-max", help="inrush limit of a bootstrap's first pulse, e.g. 2A (sizes R_boot)")
+    z.add_argument("--json", action="store_true", help="print the sized values as JSON")
     return p
+
+
+#: API parameter names as the command line spells them, so an error names the flag the user typed.
+_FLAGS = {"label": "--label", "n_cycles": "--cycles", "n": "--samples", "corner": "--corner",
+          "headroom": "--headroom", "i_max": "--i-max", "series": "--series"}
+
+
+def _labels(design, labels):
+    """The labels to work on (default all); an unknown one is an error naming --label."""
+    known = [o.label for o in design.options]
+    for lab in labels or ():
+        if lab not in known:
+            raise DesignError("--label", "no option labelled " + repr(lab) + "; labels: "
+                              + ", ".join(map(repr, known)), lab)
+    return list(labels or known)
 
 
 def main(argv=None) -> int:
@@ -66,7 +89,7 @@ def main(argv=None) -> int:
                 if args.evaluate:
                     sys.stdout.write(evaluate(DEMO).to_text() + "\n")
                 else:
-                    sys.stdout.write(json.dumps(design_to_dict(load_design(DEMO)), indent=2,
+                    sys.stdout.write(json.dumps(design_to_dict(load_design(DEMO), readable=True), indent=2,
                                                 ensure_ascii=False) + "\n")
                 return 0
             src = sys.stdin.read() if args.file == "-" else args.file
@@ -78,6 +101,8 @@ def main(argv=None) -> int:
                 return _envelope(args, load_design(src), caught)
             if args.command == "check":
                 return _check(args, load_design(src), caught)
+            if args.command == "size":
+                return _size(args, load_design(src), caught)
             result = evaluate(load_design(src), rank=args.rank)
             if args.json:
                 sys.stdout.write(result.to_json(indent=2) + "\n")
@@ -87,6 +112,8 @@ def main(argv=None) -> int:
             sys.stderr.write(f"warning: {w.message}\n")
         return 0
     except DesignError as e:
+        if e.path in _FLAGS:
+            e = DesignError(_FLAGS[e.path], e.problem, e.value)
         sys.stderr.write(f"error: {e}\n")
         return 2
 
@@ -95,6 +122,7 @@ def _netlist(args, design, caught) -> int:
     """``netlist``: the option's netlist with its control block, to a file or standard output."""
     from .netlist import export_netlist
 
+    _labels(design, [args.label])
     text = export_netlist(design, args.label, n_cycles=args.cycles, corner=args.corner, standalone=True)
     if args.out:
         try:
@@ -114,9 +142,7 @@ def _envelope(args, design, caught) -> int:
     from .tolerance import monte_carlo, worst_case
     from .views import envelope_text
 
-    labels = args.label or [o.label for o in design.options]
-    for lab in labels:
-        design.option(lab)
+    labels = _labels(design, args.label)
     if not 1 <= args.samples <= 10_000_000:
         raise DesignError("--samples", "expected a whole number from 1 to 10000000", args.samples)
     results = []
@@ -153,6 +179,26 @@ def _check(args, design, caught) -> int:
     for w in caught:
         sys.stderr.write(f"warning: {w.message}\n")
     return 0 if report.ok else 1
+def _size(args, design, caught) -> int:
+    """``size``: sized values with headroom per option, as text or JSON; exit 1 when one cannot be sized."""
+    from .sizing import recommend
+    from .units import parse_eng
+
+    labels = _labels(design, args.label)
+    headroom = parse_eng(args.headroom, "--headroom", "-")
+    i_max = None if args.i_max is None else parse_eng(args.i_max, "--i-max", "A")
+    if i_max is not None and i_max <= 0:
+        raise DesignError("--i-max", "expected a current > 0 [A]", args.i_max)
+    recs = [recommend(design, lab, series=args.series, headroom=headroom, i_max=i_max) for lab in labels]
+    if args.json:
+        sys.stdout.write(json.dumps({"format": "explorer-sizing", "version": 1, "title": design.title,
+                                     "options": [r.to_dict() for r in recs], "caution": CAUTION},
+                                    indent=2, allow_nan=False) + "\n")
+    else:
+        sys.stdout.write("\n".join(r.to_text() for r in recs) + "\n\n" + CAUTION + "\n")
+    for w in caught:
+        sys.stderr.write(f"warning: {w.message}\n")
+    return 0 if all(r.ok for r in recs) else 1
 
 
 if __name__ == "__main__":

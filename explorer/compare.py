@@ -58,7 +58,7 @@ class Comparison:
         for r in self.options:
             if r.label == label:
                 return r
-        raise KeyError(label)
+        raise KeyError(f"no option labelled {label!r}; labels: " + ", ".join(repr(r.label) for r in self.options))
 
     def ranking(self) -> list:
         """Option labels best first under the ranking rule (a stable sort)."""

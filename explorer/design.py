@@ -23,13 +23,13 @@ from typing import Any, Union
 
 from .capacitors import parse_dielectric
 from .errors import DesignError
-from .units import parse_eng
+from .units import format_exact, parse_eng
 
 __all__ = [
     "FORMAT", "VERSION", "MAX_FILE_BYTES", "TOPOLOGIES", "Spec", "Capacitor", "LinearDiode",
     "JunctionDiode", "Bridge", "Gate", "Driver", "Aux", "Checks", "Spread", "BootstrapOption",
     "ChargePumpOption", "IsolatedOption", "Design", "load_design", "save_design", "design_to_dict",
-    "replace_field", "replace_fields", "specs",
+    "replace_field", "replace_fields", "specs", "spec_at", "check_value",
 ]
 
 FORMAT = "explorer-design"
@@ -284,6 +284,8 @@ class Checks:
     t_max: float = _f("\u00b0C", "highest temperature of the envelope", 105.0, lo=-273.0, hi=300.0)
 
     def _check(self, path: str) -> None:
+        if self.t_min > self.t_max:
+            raise DesignError(f"{path}.t_min", f"must not exceed t_max = {self.t_max:g} \u00b0C", self.t_min)
         if not self.t_min <= self.t_amb <= self.t_max:
             raise DesignError(f"{path}.t_amb", f"must lie within t_min..t_max = {self.t_min:g}..{self.t_max:g} \u00b0C",
                               self.t_amb)
@@ -473,7 +475,7 @@ def _parse_value(spec: Spec, raw: Any, path: str) -> Any:
         if "i_s" in raw:
             return _build(JunctionDiode, raw, path)
         raise DesignError(path, "diode needs either v_f (straight line) or i_s (exponential)", raw)
-    x = parse_eng(raw, path)
+    x = parse_eng(raw, path, spec.unit)
     if k == "int":
         if x != int(x):
             raise DesignError(path, f"expected {spec.allowed()}", raw)
@@ -500,8 +502,8 @@ def _parse_curve(raw: Any, path: str) -> tuple:
         pp = f"{path}[{i}]"
         if not isinstance(p, list) or len(p) != 2:
             raise DesignError(pp, "expected a pair [V/V_rating, remaining fraction]", p)
-        x = parse_eng(p[0], pp)
-        f = parse_eng(p[1], pp)
+        x = parse_eng(p[0], pp, "-")
+        f = parse_eng(p[1], pp, "-")
         if x < 0 or not 0 < f <= 1:
             raise DesignError(pp, "expected V/V_rating \u2265 0 and a fraction in (0, 1]", p)
         if pts and x <= pts[-1][0]:
@@ -537,8 +539,10 @@ def _build_tagged(data: Any, classes: dict, tag: str, path: str, what: str):
     """Build the object whose class the key ``tag`` picks from ``classes`` (an option's kind, a rule's kind)."""
     if not isinstance(data, dict):
         raise DesignError(path, f"expected an object with {what}", data)
-    kind = data.get(tag)
-    if kind not in classes:
+    if tag not in data:
+        raise DesignError(f"{path}.{tag}", f"missing; expected one of {', '.join(map(repr, classes))}")
+    kind = data[tag]
+    if not isinstance(kind, str) or kind not in classes:  # a list or object is refused, not hashed
         raise DesignError(f"{path}.{tag}", f"expected one of {', '.join(map(repr, classes))}", kind)
     return _build(classes[kind], data, path)
 
@@ -554,9 +558,13 @@ def _design_from_dict(data: Any) -> Design:
     for key in data:
         if key not in _TOP_KEYS:
             raise DesignError(str(key), f"unknown key; allowed: {', '.join(_TOP_KEYS)}")
-    if data.get("format") != FORMAT:
-        raise DesignError("format", f"expected {FORMAT!r}", data.get("format"))
-    ver = data.get("version")
+    if "format" not in data:
+        raise DesignError("format", f"missing; expected {FORMAT!r}")
+    if data["format"] != FORMAT:
+        raise DesignError("format", f"expected {FORMAT!r}", data["format"])
+    if "version" not in data:
+        raise DesignError("version", f"missing; expected a whole number 1 to {VERSION}")
+    ver = data["version"]
     if isinstance(ver, bool) or not isinstance(ver, int):
         raise DesignError("version", "expected a whole number", ver)
     if ver > VERSION:
@@ -618,6 +626,8 @@ def load_design(source: Union[str, os.PathLike, dict, Design]) -> Design:
     if not isinstance(source, (str, os.PathLike)):
         raise DesignError("", "expected a design: a file path, JSON text, a dict or a Design, not "
                           f"{type(source).__name__}")
+    if isinstance(source, str) and not source.strip():
+        raise DesignError("", "the design text is empty; expected a file path or JSON text")
     if isinstance(source, str) and source.lstrip().startswith(("{", "[")):
         text = source
     else:
@@ -632,6 +642,8 @@ def load_design(source: Union[str, os.PathLike, dict, Design]) -> Design:
                 text = fh.read()
         except (OSError, UnicodeDecodeError) as e:
             raise DesignError("", f"cannot read design file: {e}", str(source)) from None
+        if not text.strip():
+            raise DesignError("", "the design file is empty", str(source))
     if len(text) > MAX_FILE_BYTES:
         raise DesignError("", f"design text is longer than {MAX_FILE_BYTES} characters")
     try:
@@ -658,28 +670,45 @@ def _reject_constant(name: str):
     raise DesignError("", f"{name} is not allowed in a design file (numbers must be finite)")
 
 
-def _dump(obj) -> Any:
+def _dump(obj, readable: bool = False) -> Any:
     if dataclasses.is_dataclass(obj):
-        return {f.name: _dump(getattr(obj, f.name)) for f in dataclasses.fields(obj)}
+        out = {}
+        for f in dataclasses.fields(obj):
+            v = getattr(obj, f.name)
+            spec = f.metadata.get("spec")
+            if (readable and spec is not None and spec.kind == "real" and spec.unit not in ("-", "rad")
+                    and isinstance(v, float)):
+                out[f.name] = format_exact(v, spec.unit)
+            else:
+                out[f.name] = _dump(v, readable)
+        return out
     if isinstance(obj, tuple):
-        return [_dump(x) for x in obj]
+        return [_dump(x, readable) for x in obj]
     return obj
 
 
-def design_to_dict(design: Design) -> dict:
-    """Plain dict of a design (all fields, SI numbers); ``load_design`` of it gives back an equal design."""
+def design_to_dict(design: Design, *, readable: bool = False) -> dict:
+    """Plain dict of a design (all fields); ``load_design`` of it gives back an equal design.
+
+    Numbers are SI floats; with ``readable=True`` every number that has a unit is written as
+    engineering text with its unit, as engineers read it (``"40 ns"``, ``"220 nF"``,
+    ``"100 V/ns"``), which loads back to exactly the same value.
+    """
     d = {"format": FORMAT, "version": VERSION, "title": design.title}
     for key in ("bridge", "gate", "driver", "aux"):
-        d[key] = _dump(getattr(design, key))
-    d["options"] = [_dump(o) for o in design.options]
-    d["checks"] = _dump(design.checks)
-    d["spread"] = _dump(design.spread)
+        d[key] = _dump(getattr(design, key), readable)
+    d["options"] = [_dump(o, readable) for o in design.options]
+    d["checks"] = _dump(design.checks, readable)
+    d["spread"] = _dump(design.spread, readable)
     return d
 
 
-def save_design(design: Design, path: Union[str, os.PathLike]) -> None:
-    """Write a design file. Written to a temporary file first, so a failed save never truncates the old one."""
-    text = json.dumps(design_to_dict(design), indent=2, ensure_ascii=False, allow_nan=False)
+def save_design(design: Design, path: Union[str, os.PathLike], *, readable: bool = False) -> None:
+    """Write a design file. Written to a temporary file first, so a failed save never truncates the old one.
+
+    ``readable=True`` writes numbers as engineering text with units (see :func:`design_to_dict`).
+    """
+    text = json.dumps(design_to_dict(design, readable=readable), indent=2, ensure_ascii=False, allow_nan=False)
     tmp = f"{os.fspath(path)}.tmp"
     with open(tmp, "w", encoding="utf-8") as fh:
         fh.write(text + "\n")
@@ -740,3 +769,49 @@ def _split_path(path: str) -> list:
     if not parts:
         raise DesignError(path, "empty field path")
     return parts
+
+
+def spec_at(design: Design, path: str) -> Spec:
+    """The :class:`Spec` of the field at a design-file path (``"bridge.f_sw"``, ``"options[2].c_fly.c"``).
+
+    A path that ends on a capacitor (``"options[2].c_fly"``) means its capacitance.
+
+    Raises
+    ------
+    DesignError
+        If the path names no field of this design.
+    """
+    obj: Any = design
+    spec: Spec | None = None
+    for part in _split_path(path):
+        if isinstance(part, int):
+            if obj is design.options and 0 <= part < len(design.options):
+                obj, spec = design.options[part], None
+                continue
+            raise DesignError(path, "no such field")
+        if obj is design and part == "options":
+            obj = design.options
+            continue
+        if not dataclasses.is_dataclass(obj) or part not in {f.name for f in dataclasses.fields(obj)}:
+            raise DesignError(path, "no such field")
+        f = next(f for f in dataclasses.fields(obj) if f.name == part)
+        spec = f.metadata.get("spec")
+        obj = getattr(obj, part)
+    if isinstance(obj, Capacitor):
+        spec = specs(Capacitor)["c"]
+    if spec is None:
+        raise DesignError(path, "no such field")
+    return spec
+
+
+def check_value(spec: Spec, value: Any, path: str) -> Any:
+    """``value`` parsed and range-checked against ``spec`` on its own (no cross-field checks).
+
+    Raises
+    ------
+    DesignError
+        Naming ``path``, the value and what the field allows.
+    """
+    if spec.kind == "capacitor" and not isinstance(value, dict):
+        spec = specs(Capacitor)["c"]
+    return _parse_value(spec, value, path)

@@ -26,7 +26,7 @@ from typing import Callable
 import numpy as np
 
 from .compare import evaluate
-from .design import Design, load_design, replace_fields
+from .design import Design, check_value, load_design, replace_fields, spec_at
 from .errors import DesignError
 from .loads import required_rail
 from .options import MODULES
@@ -139,6 +139,29 @@ def _point(design: Design, assignments) -> Design:
     return replace_fields(design, changes)
 
 
+#: Allowed ranges of the two aliases (HS duty share [-], temperature [°C] as ``checks.t_amb``).
+_ALIAS_RANGES = {"duty": (0.0, 1.0, "an HS duty share from 0 to 1"),
+                 "temperature": (-273.0, 300.0, "a temperature from -273 to 300 [\u00b0C]")}
+
+
+def _check_axis(design: Design, path: str, values: np.ndarray) -> None:
+    """Refuse values a field never allows (e.g. a negative f_sw) with a DesignError naming the axis.
+
+    Points that are invalid only together with other fields (a buck output above the bus) are
+    left to the grid, which reports them in ``Sweep.invalid``.
+    """
+    where = f"axes[{path}]"
+    if path in _ALIAS_RANGES:
+        lo, hi, words = _ALIAS_RANGES[path]
+        bad = values[~((values >= lo) & (values <= hi))]
+        if bad.size:
+            raise DesignError(where, f"expected {words}", float(bad[0]))
+        return
+    spec = spec_at(design, path)
+    for x in np.unique(values):
+        check_value(spec, float(x), where)
+
+
 def sweep(design, axes: dict, *, labels=None, figures=None,
           progress: Callable[[int, int], None] | None = None) -> Sweep:
     """Evaluate the design over a 1-D or 2-D grid of field values.
@@ -173,13 +196,8 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
     for p, v in zip(paths, vals):
         if v.size == 0 or v.size > 100_000:
             raise DesignError(f"axes[{p}]", "expected 1 to 100000 values", v.size)
-    for p, v in zip(paths, vals):  # an unknown field is an error of the call, not of a grid point
-        if p not in ("duty", "temperature"):
-            try:
-                replace_fields(d0, {p: float(v[0])})
-            except DesignError as e:
-                if e.problem == "no such field":
-                    raise
+    for p, v in zip(paths, vals):  # an unknown field or a value the field never allows is an error of the call
+        _check_axis(d0, p, v)
     shape = tuple(v.size for v in vals)
     labs = list(labels or [o.label for o in d0.options])
     for lab in labs:
@@ -241,6 +259,13 @@ def margin_map(design, label: str, f_sw, duty) -> MarginMap:
     opt = d.option(label)
     f = np.asarray(f_sw, dtype=float).ravel()
     u = np.asarray(duty, dtype=float).ravel()
+    if f.size == 0 or u.size == 0:
+        raise DesignError("f_sw" if f.size == 0 else "duty", "expected at least one value", [])
+    for x in np.unique(f):
+        check_value(spec_at(d, "bridge.f_sw"), float(x), "f_sw")
+    bad = u[~((u >= 0.0) & (u <= 1.0))]
+    if bad.size:
+        raise DesignError("duty", "expected HS duty shares from 0 to 1", float(bad[0]))
     mod = importlib.import_module(MODULES[opt.kind])
     fast = getattr(mod, "rail_min_map", None)
     if fast is not None:

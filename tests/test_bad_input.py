@@ -52,7 +52,13 @@ CASES = [
     ("non-numeric", _with("bridge.f_sw", "fast"), "bridge.f_sw",
      "bridge.f_sw: expected a number such as 2.2e-6 or '2.2u' (suffixes f p n u/µ m k M G T) (got 'fast')"),
     ("unknown suffix", _with("bridge.f_sw", "200x"), "bridge.f_sw",
-     "bridge.f_sw: unknown suffix 'x'; allowed: f p n u µ m k M G T (got '200x')"),
+     "bridge.f_sw: unknown suffix 'x'; allowed: a prefix f p n u/µ m k M (or meg) G T, optionally followed by "
+     "Hz (got '200x')"),
+    ("wrong unit", _with("options[0].c", "220nV"), "options[0].c",
+     "options[0].c: unit 'V' does not fit: this field takes a capacitance in F (got '220nV')"),
+    ("wrong unit (plain number field)", _with("options[0].c_tol", "10V"), "options[0].c_tol",
+     "options[0].c_tol: unit 'V' does not fit: this field takes a plain number (a fraction may be written "
+     "with %) (got '10V')"),
     ("look-alike digits", _with("bridge.f_sw", "２００k"), "bridge.f_sw",
      "bridge.f_sw: expected a number such as 2.2e-6 or '2.2u' (suffixes f p n u/µ m k M G T) (got '２００k')"),
     ("negative", _with("gate.q_g", -40e-9), "gate.q_g",
@@ -115,6 +121,18 @@ CASES = [
     ("duplicate key", DEMO_TEXT.replace('"v_bus": 48,', '"v_bus": 48, "v_bus": 480,'), "v_bus",
      "v_bus: written twice in the same object; keep one (a hand-edited file would otherwise silently use "
      "the last)"),
+    ("missing format", _with("format", delete=True), "format", "format: missing; expected 'explorer-design'"),
+    ("missing version", _with("version", delete=True), "version", "version: missing; expected a whole number 1 to 1"),
+    ("temperature range reversed", _with("checks", {"t_min": 120, "t_max": 105, "t_amb": 110}), "checks.t_min",
+     "checks.t_min: must not exceed t_max = 105 °C (got 120.0)"),
+    ("temperature outside the range", _with("checks", {"t_amb": 130}), "checks.t_amb",
+     "checks.t_amb: must lie within t_min..t_max = -40..105 °C (got 130.0)"),
+    ("option kind a list", _with("options[0].kind", ["bootstrap"]), "options[0].kind",
+     "options[0].kind: expected one of 'bootstrap', 'charge_pump', 'isolated' (got ['bootstrap'])"),
+    ("option kind an object", _with("options[0].kind", {"name": "bootstrap"}), "options[0].kind",
+     "options[0].kind: expected one of 'bootstrap', 'charge_pump', 'isolated' (got {'name': 'bootstrap'})"),
+    ("missing option kind", _with("options[0].kind", delete=True), "options[0].kind",
+     "options[0].kind: missing; expected one of 'bootstrap', 'charge_pump', 'isolated'"),
     ("wrong format", _with("format", "something-else"), "format",
      "format: expected 'explorer-design' (got 'something-else')"),
     ("newer version", _with("version", 2), "version",
@@ -293,3 +311,86 @@ def test_pump_capacitor_rating_below_applied_voltage_is_a_failed_check():
     assert r.error is None and r.feasible is False
     assert any(c.name.startswith("cap_voltage") and c.name.endswith("c_out") and not c.ok for c in r.checks)
     assert "c_out voltage stays within its derated rating" in r.verdict
+
+
+@pytest.mark.parametrize("text", ["", "   \n"])
+def test_empty_file_says_empty(text, tmp_path):
+    f = tmp_path / "d.json"
+    f.write_text(text, encoding="utf-8")
+    with pytest.raises(DesignError) as e:
+        load_design(str(f))
+    assert str(e.value) == f"the design file is empty (got {str(f)!r})"
+    with pytest.raises(DesignError) as e:
+        load_design(text)
+    assert str(e.value) == "the design text is empty; expected a file path or JSON text"
+    assert main(["evaluate", str(f)]) == 2
+
+
+# ---------------------------------------------------------------- API misuse (docs/bad-input.md "API")
+
+def test_comparison_unknown_label_names_the_labels():
+    r = evaluate(load_design(DEMO))
+    with pytest.raises(KeyError) as e:
+        r["no such label"]
+    assert e.value.args[0] == ("no option labelled 'no such label'; labels: 'bootstrap 220n', 'pump 1:1', "
+                               "'pump 1:2 from 5 V', 'pump 2:1 from 24 V', 'isolated 1 W'")
+
+
+@pytest.mark.parametrize("duty", [1.2, -0.1, float("nan")])
+def test_margin_map_duty_outside_0_1_is_an_error(duty):
+    from explorer.sweep import margin_map
+    with pytest.raises(DesignError) as e:
+        margin_map(DEMO, "bootstrap 220n", [200e3], [0.5, duty])
+    assert e.value.path == "duty" and "from 0 to 1" in e.value.problem
+
+
+def test_margin_map_negative_f_sw_is_an_error():
+    from explorer.sweep import margin_map
+    with pytest.raises(DesignError) as e:
+        margin_map(DEMO, "bootstrap 220n", [-200e3], [0.5])
+    assert str(e.value) == "f_sw: expected a number > 0 and ≤ 1e+08 [Hz] (got -200000.0)"
+
+
+def test_sweep_value_the_field_never_allows_is_an_error():
+    from explorer.sweep import sweep
+    with pytest.raises(DesignError) as e:
+        sweep(DEMO, {"bridge.f_sw": [100e3, -200e3]}, figures=["rail_min"])
+    assert str(e.value) == "axes[bridge.f_sw]: expected a number > 0 and ≤ 1e+08 [Hz] (got -200000.0)"
+    with pytest.raises(DesignError) as e:
+        sweep(DEMO, {"duty": [0.5, 1.5]}, figures=["rail_min"])
+    assert str(e.value) == "axes[duty]: expected an HS duty share from 0 to 1 (got 1.5)"
+    # a value allowed on its own but inconsistent with the rest stays a grid point with its reason
+    s = sweep(DEMO, {"bridge.v_out": [12.0, 60.0]}, labels=["isolated 1 W"], figures=["rail_min"])
+    assert list(s.invalid) == [(1,)] and "buck's output must be below" in s.invalid[(1,)]
+
+
+def test_replace_fields_is_public():
+    import explorer
+    d = explorer.replace_fields(explorer.demo_design(), {"bridge.f_sw": "100kHz", "options[0].c": "470nF"})
+    assert d.bridge.f_sw == 100e3 and d.options[0].c == 470e-9
+    assert "replace_fields" in explorer.__all__
+
+
+# ---------------------------------------------------------------- command-line flags named as typed
+
+@pytest.mark.parametrize("args, line", [
+    (["envelope", "{f}", "--label", "nope", "--quiet"], "error: --label: no option labelled 'nope'; labels: "
+     "'bootstrap 220n', 'pump 1:1', 'pump 1:2 from 5 V', 'pump 2:1 from 24 V', 'isolated 1 W' (got 'nope')"),
+    (["netlist", "{f}", "--label", "nope"], "error: --label: no option labelled 'nope'; labels: "
+     "'bootstrap 220n', 'pump 1:1', 'pump 1:2 from 5 V', 'pump 2:1 from 24 V', 'isolated 1 W' (got 'nope')"),
+    (["netlist", "{f}", "--label", "pump 1:1", "--cycles", "0"],
+     "error: --cycles: expected a whole number of switching periods ≥ 1 (got 0)"),
+    (["size", "{f}", "--label", "nope"], "error: --label: no option labelled 'nope'; labels: "
+     "'bootstrap 220n', 'pump 1:1', 'pump 1:2 from 5 V', 'pump 2:1 from 24 V', 'isolated 1 W' (got 'nope')"),
+    (["size", "{f}", "--headroom", "0.5"], "error: --headroom: expected a factor ≥ 1 (got 0.5)"),
+    (["size", "{f}", "--headroom", "lots"], "error: --headroom: expected a number such as 2.2e-6 or '2.2u' "
+     "(suffixes f p n u/µ m k M G T) (got 'lots')"),
+    (["size", "{f}", "--i-max", "2V"], "error: --i-max: unit 'V' does not fit: this field takes a current in A "
+     "(got '2V')"),
+])
+def test_cli_flag_named_as_typed(args, line, tmp_path, capsys):
+    f = tmp_path / "d.json"
+    f.write_text(DEMO_TEXT, encoding="utf-8")
+    assert main([a.format(f=f) for a in args]) == 2
+    out = capsys.readouterr()
+    assert out.err.splitlines() == [line] and out.out == ""

@@ -101,4 +101,42 @@ def test_envelope_strict_exit_code_and_bad_input(tmp_path):
     r = run("envelope", str(p), "--samples", "0")
     assert r.returncode == 2 and r.stderr.strip() == "error: --samples: expected a whole number from 1 to 10000000 (got 0)"
     r = run("envelope", str(p), "--label", "nope")
-    assert r.returncode == 2 and r.stderr.startswith("error: options: no option labelled 'nope'")
+    assert r.returncode == 2 and r.stderr.startswith("error: --label: no option labelled 'nope'")
+
+
+def test_demo_file_numbers_read_as_engineers_write_them():
+    r = run("demo")
+    assert r.returncode == 0, r.stderr
+    d = json.loads(r.stdout)
+    assert d["bridge"]["f_sw"] == "200 kHz" and d["bridge"]["precharge"] == "5 µs"
+    assert d["options"][0]["c"] == "220 nF" and d["options"][4]["cmti"] == "100 V/ns"
+    assert "e-0" not in r.stdout and "9999" not in r.stdout
+
+
+def test_size_command(tmp_path):
+    p = tmp_path / "demo.json"
+    p.write_text(json.dumps(DEMO))
+    r = run("size", str(p), "--label", "bootstrap 220n", "--label", "pump 2:1 from 24 V", "--json",
+            "--i-max", "2A")
+    assert r.returncode == 0, r.stderr
+    out = json.loads(r.stdout)
+    assert out["format"] == "explorer-sizing" and "Caution" in out["caution"]
+    boot, pump = out["options"]
+    c, res = boot["values"]
+    assert c["field"] == "options[0].c" and c["value"] >= 2 * c["minimum"] and c["margin"] >= 0
+    # R ≥ (V_DD·(1 + tol) − V_F)/i_max − r_D − ESR (Ohm's law on the dead capacitor), on the E12 series
+    assert res["value"] >= (12 * 1.05 - 0.55) / 2 - 0.5 - 0.01
+    assert [v["quantity"] for v in pump["values"]] == ["flying capacitor C_fly", "pump clock f_cp"]
+    text = run("size", str(p), "--label", "isolated 1 W")
+    assert text.returncode == 0 and "module power rating" in text.stdout and "Caution" in text.stdout
+
+
+def test_size_says_why_nothing_works(tmp_path):
+    d = json.loads(json.dumps(DEMO))
+    d["aux"]["v_dd"] = 9  # 9 V less 5 % less the 0.55 V diode: 8 V, below max(7.8, 8) + 0.5 = 8.5 V
+    p = tmp_path / "low.json"
+    p.write_text(json.dumps(d))
+    r = run("size", str(p), "--label", "bootstrap 220n")
+    assert r.returncode == 1
+    assert "nothing works" in r.stdout and "worst-corner ceiling of the rail" in r.stdout
+    assert "below the requirement" in r.stdout
