@@ -241,6 +241,11 @@ def _ascii(text: str) -> str:
     return " ".join(out.split())
 
 
+def _later(a: float, b: float) -> bool:
+    """``a`` is after ``b`` as written in the netlist (a PWL time must increase after printing)."""
+    return a > b and _n(a) != _n(b)
+
+
 def _pwl(points, per_line: int = 4) -> str:
     """``PWL(t1 v1 t2 v2 …)`` with continuation lines."""
     pairs = [f"{_n(t)} {_n(v)}" for t, v in points]
@@ -277,7 +282,7 @@ def _steps(t0: np.ndarray, dt: np.ndarray, levels: np.ndarray, edge: float, star
             pts.append((a, prev))
         pts.append((a + e, lv))
         prev = lv
-    if t_stop > pts[-1][0]:
+    if _later(t_stop, pts[-1][0]):
         pts.append((t_stop, prev))
     return pts
 
@@ -446,7 +451,7 @@ def _isolated_lines(design: Design, option: IsolatedOption, plan: NetlistPlan) -
     from .options.isolated import module_output
     v_mod = module_output(design, option)
     pts = [(0.0, 0.0)] + ([(t1, 0.0)] if t1 > 0 else []) + [(t2, v_mod)]
-    if plan.t_stop > t2:
+    if _later(plan.t_stop, t2):
         pts.append((plan.t_stop, v_mod))
     return ["* --- isolated module: source (delay t_start, ramp t_ramp) behind r_out, C_out with ESR",
             f"VMOD m vs {_pwl(pts)}",

@@ -338,8 +338,8 @@ def test_cli_writes_the_netlist(tmp_path):
 
 
 @pytest.mark.parametrize("args, needle", [
-    (["--label", "nope"], "error: options: no option labelled 'nope'"),
-    (["--label", LABELS[0], "--cycles", "0"], "error: n_cycles:"),
+    (["--label", "nope"], "error: --label: no option labelled 'nope'"),
+    (["--label", LABELS[0], "--cycles", "0"], "error: --cycles:"),
     (["--label", LABELS[0], "--out", "/nonexistent-dir/x.cir"], "error: --out:"),
 ])
 def test_cli_bad_input_exit_2_one_line(tmp_path, args, needle):
