@@ -8,7 +8,7 @@ from dataclasses import dataclass
 
 from .design import Design, load_design
 from .errors import DesignError, ModelValidityWarning
-from .options import model_for
+from .options import supply_model
 from .results import OptionResult, clean
 from .schedule import schedule_validity
 from .views.table import CAUTION, comparison_html, comparison_rows, comparison_text, topology_text
@@ -138,12 +138,12 @@ def evaluate(design, *, rank: str = "overhead") -> Comparison:
         warnings.warn(reason, ModelValidityWarning, stacklevel=2)
     results = []
     for opt in d.options:
-        fn = model_for(opt.kind)
-        if fn is None:
+        model = supply_model(opt.kind)
+        if model is None:
             results.append(OptionResult.failed(opt.label, opt.kind,
                                                f"the {opt.kind} model is not available in this version"))
             continue
-        results.append(fn(d, opt))
+        results.append(model.evaluate(d, opt))
     return Comparison(d, tuple(results), rank)
 
 

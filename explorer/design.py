@@ -29,7 +29,7 @@ __all__ = [
     "FORMAT", "VERSION", "MAX_FILE_BYTES", "TOPOLOGIES", "Spec", "Capacitor", "LinearDiode",
     "JunctionDiode", "Bridge", "Gate", "Driver", "Aux", "Checks", "Spread", "BootstrapOption",
     "ChargePumpOption", "IsolatedOption", "Design", "load_design", "save_design", "design_to_dict",
-    "replace_field", "replace_fields", "specs", "spec_at", "check_value",
+    "replace_field", "replace_fields", "specs", "spec_at", "check_value", "spec_field",
 ]
 
 FORMAT = "explorer-design"
@@ -93,6 +93,11 @@ def _f(unit: str, doc: str, default: Any = _REQUIRED, **kw) -> Any:
     if default is _REQUIRED:
         return field(metadata={"spec": spec})
     return field(default=default, metadata={"spec": spec})
+
+
+#: Public name of :func:`_f` for the option classes of families defined outside this module
+#: (``spec_field(unit, doc, default, lo=..., kind=...)``; see DEVELOPERS.md).
+spec_field = _f
 
 
 POS = dict(lo=0.0, lo_open=True)
@@ -401,7 +406,8 @@ class IsolatedOption:
                               f"p_rated\u00b7(1/eta_full \u2212 1) = {loss_full:.4g} W", self.p_no_load)
 
 
-OPTION_KINDS = {"bootstrap": BootstrapOption, "charge_pump": ChargePumpOption, "isolated": IsolatedOption}
+#: The built-in option classes (for type hints); which kinds a design may use, and their classes,
+#: the supply-model registry says (:mod:`explorer.options`), so a new family needs no edit here.
 Option = Union[BootstrapOption, ChargePumpOption, IsolatedOption]
 
 
@@ -586,11 +592,12 @@ def _design_from_dict(data: Any) -> Design:
     if not isinstance(opts_raw, list) or not 1 <= len(opts_raw) <= 50:
         raise DesignError("options", "expected a list of 1 to 50 supply options",
                           opts_raw if not isinstance(opts_raw, (list, dict)) else f"{len(opts_raw)} items")
+    from .options import option_classes  # the registry (imported here: it imports this module)
     options = []
     labels = set()
     for i, o in enumerate(opts_raw):
         p = f"options[{i}]"
-        opt = _build_tagged(o, OPTION_KINDS, "kind", p, "label and kind")
+        opt = _build_tagged(o, option_classes, "kind", p, "label and kind")
         if opt.label in labels:
             raise DesignError(f"{p}.label", "labels must be unique", opt.label)
         labels.add(opt.label)

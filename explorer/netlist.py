@@ -147,26 +147,12 @@ def _option(design: Design, label: str):
     return design.option(label)
 
 
-def _evaluate(design: Design, option, corner: str):
-    from .options import model_for
-    fn = model_for(option.kind)
-    if fn is None:
+def _model(option):
+    from .options import supply_model
+    model = supply_model(option.kind)
+    if model is None:
         raise DesignError("kind", "no model for this option kind", option.kind)
-    return fn(design, option, corner=corner)
-
-
-def _settle_time(design: Design, option, result, corner: str) -> float:
-    """Time for the rail to settle after start-up [s]: SETTLE_TAU time constants."""
-    if isinstance(option, BootstrapOption):
-        from .options.bootstrap import bootstrap_circuit
-        circ = bootstrap_circuit(design, option, corner)
-        s = period_schedule(design)
-        # the loop only refreshes while SW is at the low-side level or below (not while it rests at V_out)
-        low = float(s.dt[s.v_sw <= max(design.bridge.v_sw_low, 0.0)].sum() / s.period)
-        return SETTLE_TAU * circ.r_tot * circ.c / max(low, 1e-3)
-    if isinstance(option, ChargePumpOption):
-        return SETTLE_TAU * float(result.r_out) * float(result.extra["c_out_eff"])
-    return SETTLE_TAU * float(result.extra["tau_out"])
+    return model
 
 
 def netlist_plan(design: Design, label: str, *, n_cycles: int | None = None,
@@ -187,17 +173,16 @@ def netlist_plan(design: Design, label: str, *, n_cycles: int | None = None,
         Capacitance corner (:func:`explorer.capacitors.capacitance`).
     """
     option = _option(design, label)
+    model = _model(option)
     b = design.bridge
-    result = _evaluate(design, option, corner)
+    result = model.evaluate(design, option, corner=corner)
     per = period_schedule(design)
     t_sw = per.t_switch
     t_pump0 = 0.0
     t_uvlo = result.startup.t_uvlo if result.startup is not None else None
-    durations = None
-    if isinstance(option, ChargePumpOption):
-        from .options.charge_pump import pump_durations
+    durations = model.netlist_clock(design, option)
+    if durations is not None:
         from .scnet import spice_t0
-        durations = pump_durations(option.f_cp, option.dead_time_cp)
         # a quarter period late, so that for commensurate clocks the pump's edges do not fall on
         # the PWM's (a coincidence shifts ngspice's rail by about 0.05 %; the clocks are asynchronous)
         t_pump0 = PUMP_DELAY * float(durations.sum()) + spice_t0(durations)
@@ -206,17 +191,13 @@ def netlist_plan(design: Design, label: str, *, n_cycles: int | None = None,
     if n_cycles is None:
         t_ss = b.soft_start if b.topology not in ("half_bridge", "line_leg") else 0.0
         t_first = max(t_ss, t_uvlo if t_uvlo is not None else b.startup_cycles * t_sw)
-        n_cycles = (math.ceil((t_first + _settle_time(design, option, result, corner)) / t_sw)
+        n_cycles = (math.ceil((t_first + model.netlist_settle_time(design, option, result, corner)) / t_sw)
                     + STEADY_PERIODS * per.n_cycles)
     if not isinstance(n_cycles, (int, np.integer)) or isinstance(n_cycles, bool) or n_cycles < 1:
         raise DesignError("n_cycles", "expected a whole number of switching periods \u2265 1", n_cycles)
     n_cycles = int(n_cycles)
     s = startup_schedule(design, n_cycles=n_cycles)
-    if isinstance(option, BootstrapOption):
-        from .options.bootstrap import startup
-        delivered = startup(design, option, corner, n_cycles=n_cycles).delivered
-    else:
-        delivered = s.hs_on & (t_uvlo is not None) & (s.t_start >= (t_uvlo if t_uvlo is not None else 0.0))
+    delivered = model.netlist_delivered(design, option, corner, s, n_cycles, t_uvlo)
     t_stop = s.period
     fastest = min(t_sw, s.t_switch)
     if durations is not None:
@@ -357,7 +338,8 @@ def _sw_high_pwl(design: Design, plan: NetlistPlan) -> list:
 
 # --------------------------------------------------------------------------- options
 
-def _bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, corner: str) -> list[str]:
+def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, corner: str) -> list[str]:
+    """SPICE lines of a bootstrap supply (its model's netlist writer)."""
     from .options.bootstrap import bootstrap_circuit
     circ = bootstrap_circuit(design, option, corner)
     d = option.diode
@@ -401,7 +383,8 @@ def _bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan,
     return lines
 
 
-def _pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> list[str]:
+def pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> list[str]:
+    """SPICE lines of a charge pump (its model's netlist writer)."""
     from .options.charge_pump import CIRCUITS, pump_durations
     from .scnet import spice_t0
     circ = CIRCUITS[option.ratio]
@@ -444,7 +427,8 @@ def _pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> 
     return lines
 
 
-def _isolated_lines(design: Design, option: IsolatedOption, plan: NetlistPlan) -> list[str]:
+def isolated_lines(design: Design, option: IsolatedOption, plan: NetlistPlan) -> list[str]:
+    """SPICE lines of an isolated module (its model's netlist writer)."""
     c_out = float(plan.result.capacitors[0].c_eff)
     t1 = option.t_start
     t2 = t1 + max(option.t_ramp, 1e-3 * design.bridge.t_edge)
@@ -475,16 +459,7 @@ def netlist_probes(design: Design, label: str) -> dict:
     current through C_iso) and for a pump ``"fly"`` (the flying capacitor).
     """
     option = _option(design, label)
-    p = {"rail": "v(vb)-v(vs)", "sw": "v(vs)"}
-    if isinstance(option, BootstrapOption):
-        p["cap"] = "v(vb)-v(cb)"
-    else:
-        p["cap"] = "v(vb)-v(co)"
-    if isinstance(option, ChargePumpOption):
-        p["fly"] = "v(t)-v(cf)"
-    if isinstance(option, IsolatedOption):
-        p["i_cm"] = "i(vcm)"
-    return p
+    return {"rail": "v(vb)-v(vs)", "sw": "v(vs)", **_model(option).netlist_probes}
 
 
 def _slug(label: str) -> str:
@@ -571,19 +546,11 @@ def export_netlist(design: Design, label: str, *, n_cycles: int | None = None, c
         head.append(f"* Model figures for comparison: rail min {_fmt_opt(r.v_rail.min, 'V')}, max "
                     f"{_fmt_opt(r.v_rail.max, 'V')}, mean {_fmt_opt(r.v_rail.mean, 'V')}; time to UVLO-on "
                     f"{_fmt_opt(plan.t_uvlo_model, 's')}.")
-    if isinstance(option, ChargePumpOption):
-        head.append("* (the model's pump rail extremes are a bound over every relative phase of the PWM and "
-                    "the pump clock; this circuit runs one phase)")
+    model = _model(option)
+    head += model.netlist_notes
     lines = head
     lines += _bridge_lines(design, plan)
-    if isinstance(option, BootstrapOption):
-        lines += _bootstrap_lines(design, option, plan, corner)
-    elif isinstance(option, ChargePumpOption):
-        lines += _pump_lines(design, option, plan)
-    elif isinstance(option, IsolatedOption):
-        lines += _isolated_lines(design, option, plan)
-    else:  # pragma: no cover - the registry has no other kinds
-        raise DesignError("kind", "no netlist writer for this option kind", option.kind)
+    lines += model.netlist_lines(design, option, plan, corner)
     t_amb = _n(design.checks.t_amb)
     lines += ["* --- analysis",
               f".options reltol={_n(RELTOL)} abstol=1e-12 vntol=1e-6 method=gear temp={t_amb} tnom={t_amb}",

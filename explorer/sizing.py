@@ -13,11 +13,11 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .design import (BootstrapOption, ChargePumpOption, Design, IsolatedOption, LinearDiode, load_design, replace_field,
+from .design import (BootstrapOption, ChargePumpOption, Design, LinearDiode, load_design, replace_field,
                      replace_fields)
 from .errors import DesignError, ModelValidityWarning
 from .loads import load_power, required_rail
-from .options import model_for
+from .options import SupplyModel, kinds, supply_model
 from .options.charge_pump import CIRCUITS, PULSE_CYCLES_MIN
 from .options.isolated import module_output
 from .preferred import next_preferred, preferred_values
@@ -70,6 +70,22 @@ def _index(design: Design, label: str) -> int:
     raise DesignError("label", "no such option", label)
 
 
+def _model(opt):
+    """The option's supply model (a DesignError if its module is not built in this version)."""
+    model = supply_model(opt.kind)
+    if model is None:
+        raise DesignError(f"options[{opt.label}].kind", "the model of this option kind is not available", opt.kind)
+    return model
+
+
+def _require(design: Design, i: int, kind: str, what: str):
+    """The i-th option, which this family-specific search needs to be of ``kind``."""
+    opt = design.options[i]
+    if opt.kind != kind:
+        raise DesignError(f"options[{i}].kind", f"{what} sizing applies to {kind} options", opt.kind)
+    return opt
+
+
 def _margin(design: Design, label: str) -> float:
     """Worst-corner margin of a candidate; its model-validity warnings are held back (see :func:`_validity`)."""
     with warnings.catch_warnings():
@@ -85,7 +101,7 @@ def _validity(design: Design, label: str) -> str:
     """
     with warnings.catch_warnings(record=True) as rec:
         warnings.simplefilter("always", ModelValidityWarning)
-        model_for(design.option(label).kind)(design, design.option(label))
+        _model(design.option(label)).evaluate(design, design.option(label))
     reasons = list(dict.fromkeys(str(w.message) for w in rec if issubclass(w.category, ModelValidityWarning)))
     for r in reasons:
         warnings.warn(r, ModelValidityWarning, stacklevel=3)
@@ -101,13 +117,12 @@ def size_capacitor(design, label: str, *, series: str = "E12", lo: float = 1e-9,
     d = load_design(design)
     i = _index(d, label)
     opt = d.options[i]
-    if isinstance(opt, BootstrapOption):
-        path = f"options[{i}].c"
-    elif isinstance(opt, ChargePumpOption):
-        path = f"options[{i}].c_fly.c"
-    else:
-        raise DesignError(f"options[{i}].kind", "capacitor sizing applies to bootstrap and charge_pump options",
+    field = _model(opt).sized_capacitor
+    if field is None:
+        sizable = [k for k in kinds() if (supply_model(k) or SupplyModel()).sized_capacitor is not None]
+        raise DesignError(f"options[{i}].kind", f"capacitor sizing applies to {' and '.join(sizable)} options",
                           opt.kind)
+    path = f"options[{i}].{field}"
     cands = preferred_values(lo, hi, series)
     margins: dict[int, float] = {}
 
@@ -142,9 +157,7 @@ def size_bootstrap_resistor(design, label: str, i_max: float, *, series: str = "
     """
     d = load_design(design)
     i = _index(d, label)
-    opt = d.options[i]
-    if not isinstance(opt, BootstrapOption):
-        raise DesignError(f"options[{i}].kind", "resistor sizing applies to bootstrap options", opt.kind)
+    opt = _require(d, i, "bootstrap", "resistor")
     if not (isinstance(i_max, (int, float)) and math.isfinite(i_max) and i_max > 0):
         raise DesignError("i_max", "expected a current > 0 [A]", i_max)
     v_dd = d.aux.v_dd * (1 + d.aux.v_dd_tol)
@@ -172,9 +185,7 @@ def size_pump_frequency(design, label: str, *, f_lo: float = 1e3, f_hi: float = 
     """
     d = load_design(design)
     i = _index(d, label)
-    opt = d.options[i]
-    if not isinstance(opt, ChargePumpOption):
-        raise DesignError(f"options[{i}].kind", "frequency sizing applies to charge_pump options", opt.kind)
+    opt = _require(d, i, "charge_pump", "frequency")
     path = f"options[{i}].f_cp"
 
     def m(f):
@@ -216,16 +227,14 @@ def size_isolated_rating(design, label: str, *, headroom: float = 2.0, series: s
     """
     d = load_design(design)
     i = _index(d, label)
-    opt = d.options[i]
-    if not isinstance(opt, IsolatedOption):
-        raise DesignError(f"options[{i}].kind", "rating sizing applies to isolated options", opt.kind)
+    opt = _require(d, i, "isolated", "rating")
     if not (isinstance(headroom, (int, float)) and headroom >= 1):
         raise DesignError("headroom", "expected a factor >= 1", headroom)
     p_load = float(load_power(d, period_schedule(d), module_output(d, opt)))
     p = next_preferred(p_load * headroom, series)
     path = f"options[{i}].p_rated"
     dd = replace_fields(d, {path: p, f"options[{i}].p_no_load": opt.p_no_load * p / opt.p_rated})
-    r = model_for("isolated")(dd, dd.options[i])
+    r = _model(opt).evaluate(dd, dd.options[i])
     return SizingResult(label, path, p, r.v_rail.min - d.driver.uvlo_off, None, None, dd,
                         f"gate load {p_load:.3g} W \u00d7 {headroom:g} headroom \u2192 {p:.3g} W module")
 

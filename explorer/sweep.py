@@ -19,7 +19,6 @@ path, :func:`margin_map`.
 from __future__ import annotations
 
 import dataclasses
-import importlib
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -29,7 +28,7 @@ from .compare import evaluate
 from .design import Design, check_value, load_design, replace_fields, spec_at
 from .errors import DesignError
 from .loads import required_rail
-from .options import MODULES
+from .options import supply_model
 
 __all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "temperature_fields", "margin_map", "MarginMap"]
 
@@ -113,16 +112,18 @@ def temperature_fields(design: Design, t: float) -> dict:
     """Design changes for an operating temperature ``t`` [°C].
 
     Sets ``checks.t_amb`` (the junction diode's thermal voltage follows it) and
-    grows each bootstrap diode's leakage by ``spread.leak_per_100k`` per 100 K
-    above the design's own ``t_amb``. Capacitance keeps its 25 °C value: an
+    adds each option model's own changes
+    (:meth:`~explorer.options.base.SupplyModel.temperature_changes`: a bootstrap
+    diode's leakage grows by ``spread.leak_per_100k`` per 100 K above the
+    design's own ``t_amb``). Capacitance keeps its 25 °C value: an
     EIA-198 code bounds the change over temperature but gives no curve, so the
     class envelope is handled by the corners and Monte Carlo instead.
     """
-    t0 = design.checks.t_amb
     out = {"checks.t_amb": float(t)}
     for i, o in enumerate(design.options):
-        if o.kind == "bootstrap" and o.i_leak > 0:
-            out[f"options[{i}].i_leak"] = o.i_leak * design.spread.leak_per_100k ** ((t - t0) / 100.0)
+        model = supply_model(o.kind)
+        if model is not None:
+            out.update(model.temperature_changes(design, i, o, t))
     return out
 
 
@@ -202,15 +203,15 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
     labs = list(labels or [o.label for o in d0.options])
     for lab in labs:
         d0.option(lab)
-    keep = dataclasses.replace(d0, options=tuple(o for o in d0.options if o.label in labs))
+    keep = tuple(o.label in labs for o in d0.options)  # trimmed after the change: paths index d0's options
     out = {lab: {n: np.full(shape, np.nan) for n in names} for lab in labs}
     invalid = {}
     total = int(np.prod(shape))
     for count, idx in enumerate(np.ndindex(shape)):
         assign = [(p, vals[k][i]) for k, (p, i) in enumerate(zip(paths, idx))]
         try:
-            dp = _point(keep, assign)
-            res = evaluate(dp)
+            dp = _point(d0, assign)
+            res = evaluate(dataclasses.replace(dp, options=tuple(o for o, k in zip(dp.options, keep) if k)))
         except DesignError as e:
             invalid[idx] = str(e)
             continue
@@ -266,10 +267,9 @@ def margin_map(design, label: str, f_sw, duty) -> MarginMap:
     bad = u[~((u >= 0.0) & (u <= 1.0))]
     if bad.size:
         raise DesignError("duty", "expected HS duty shares from 0 to 1", float(bad[0]))
-    mod = importlib.import_module(MODULES[opt.kind])
-    fast = getattr(mod, "rail_min_map", None)
-    if fast is not None:
-        rail = np.asarray(fast(d, opt, f[:, None], u[None, :]), dtype=float)
+    model = supply_model(opt.kind)
+    if model is not None and model.has_rail_min_map:
+        rail = np.asarray(model.rail_min_map(d, opt, f[:, None], u[None, :]), dtype=float)
         vec = True
     else:
         s = sweep(d, {"bridge.f_sw": f, "duty": u}, labels=[label], figures=["rail_min"])

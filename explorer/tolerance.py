@@ -44,15 +44,14 @@ import numpy as np
 from scipy import stats
 
 from .capacitors import parse_dielectric
-from .design import BootstrapOption, Capacitor, ChargePumpOption, Design, IsolatedOption, JunctionDiode
+from .design import Design
 from .errors import DesignError
 from .loads import required_rail
-from .options import model_for
+from .options import supply_model
+from .options.base import SPREADS as _NAMES
 
 __all__ = ["Factors", "apply_factors", "corner_factors", "sample_factors", "worst_case", "WorstCase", "monte_carlo",
            "MonteCarlo", "clopper_pearson"]
-
-_NAMES = ("k_c", "k_out", "q_g", "i_q", "v_dd", "v_f", "t")
 
 
 @dataclass(frozen=True)
@@ -86,40 +85,17 @@ class Factors:
                           if np.ndim(getattr(self, n)) else getattr(self, n) for n in _NAMES})
 
 
-def _scaled_cap(cap: Capacitor, k: float) -> Capacitor:
-    """The capacitor with its tolerance and class already applied (effective nominal value)."""
-    return dataclasses.replace(cap, c=cap.c * k, c_tol=0.0, dielectric="ideal")
-
-
 def apply_factors(design: Design, label: str, f: Factors) -> Design:
     """The design with one option and the shared parts perturbed by scalar factors.
 
-    The option's capacitors get ``c·k_c`` (a pump's output capacitor ``c·k_out``)
-    with tolerance and temperature class already applied; gate, driver, aux rail
-    and the bootstrap diode are scaled. The result is evaluated at the
-    ``"nominal"`` corner.
+    The option's own parts are the model's business
+    (:meth:`~explorer.options.base.SupplyModel.apply_factors`: its capacitors at
+    ``c·k_c`` / ``c·k_out`` with tolerance and temperature class already applied,
+    a bootstrap's diode, ...); gate, driver and aux rail are scaled here. The
+    result is evaluated at the ``"nominal"`` corner.
     """
     opt = design.option(label)
-    leak = float(f.leak(design))
-    if isinstance(opt, BootstrapOption):
-        diode = opt.diode
-        if isinstance(diode, JunctionDiode):
-            # a forward-voltage factor on an exponential junction: scale i_s so that v_j at a
-            # reference current moves by the same factor (v_j = n·V_T·ln(i/i_s))
-            vt = 0.025852  # thermal voltage at 300 K [V] (k·T/q, CODATA constants)
-            v_ref = diode.n * vt * np.log(0.1 / diode.i_s)
-            diode = dataclasses.replace(diode, i_s=float(0.1 * np.exp(-f.v_f * v_ref / (diode.n * vt))))
-        else:
-            diode = dataclasses.replace(diode, v_f=diode.v_f * f.v_f)
-        opt = dataclasses.replace(opt, c=opt.c * f.k_c, c_tol=0.0, dielectric="ideal", diode=diode,
-                                  i_leak=opt.i_leak * leak)
-    elif isinstance(opt, ChargePumpOption):
-        opt = dataclasses.replace(opt, c_fly=_scaled_cap(opt.c_fly, f.k_c),
-                                  c_out=_scaled_cap(opt.c_out, f.k_out),
-                                  v_in=None if opt.v_in is None else opt.v_in * f.v_dd)
-    elif isinstance(opt, IsolatedOption):
-        opt = dataclasses.replace(opt, c_out=_scaled_cap(opt.c_out, f.k_c),
-                                  v_in=None if opt.v_in is None else opt.v_in * f.v_dd)
+    opt = _model(opt).apply_factors(design, opt, f)
     options = tuple(opt if o.label == label else o for o in design.options)
     return dataclasses.replace(
         design, options=options,
@@ -128,39 +104,18 @@ def apply_factors(design: Design, label: str, f: Factors) -> Design:
         aux=dataclasses.replace(design.aux, v_dd=design.aux.v_dd * f.v_dd))
 
 
-def _capacitors(opt) -> list[Capacitor]:
-    """The capacitors of an option (the ones its capacitance spread acts on)."""
-    if isinstance(opt, BootstrapOption):
-        return [opt.capacitor]
-    if isinstance(opt, ChargePumpOption):
-        return [opt.c_fly, opt.c_out]
-    return [opt.c_out]
-
-
-def _cap_range(cap: Capacitor) -> tuple[float, float]:
-    """Lowest and highest capacitance factor of one capacitor (tolerance × temperature class)."""
-    d = parse_dielectric(cap.dielectric)
-    return (1 - cap.c_tol) * (1 + d.dc_low), (1 + cap.c_tol) * (1 + d.dc_high)
+def _model(opt):
+    """The option's supply model (a DesignError if its module is not built in this version)."""
+    model = supply_model(opt.kind)
+    if model is None:
+        raise DesignError(f"options[{opt.label}]", f"the {opt.kind} model is not available")
+    return model
 
 
 def _ranges(design: Design, label: str) -> dict:
-    """Range of every spread; spreads that cannot affect this option are pinned at nominal.
-
-    The diode forward voltage and the temperature (through leakage) act on a
-    bootstrap only; a regulated isolated module does not follow its input rail
-    (one without output regulation, ``v_in_rated`` given, does).
-    """
-    s = design.spread
+    """Range of every spread; spreads that cannot affect this option are pinned at nominal (the model says)."""
     opt = design.option(label)
-    caps = _capacitors(opt)
-    boot = isinstance(opt, BootstrapOption)
-    t_amb = design.checks.t_amb
-    return {"k_c": _cap_range(caps[0]), "k_out": _cap_range(caps[1]) if len(caps) > 1 else (1.0, 1.0),
-            "q_g": (1 - s.q_g, 1 + s.q_g), "i_q": (1 - s.i_q, 1 + s.i_q),
-            "v_dd": (1.0, 1.0) if isinstance(opt, IsolatedOption) and opt.v_in_rated is None else
-            (1 - design.aux.v_dd_tol, 1 + design.aux.v_dd_tol),
-            "v_f": (1 - s.v_f, 1 + s.v_f) if boot else (1.0, 1.0),
-            "t": (design.checks.t_min, design.checks.t_max) if boot and opt.i_leak > 0 else (t_amb, t_amb)}
+    return _model(opt).spread_ranges(design, opt)
 
 
 def corner_factors(design: Design, label: str) -> list[tuple[str, Factors]]:
@@ -218,10 +173,7 @@ class WorstCase:
 
 def _evaluate(design: Design, label: str):
     opt = design.option(label)
-    fn = model_for(opt.kind)
-    if fn is None:
-        raise DesignError(f"options[{label}]", f"the {opt.kind} model is not available")
-    return fn(design, opt)
+    return _model(opt).evaluate(design, opt)
 
 
 def worst_case(design: Design, label: str) -> WorstCase:
@@ -266,7 +218,8 @@ def sample_factors(design: Design, label: str, n: int, rng: np.random.Generator)
     if gaussian:
         # capacitance, per capacitor: its tolerance gaussian (3σ = c_tol) times its class envelope
         # sampled uniformly
-        for name, cap in zip(("k_c", "k_out"), _capacitors(design.option(label))):
+        opt = design.option(label)
+        for name, cap in zip(("k_c", "k_out"), _model(opt).capacitors(opt)):
             d = parse_dielectric(cap.dielectric)
             k_t = rng.uniform(d.dc_low, d.dc_high, n)
             out[name] = (1 + cap.c_tol / 3 * np.clip(rng.standard_normal(n), -4.5, 4.5)) * (1 + k_t)
@@ -327,9 +280,10 @@ def monte_carlo(design: Design, label: str, n: int = 10_000, *, seed: int = 0, c
     rng = np.random.default_rng(seed)
     f = sample_factors(design, label, int(n), rng)
     opt = design.option(label)
-    batch = _batch_for(opt.kind)
-    if batch is not None:
-        rail = np.asarray(batch(design, opt, f), dtype=float)
+    model = _model(opt)
+    vectorised = model.has_rail_min_batch
+    if vectorised:
+        rail = np.asarray(model.rail_min_batch(design, opt, f), dtype=float)
         if progress:
             progress(n, n)
     else:
@@ -344,12 +298,5 @@ def monte_carlo(design: Design, label: str, n: int = 10_000, *, seed: int = 0, c
     lo, hi = clopper_pearson(trips, n, confidence)
     p_margin = float(np.count_nonzero(~(rail >= required_rail(design)))) / n
     return MonteCarlo(label=label, n=int(n), seed=seed, confidence=confidence, rail_min=rail,
-                      p_trip=trips / n, ci=(lo, hi), p_margin=p_margin, vectorised=batch is not None)
+                      p_trip=trips / n, ci=(lo, hi), p_margin=p_margin, vectorised=vectorised)
 
-
-def _batch_for(kind: str):
-    import importlib
-
-    from .options import MODULES
-    mod = importlib.import_module(MODULES[kind])
-    return getattr(mod, "rail_min_batch", None)

@@ -59,10 +59,14 @@ def test_html_has_no_script_and_shows_caution():
         assert o["label"] in html
 
 
-def test_missing_model_is_reported_not_invented(monkeypatch):
-    from explorer import options
-    monkeypatch.setitem(options.MODULES, "isolated", "explorer.options.not_built_yet")
-    res = evaluate(DEMO)
+def test_missing_model_is_reported_not_invented():
+    from explorer.design import IsolatedOption
+    from explorer.options import register_lazy
+    register_lazy("isolated", "explorer.options.not_built_yet", IsolatedOption)
+    try:
+        res = evaluate(DEMO)
+    finally:
+        register_lazy("isolated", "explorer.options.isolated", IsolatedOption)
     r = res["isolated 1 W"]
     assert not r.feasible and r.error and r.v_rail is None and r.efficiency is None
     assert "not available" in r.verdict

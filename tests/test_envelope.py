@@ -132,12 +132,12 @@ def test_monte_carlo_same_seed_same_numbers():
 def test_batched_samples_equal_evaluate(label):
     d = demo_with(**{"spread": {"q_g": 0.15, "i_q": 0.3, "v_f": 0.1}, "options.0.i_leak": 1e-5})
     f = sample_factors(d, label, 8, np.random.default_rng(11))
-    from explorer.options import model_for
-    from explorer.tolerance import _batch_for
-    batch = _batch_for(d.option(label).kind)(d, d.option(label), f)
+    from explorer.options import supply_model
+    model = supply_model(d.option(label).kind)
+    batch = model.rail_min_batch(d, d.option(label), f)
     for i in range(8):
         di = apply_factors(d, label, f.at(i))
-        r = model_for(d.option(label).kind)(di, di.option(label))
+        r = model.evaluate(di, di.option(label))
         assert batch[i] == pytest.approx(r.v_rail.min, rel=1e-12)
 
 

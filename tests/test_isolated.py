@@ -498,14 +498,15 @@ def test_unregulated_module_pre_pwm_rail_is_the_source_behind_r_out():
 def test_unregulated_module_spread_follows_the_aux_tolerance():
     # the aux-rail spread reaches an unregulated module's output: its corners include the rail
     # high and low, and the batched Monte Carlo samples equal evaluate_option on the perturbed design
-    from explorer.tolerance import _batch_for, apply_factors, corner_factors, sample_factors
+    from explorer.options import supply_model
+    from explorer.tolerance import apply_factors, corner_factors, sample_factors
     d = _set(DEMO, v_in_rated=12.0)
     names = [n for n, _ in corner_factors(d, LABEL)]
     assert any("v_dd high" in n for n in names) and any("v_dd low" in n for n in names)
     assert not any("v_dd" in n for n, _ in corner_factors(DEMO, LABEL))  # regulated: pinned
     f = sample_factors(d, LABEL, 6, np.random.default_rng(5))
     assert np.ptp(f.v_dd) > 0
-    batch = _batch_for("isolated")(d, d.option(LABEL), f)
+    batch = supply_model("isolated").rail_min_batch(d, d.option(LABEL), f)
     for i in range(6):
         di = apply_factors(d, LABEL, f.at(i))
         assert batch[i] == pytest.approx(_run(di).v_rail.min, rel=1e-12)

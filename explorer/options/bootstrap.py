@@ -53,12 +53,13 @@ from ..bootstrap_engine import (Loop, OrbitSolution, _off_time_to, _solve_orbit,
                                 interval_integrals, junction_current, propagate, steady_rail,
                                 thermal_voltage)
 from ..capacitors import capacitance, parse_dielectric
-from ..design import BootstrapOption, Design, JunctionDiode
+from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, hs_duty_per_period, is_standstill, nominal_duty,
                         period_schedule, periods_per_fundamental, startup_schedule)
+from .base import SupplyModel
 
 __all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_state", "startup",
            "StartupSolution", "rail_min_map", "duty_slots", "evaluate_option",
@@ -1302,3 +1303,71 @@ def rail_min_batch(design: Design, option: BootstrapOption, factors) -> np.ndarr
     orb = _solve_orbit(_bc(loop))
     v_min = np.asarray(orb.v_min, dtype=float).reshape(n)
     return np.where(v_min < 0.0, 0.0, v_min)
+
+
+# --------------------------------------------------------------------------- the family's model
+
+class BootstrapModel(SupplyModel):
+    """The bootstrap family for the registry (:mod:`explorer.options.base`)."""
+
+    kind = "bootstrap"
+    option_class = BootstrapOption
+    sized_capacitor = "c"
+    glossary_parts = (("bootstrap diode, straight line", LinearDiode),
+                      ("bootstrap diode, exponential junction", JunctionDiode))
+    netlist_probes = {"cap": "v(vb)-v(cb)"}
+
+    evaluate = staticmethod(evaluate_option)
+    rail_min_batch = staticmethod(rail_min_batch)
+    rail_min_map = staticmethod(rail_min_map)
+
+    def capacitors(self, option) -> tuple:
+        return (option.capacitor,)
+
+    def apply_factors(self, design, option, factors):
+        """Capacitance × ``k_c`` (class applied), diode forward voltage × ``v_f``, leakage at ``t``."""
+        diode = option.diode
+        if isinstance(diode, JunctionDiode):
+            # a forward-voltage factor on an exponential junction: scale i_s so that v_j at a
+            # reference current moves by the same factor (v_j = n·V_T·ln(i/i_s))
+            vt = 0.025852  # thermal voltage at 300 K [V] (k·T/q, CODATA constants)
+            v_ref = diode.n * vt * np.log(0.1 / diode.i_s)
+            diode = dataclasses.replace(diode, i_s=float(0.1 * np.exp(-factors.v_f * v_ref / (diode.n * vt))))
+        else:
+            diode = dataclasses.replace(diode, v_f=diode.v_f * factors.v_f)
+        return dataclasses.replace(option, c=option.c * factors.k_c, c_tol=0.0, dielectric="ideal", diode=diode,
+                                   i_leak=option.i_leak * float(factors.leak(design)))
+
+    def spread_ranges(self, design, option) -> dict:
+        """The shared spreads, plus the diode's forward voltage and, with leakage, the temperature."""
+        out = super().spread_ranges(design, option)
+        out["v_f"] = (1 - design.spread.v_f, 1 + design.spread.v_f)
+        if option.i_leak > 0:
+            out["t"] = (design.checks.t_min, design.checks.t_max)
+        return out
+
+    def temperature_changes(self, design, index, option, t) -> dict:
+        """Leakage grows by ``spread.leak_per_100k`` per 100 K above the design's ``t_amb``."""
+        if option.i_leak <= 0:
+            return {}
+        growth = design.spread.leak_per_100k ** ((t - design.checks.t_amb) / 100.0)
+        return {f"options[{index}].i_leak": option.i_leak * growth}
+
+    def netlist_settle_time(self, design, option, result, corner):
+        from ..netlist import SETTLE_TAU
+        circ = bootstrap_circuit(design, option, corner)
+        s = period_schedule(design)
+        # the loop only refreshes while SW is at the low-side level or below (not while it rests at V_out)
+        low = float(s.dt[s.v_sw <= max(design.bridge.v_sw_low, 0.0)].sum() / s.period)
+        return SETTLE_TAU * circ.r_tot * circ.c / max(low, 1e-3)
+
+    def netlist_delivered(self, design, option, corner, schedule, n_cycles, t_uvlo):
+        """The pulses the model's own start-up delivers (UVLO decided interval by interval)."""
+        return startup(design, option, corner, n_cycles=n_cycles).delivered
+
+    def netlist_lines(self, design, option, plan, corner):
+        from ..netlist import bootstrap_lines
+        return bootstrap_lines(design, option, plan, corner)
+
+
+MODEL = BootstrapModel()

@@ -64,6 +64,7 @@ warned with :class:`~explorer.errors.ModelValidityWarning` and listed in ``Optio
 
 from __future__ import annotations
 
+import dataclasses
 import math
 import warnings
 from dataclasses import dataclass
@@ -78,6 +79,7 @@ from ..loads import charge_per_turn_on, load_power, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
 from ..schedule import period_schedule
 from ..scnet import MAX_STARTUP_CYCLES, Cap, ISrc, Network, Res, StartupTransient, VSrc, periodic_steady_state
+from .base import SupplyModel
 
 __all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
            "r_out_exact", "r_out_sqrt", "r_out_limits", "r_out_engine", "rail_from_r_out",
@@ -991,3 +993,39 @@ def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndar
     load = _rail_load(design, period_schedule(design), k_q=col(factors.q_g), k_i=col(factors.i_q))
     r_out, _, _, sol = _steady(pump, option, load)
     return np.asarray(_rail_bounds(sol, pump, load, r_out)["v_min"], dtype=float).reshape(n)
+
+
+# --------------------------------------------------------------------------- the family's model
+
+class ChargePumpModel(SupplyModel):
+    """The charge-pump family for the registry (:mod:`explorer.options.base`)."""
+
+    kind = "charge_pump"
+    option_class = ChargePumpOption
+    capacitor_fields = ("c_fly", "c_out")
+    sized_capacitor = "c_fly.c"
+    netlist_probes = {"cap": "v(vb)-v(co)", "fly": "v(t)-v(cf)"}
+    netlist_notes = ("* (the model's pump rail extremes are a bound over every relative phase of the PWM and "
+                     "the pump clock; this circuit runs one phase)",)
+
+    evaluate = staticmethod(evaluate_option)
+    rail_min_batch = staticmethod(rail_min_batch)
+
+    def apply_factors(self, design, option, factors):
+        """Each capacitor at its own factor (``k_c`` for C_fly, ``k_out`` for C_out); own input rail × ``v_dd``."""
+        option = super().apply_factors(design, option, factors)
+        return dataclasses.replace(option, v_in=None if option.v_in is None else option.v_in * factors.v_dd)
+
+    def netlist_clock(self, design, option):
+        return pump_durations(option.f_cp, option.dead_time_cp)
+
+    def netlist_settle_time(self, design, option, result, corner):
+        from ..netlist import SETTLE_TAU
+        return SETTLE_TAU * float(result.r_out) * float(result.extra["c_out_eff"])
+
+    def netlist_lines(self, design, option, plan, corner):
+        from ..netlist import pump_lines
+        return pump_lines(design, option, plan)
+
+
+MODEL = ChargePumpModel()

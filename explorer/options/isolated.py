@@ -65,6 +65,7 @@ from ..loads import charge_per_turn_on, load_charge, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup,
                        verdict_from)
 from ..schedule import Schedule, period_schedule
+from .base import SupplyModel
 
 __all__ = ["ISO_HEADROOM", "INSULATION_STATEMENT", "loss_coefficient", "module_input_power",
            "module_efficiency", "optimum_load", "RailSolution", "output_rail", "startup_voltage",
@@ -649,3 +650,40 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
                                  c_out=np.asarray(c_eff, dtype=float)[j], q_pulse=q_on[j],
                                  i_q=design.driver.i_q * i_q[j], r_gs=design.gate.r_gs)
     return out
+
+
+# --------------------------------------------------------------------------- the family's model
+
+class IsolatedModel(SupplyModel):
+    """The isolated-module family for the registry (:mod:`explorer.options.base`)."""
+
+    kind = "isolated"
+    option_class = IsolatedOption
+    capacitor_fields = ("c_out",)
+    netlist_probes = {"cap": "v(vb)-v(co)", "i_cm": "i(vcm)"}
+
+    evaluate = staticmethod(evaluate_option)
+    rail_min_batch = staticmethod(rail_min_batch)
+
+    def apply_factors(self, design, option, factors):
+        """C_out × ``k_c`` (class applied); the module's own input rail × ``v_dd``."""
+        option = super().apply_factors(design, option, factors)
+        return dataclasses.replace(option, v_in=None if option.v_in is None else option.v_in * factors.v_dd)
+
+    def spread_ranges(self, design, option) -> dict:
+        """A regulated module does not follow its input rail (one without regulation does)."""
+        out = super().spread_ranges(design, option)
+        if option.v_in_rated is None:
+            out["v_dd"] = (1.0, 1.0)
+        return out
+
+    def netlist_settle_time(self, design, option, result, corner):
+        from ..netlist import SETTLE_TAU
+        return SETTLE_TAU * float(result.extra["tau_out"])
+
+    def netlist_lines(self, design, option, plan, corner):
+        from ..netlist import isolated_lines
+        return isolated_lines(design, option, plan)
+
+
+MODEL = IsolatedModel()
