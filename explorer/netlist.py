@@ -416,8 +416,8 @@ def pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> l
         gnd = "0" if (domain_crossing and p == 1) else "vs"
         na, nb = (node.get(x, gnd) for x in (a, b_))
         lines.append(f"S{name.upper()} {na} {nb} ph{p} 0 SWCP")
-    c_fly = float(r.extra["c_fly_eff"])
-    c_out = float(r.extra["c_out_eff"])
+    c_fly = float(r.details.c_fly_eff)
+    c_out = float(r.details.c_out_eff)
     lines += [f"* C_fly: {_n(option.c_fly.c)} F nominal, {_n(c_fly)} F effective",
               f"CFLY t cf {_n(c_fly)} IC=0",
               f"RFLY cf fb {_n(max(option.c_fly.esr, R_MIN))}",

@@ -13,7 +13,7 @@ from dataclasses import dataclass, field, fields
 
 import numpy as np
 
-__all__ = ["RailStats", "Startup", "DutyLimits", "CapacitorStress", "Check", "OptionResult",
+__all__ = ["RailStats", "Startup", "DutyLimits", "CapacitorStress", "Check", "Details", "OptionResult",
            "clean", "verdict_from", "FAMILIES", "family_of"]
 
 
@@ -160,6 +160,15 @@ class Check(_Dict):
         return d
 
 
+@dataclass(frozen=True)
+class Details(_Dict):
+    """Base of a supply family's typed details (one frozen dataclass per kind, SI units per field).
+
+    The built-in families' are in :mod:`explorer.options.details`; ``to_dict()`` gives the
+    ``"details"`` object of the ``explorer-result`` JSON.
+    """
+
+
 #: The comparison's families of figures and the check names (or name prefixes) that belong to each.
 FAMILIES = {
     "efficiency": ("load_rating",),
@@ -217,6 +226,9 @@ class OptionResult(_Dict):
         Split of the overhead by mechanism.
     checks : tuple of Check
         Every pass/fail check with its margin.
+    details : Details or None
+        The family's own figures (a frozen dataclass per kind, e.g.
+        :class:`~explorer.options.details.BootstrapDetails`); None when not evaluated.
     error : str or None
         Set when the option could not be evaluated (then the figures are None).
     cautions : tuple of str
@@ -243,7 +255,7 @@ class OptionResult(_Dict):
     p_drawn_bus: float | None = None
     losses: dict = field(default_factory=dict)
     checks: tuple = ()
-    extra: dict = field(default_factory=dict)
+    details: Details | None = None
     error: str | None = None
     cautions: tuple = ()
     t: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)

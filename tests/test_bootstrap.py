@@ -371,7 +371,7 @@ def test_first_pulse_inrush_and_vdd_dip():
     o = d.options[0]
     r = evaluate_option(d, o)
     R = o.r + o.esr + o.diode.r_d
-    assert r.extra["i_first_pulse"] == pytest.approx((d.aux.v_dd - o.diode.v_f) / R, rel=1e-12)
+    assert r.details.i_first_pulse == pytest.approx((d.aux.v_dd - o.diode.v_f) / R, rel=1e-12)
     c = r.capacitors[0].c_eff
     assert r.startup.v_dd_dip <= c * (d.aux.v_dd - o.diode.v_f) / d.aux.c_dd + 1e-12
 
@@ -394,7 +394,7 @@ def test_duty_limit_is_where_the_minimum_meets_the_requirement():
     r = evaluate_option(d, d.options[0])
     h = r.duty.max
     assert 0 < h < 1
-    need = r.extra["required_rail"]
+    need = r.details.required_rail
     m = rail_min_map(d, d.options[0], d.bridge.f_sw, [h - 1e-3, h + 1e-3])
     assert m[0] >= need > m[1]
     assert r.duty.topology["v_out_max"] == pytest.approx(h * d.bridge.v_bus, rel=1e-12)

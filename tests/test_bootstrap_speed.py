@@ -199,7 +199,7 @@ def _finite_figures(r):
 def test_fuzz_uvlo_hiccup_is_bounded_and_conserves_charge():
     d = _fuzz("bootstrap-uvlo-hiccup-slow-startup.json")
     r = evaluate_option(d, d.options[0])
-    assert r.extra["startup_segments"] < 40  # was one piece per UVLO event (~4000)
+    assert r.details.startup_segments < 40  # was one piece per UVLO event (~4000)
     assert r.v_rail.min <= r.v_rail.mean <= r.v_rail.max
     assert 0 < r.efficiency <= 1 and _finite_figures(r)
     _assert_orbit_balances_charge(d)
@@ -267,8 +267,8 @@ def test_fuzz_pulldown_while_junction_conducts_balances_charge(name):
     with warnings.catch_warnings():
         warnings.simplefilter("error")
         r = evaluate_option(d, d.options[0])
-    if "v_min_model" in r.extra:  # this one's rail collapses: no efficiency by the collapsed-rail rule
-        assert r.efficiency is None and r.extra["v_min_model"] < 0
+    if r.details.v_min_model is not None:  # this one's rail collapses: no efficiency by the collapsed-rail rule
+        assert r.efficiency is None and r.details.v_min_model < 0
     else:
         assert r.efficiency is not None and 0 < r.efficiency <= 1
     assert _finite_figures(r)

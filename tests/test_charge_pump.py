@@ -141,8 +141,8 @@ def test_rail_from_r_out_matches_engine_mean(demo):
     # the averaged model equals the engine's cycle mean (a linear network: exact in the mean)
     o = demo.options[3]
     res = evaluate_option(demo, o)
-    e = res.extra
-    v = rail_from_r_out(e["v_in"], res.r_out, e["i_load_const"], ratio=o.ratio, g_load=e["g_load"])
+    e = res.details
+    v = rail_from_r_out(e.v_in, res.r_out, e.i_load_const, ratio=o.ratio, g_load=e.g_load)
     assert_allclose(v, res.v_rail.mean, rtol=1e-3)
 
 
@@ -153,10 +153,10 @@ def test_demo_pumps(demo, idx):
     assert res.v_rail.min < res.v_rail.mean < res.v_rail.max
     assert res.duty.min == 0.0 and res.duty.max == 1.0 and res.duty.hold_up is None
     assert res.startup.t_uvlo > 0 and res.startup.cycles_uvlo >= 1
-    assert res.extra["f_sw_max"] > demo.bridge.f_sw and res.extra["q_g_max"] > demo.gate.q_g
-    assert abs(res.extra["energy_residual"]) < 1e-9  # Tellegen: source power = dissipation + load
+    assert res.details.f_sw_max > demo.bridge.f_sw and res.details.q_g_max > demo.gate.q_g
+    assert abs(res.details.energy_residual) < 1e-9  # Tellegen: source power = dissipation + load
     assert {c.name for c in res.capacitors} == {"c_fly", "c_out"}
-    assert res.extra["v_block_switch"] == demo.bridge.v_bus + res.extra["v_in"]
+    assert res.details.v_block_switch == demo.bridge.v_bus + res.details.v_in
     assert res.to_dict()["r_out"] == res.r_out
 
 
@@ -166,7 +166,7 @@ def test_f_sw_max_is_where_the_rail_meets_the_requirement(demo):
     demo = replace_field(demo, "driver.t_on_min", 0.0)  # keep every HS pulse at high f_sw
     o = demo.options[1]
     res = evaluate_option(demo, o)
-    f_max = res.extra["f_sw_max"]
+    f_max = res.details.f_sw_max
     d2 = replace_field(demo, "bridge.f_sw", f_max * 0.9)
     d3 = replace_field(demo, "bridge.f_sw", min(f_max * 1.1, 4.9e6))
     from explorer.loads import required_rail
@@ -191,7 +191,7 @@ def test_efficiency_never_above_ideal(idx, f, c, r):
     if res.v_rail.mean <= 0:  # the rail collapses under the load: no efficiency is reported
         assert res.efficiency is None and not res.feasible
         return
-    ideal = res.v_rail.mean / (CIRCUITS[d.options[idx].ratio].m * res.extra["v_in"])
+    ideal = res.v_rail.mean / (CIRCUITS[d.options[idx].ratio].m * res.details.v_in)
     assert res.efficiency <= ideal * (1 + 1e-9)
 
 
@@ -208,8 +208,8 @@ def test_2to1_startup_overshoot_on_c_fly(demo):
     # 24·C_out/(C_fly + C_out) (series capacitors, circuit-theory textbooks), far above 12 V
     res = evaluate_option(demo, demo.options[3])
     cf = next(c for c in res.capacitors if c.name == "c_fly")
-    e = res.extra
-    bound = 24 * e["c_out_eff"] / (e["c_fly_eff"] + e["c_out_eff"])
+    e = res.details
+    bound = 24 * e.c_out_eff / (e.c_fly_eff + e.c_out_eff)
     assert 0.9 * bound < cf.v_max <= bound * 1.001
 
 

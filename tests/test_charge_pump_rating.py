@@ -57,7 +57,7 @@ def test_no_rating_no_check():
     d = replace_field(d, f"options[{i}].v_rating_sw", None)
     r = evaluate_option(d, d.option("pump 1:1"))
     assert check_named(r, "switch_v_block") == []
-    assert r.extra["v_block_switch"] == pytest.approx(60.0, rel=1e-12)
+    assert r.details.v_block_switch == pytest.approx(60.0, rel=1e-12)
 
 
 def _pair(design, label):

@@ -47,12 +47,12 @@ def test_slow_output_tiny_esr_conserves_charge_and_energy():
     d = load_design(SLOW_OUTPUT)
     o = d.options[0]
     r = evaluate_option(d, o)
-    x = r.extra
+    x = r.details
     p_in = r.p_drawn_aux - r.losses["bottom_plate"] - r.losses["pump_gate_drive"]
-    assert abs(x["energy_residual"]) <= 1e-9 * abs(p_in)
-    i_in, m_i_out = balance("1:1", c_fly=x["c_fly_eff"], r_on=o.r_on, esr_fly=o.c_fly.esr, c_out=x["c_out_eff"],
-                            esr_out=o.c_out.esr, r_load=1.0 / x["g_load"], f_cp=o.f_cp, dead=0.0,
-                            v_in=x["v_in"], i_load=x["i_load_const"])
+    assert abs(x.energy_residual) <= 1e-9 * abs(p_in)
+    i_in, m_i_out = balance("1:1", c_fly=x.c_fly_eff, r_on=o.r_on, esr_fly=o.c_fly.esr, c_out=x.c_out_eff,
+                            esr_out=o.c_out.esr, r_load=1.0 / x.g_load, f_cp=o.f_cp, dead=0.0,
+                            v_in=x.v_in, i_load=x.i_load_const)
     assert_allclose(i_in, m_i_out, rtol=1e-9)
 
 

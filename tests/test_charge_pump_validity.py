@@ -128,7 +128,7 @@ def test_loop_faster_than_the_switch_transitions_is_flagged():
     tau = _loop_tau(base)
     r = _quiet(base)  # no dead time given: ideal switches, nothing to compare with
     # the engine's fastest mode is that loop (the averaged R_GS resistor of 400 kΩ moves it by ~1e-8)
-    assert r.extra["tau_loop"] == pytest.approx(tau, rel=1e-6)
+    assert r.details.tau_loop == pytest.approx(tau, rel=1e-6)
     t_in = 0.99 * tau / TAU_TRANSITION_RATIO   # 0.1·t_d just below τ
     t_out = 1.01 * tau / TAU_TRANSITION_RATIO
     r = _quiet(_pump(r_on=0.01, dead_time_cp=t_in))
@@ -147,9 +147,9 @@ def test_too_few_pump_cycles_per_turn_on_are_flagged():
     assert period_schedule(demo_design()).hs_turn_on.sum() == 1
     f_in, f_out = 1.01 * PULSE_CYCLES_MIN * f_sw, 0.99 * PULSE_CYCLES_MIN * f_sw
     r = _quiet(_pump(f_cp=f_in))
-    assert r.extra["pump_cycles_per_turn_on"] == pytest.approx(f_in / f_sw, rel=1e-12)
+    assert r.details.pump_cycles_per_turn_on == pytest.approx(f_in / f_sw, rel=1e-12)
     r = _flagged(_pump(f_cp=f_out), PULSE)
-    assert r.extra["pump_cycles_per_turn_on"] == pytest.approx(f_out / f_sw, rel=1e-12)
+    assert r.details.pump_cycles_per_turn_on == pytest.approx(f_out / f_sw, rel=1e-12)
     _shown_once(_pump(f_cp=f_out), PULSE)
 
 
@@ -164,7 +164,7 @@ def _sag_share(r_gs):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ModelValidityWarning)
         r = evaluate_option(_slow_buck(r_gs), _slow_buck(r_gs).options[PUMP])
-    return r.extra["pull_down_sag"] / (r.v_rail.max - r.v_rail.min)
+    return r.details.pull_down_sag / (r.v_rail.max - r.v_rail.min)
 
 
 def test_averaged_pull_down_over_long_on_times_is_flagged():
@@ -277,7 +277,7 @@ def test_pulse_rate_limit_against_ngspice(ngspice):
     for frac in (0.0, 0.1, 0.2, 0.3, 0.4, 0.475):  # turn-ons come every 2.5 T: phases repeat every T/2
         low, r = _ngspice_rail_min(d, frac * T)
         lows.append(low)
-    q_c = r.extra["q_pulse"] / r.extra["c_out_eff"]
+    q_c = r.details.q_pulse / r.details.c_out_eff
     assert min(lows) >= r.v_rail.min - 0.1 * q_c
 
     d = _pulse_scenario(100e3)
@@ -285,5 +285,5 @@ def test_pulse_rate_limit_against_ngspice(ngspice):
         evaluate_option(d, d.options[PUMP])
     T = 1.0 / d.options[PUMP].f_cp
     low, r = _ngspice_rail_min(d, 0.5 * T - 30e-9)
-    q_c = r.extra["q_pulse"] / r.extra["c_out_eff"]
+    q_c = r.details.q_pulse / r.details.c_out_eff
     assert low < r.v_rail.min - 0.25 * q_c

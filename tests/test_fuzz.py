@@ -379,7 +379,7 @@ def test_bootstrap_never_refreshed_rail_raises_no_numpy_warning():
         warnings.simplefilter("ignore", ExplorerWarning)
         r = explorer.evaluate(d).options[0]
     i_q, g = d["driver"]["i_q"], 1.0 / d["gate"]["r_gs"]
-    assert r.extra["v_min_model"] == pytest.approx(-i_q / g, rel=1e-12)
+    assert r.details.v_min_model == pytest.approx(-i_q / g, rel=1e-12)
     assert r.efficiency is None
 
 

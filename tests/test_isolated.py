@@ -315,9 +315,9 @@ def test_common_mode_figures_through_the_model(demo):
     d = replace_field(d, "bridge.v_undershoot", 0.0)
     d = _set(d, c_iso=10e-12, cmti=200e9)
     r = _run(d)
-    assert_allclose(r.extra["dv_dt"], 50e9, rtol=1e-12)
-    assert_allclose(r.extra["i_cm_peak"], 0.5, rtol=1e-12)
-    assert_allclose(r.extra["q_cm_edge"], 4e-9, rtol=1e-12)
+    assert_allclose(r.details.dv_dt, 50e9, rtol=1e-12)
+    assert_allclose(r.details.i_cm_peak, 0.5, rtol=1e-12)
+    assert_allclose(r.details.q_cm_edge, 4e-9, rtol=1e-12)
     assert_allclose(r.p_drawn_bus, 0.16, rtol=1e-12)
     assert_allclose(r.losses["common_mode"], 0.16, rtol=1e-12)
 
@@ -492,7 +492,7 @@ def test_unregulated_module_pre_pwm_rail_is_the_source_behind_r_out():
     d = _set(DEMO, v_in_rated=10.0, r_out=2.0)
     r = _run(d)
     v_src = d.options[_idx(d)].v_out * 12.0 / 10.0
-    assert r.extra["v_pre_pwm"] == pytest.approx(v_src - 2.0 * d.driver.i_q, rel=1e-12)
+    assert r.details.v_pre_pwm == pytest.approx(v_src - 2.0 * d.driver.i_q, rel=1e-12)
 
 
 def test_unregulated_module_spread_follows_the_aux_tolerance():

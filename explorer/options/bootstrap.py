@@ -59,6 +59,7 @@ from ..loads import charge_per_turn_on, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, hs_duty_per_period, is_standstill, nominal_duty,
                         period_schedule, periods_per_fundamental, startup_schedule)
+from .details import BootstrapDetails
 from .base import SupplyModel
 
 __all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_state", "startup",
@@ -1041,9 +1042,10 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     OptionResult
         Steady state over the analysis period, start-up from 0 V, duty limits,
         capacitor and diode stress, power split and checks with margins.
-        ``extra`` holds the figures without a slot of their own (nominal
-        steady-state maximum, duty at which the rail reaches UVLO-off, the
-        first-pulse inrush, start-up segments, Newton passes).
+        ``details`` (:class:`~explorer.options.details.BootstrapDetails`) holds
+        the figures without a slot of their own (nominal steady-state maximum,
+        duty at which the rail reaches UVLO-off, the first-pulse inrush,
+        start-up segments, Newton passes).
     """
     circ = bootstrap_circuit(design, option, corner)
     b, drv, aux, chk = design.bridge, design.driver, design.aux, design.checks
@@ -1214,7 +1216,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
                         warnings=tuple(warn), v_rail=rail if refreshed else None, efficiency=eff,
                         p_delivered=p_del, p_drawn=None if p_aux is None else p_aux + p_bus,
                         startup=start, duty=duty, r_out=None, capacitors=caps, p_drawn_aux=p_aux,
-                        p_drawn_bus=p_bus, losses=losses, checks=tuple(checks), extra=extra, t=t_wave, v=v_wave)
+                        p_drawn_bus=p_bus, losses=losses, checks=tuple(checks), details=BootstrapDetails(**extra), t=t_wave, v=v_wave)
 
 
 def _ls_pulse_min(design, circ, need):

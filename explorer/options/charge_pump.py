@@ -79,6 +79,7 @@ from ..loads import charge_per_turn_on, load_power, required_rail
 from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
 from ..schedule import period_schedule
 from ..scnet import MAX_STARTUP_CYCLES, Cap, ISrc, Network, Res, StartupTransient, VSrc, periodic_steady_state
+from .details import ChargePumpDetails
 from .base import SupplyModel
 
 __all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
@@ -474,7 +475,7 @@ def pump_validity(design: Design, option: ChargePumpOption, *, tau_loop: float, 
     and the PWM. The rail extremes take the worst relative phase (module notes), a bound for a
     fixed phase (synchronised or harmonically related clocks) as for a drifting one; the
     domain-crossing loss is the average over a drifting phase, with its worst case (a fixed phase
-    at the worst point) in ``extra["domain_crossing_worst"]``. Edges longer than an interval of the
+    at the worst point) in ``details.domain_crossing_worst``. Edges longer than an interval of the
     schedule are flagged for every model by :func:`explorer.schedule.schedule_validity`.
 
     Parameters
@@ -709,7 +710,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         Rail statistics (worst-case relative phase of the PWM and the pump
         clock, see the module notes), efficiency and losses, R_out (exact,
         from the engine), start-up by pump cycles, duty limits 0–100 % with the
-        highest f_sw and Q_G in ``extra`` and ``duty.topology``, capacitor
+        highest f_sw and Q_G in ``details`` and ``duty.topology``, capacitor
         stress and checks.
     """
     if not isinstance(option, ChargePumpOption):
@@ -753,7 +754,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     # Input power by conservation of energy over the periodic orbit (Tellegen: source power = load +
     # dissipation), a sum of positive terms. The direct V_in·mean(i_in) equals it in exact arithmetic
     # but is a small difference of phase integrals when the load is tiny (it came out 1.6e-6 below the
-    # delivered power for a 0.1 µA load); it is kept in ``extra`` with the residual between the two.
+    # delivered power for a 0.1 µA load); it is kept in ``details`` with the residual between the two.
     p_in_direct = v_in * i_in
     p_in = p_load_engine + p_sw + p_esr
     v_b_phase = ends[6]
@@ -863,7 +864,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         "v_block_switch": v_block,
         "domain_crossing_worst": p_cross_worst, "sw_high_fraction": d_high,
         "f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
-        "switch_i_rms": [float(v) for v in i_sw_rms], "switch_i_peak": [float(v) for v in i_peak_ss[:4]],
+        "switch_i_rms": tuple(float(v) for v in i_sw_rms), "switch_i_peak": tuple(float(v) for v in i_peak_ss[:4]),
         "startup_i_peak_switch": st["i_peak"],
         "tau_loop": tau_loop, "pump_cycles_per_turn_on": (pump.f_cp * t_a / n_on) if n_on else None,
         "pull_down_sag": pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=pump.c_out),
@@ -875,7 +876,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         v_rail=RailStats(min=v_min, max=v_max, mean=v_mean), efficiency=efficiency,
         p_delivered=p_delivered, p_drawn=p_drawn, startup=st["startup"], duty=duty, r_out=r_out,
         capacitors=tuple(caps), p_drawn_aux=p_drawn_aux, p_drawn_bus=p_cross, losses=losses,
-        checks=tuple(checks), extra=extra, t=t_w, v=v_out_w)
+        checks=tuple(checks), details=ChargePumpDetails(**extra), t=t_w, v=v_out_w)
 
 
 def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Network | None = None) -> dict:
@@ -1021,7 +1022,7 @@ class ChargePumpModel(SupplyModel):
 
     def netlist_settle_time(self, design, option, result, corner):
         from ..netlist import SETTLE_TAU
-        return SETTLE_TAU * float(result.r_out) * float(result.extra["c_out_eff"])
+        return SETTLE_TAU * float(result.r_out) * result.details.c_out_eff
 
     def netlist_lines(self, design, option, plan, corner):
         from ..netlist import pump_lines

@@ -65,6 +65,7 @@ from ..loads import charge_per_turn_on, load_charge, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup,
                        verdict_from)
 from ..schedule import Schedule, period_schedule
+from .details import IsolatedDetails
 from .base import SupplyModel
 
 __all__ = ["ISO_HEADROOM", "INSULATION_STATEMENT", "loss_coefficient", "module_input_power",
@@ -470,7 +471,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     -------
     OptionResult
         Rail statistics, efficiency and power split, start-up, duty limits,
-        capacitor stress, checks and warnings; ``extra`` holds the loss-model
+        capacitor stress, checks and warnings; ``details`` holds the loss-model
         coefficient, the optimum load, the module efficiency and the
         common-mode figures (``dv_dt`` [V/s], ``i_cm_peak`` [A],
         ``q_cm_edge`` [C], ``p_cm`` [W], ``v_barrier`` [V]).
@@ -615,7 +616,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None,
                         topology=_rating_limits(design, sched, option)),
         r_out=option.r_out, capacitors=(stress,), p_drawn_aux=p_in, p_drawn_bus=p_cm, losses=losses,
-        checks=tuple(checks), extra=extra, cautions=(INSULATION_STATEMENT,), t=t_wave, v=v_wave)
+        checks=tuple(checks), details=IsolatedDetails(**extra), cautions=(INSULATION_STATEMENT,), t=t_wave, v=v_wave)
 
 
 #: Samples per block in :func:`rail_min_batch`.
@@ -679,7 +680,7 @@ class IsolatedModel(SupplyModel):
 
     def netlist_settle_time(self, design, option, result, corner):
         from ..netlist import SETTLE_TAU
-        return SETTLE_TAU * float(result.extra["tau_out"])
+        return SETTLE_TAU * result.details.tau_out
 
     def netlist_lines(self, design, option, plan, corner):
         from ..netlist import isolated_lines
