@@ -14,7 +14,8 @@ from dataclasses import dataclass, field, fields
 import numpy as np
 
 __all__ = ["RailStats", "Startup", "DutyLimits", "CapacitorStress", "Check", "Details", "OptionResult",
-           "clean", "verdict_from", "FAMILIES", "family_of"]
+           "clean", "verdict_from", "FAMILIES", "family_of", "rail_min_check", "rail_max_v_bs_check",
+           "rail_max_v_gs_check", "startup_uvlo_check", "cap_voltage_check", "cap_check_name"]
 
 
 def clean(x):
@@ -167,6 +168,57 @@ class Details(_Dict):
     The built-in families' are in :mod:`explorer.options.details`; ``to_dict()`` gives the
     ``"details"`` object of the ``explorer-result`` JSON.
     """
+
+
+# --------------------------------------------------------------------------- checks every kind shares
+# One builder per shared check: the id, the limit (from the design) and the sense are fixed here; the
+# caller gives the figure and, where its model says more precisely what the figure is, the words.
+
+def rail_min_check(design, v_min: float, text: str | None = None) -> Check:
+    """``rail_min``: the steady-state rail minimum [V] ≥ max(uvlo_off, v_gs_on_min) + v_margin."""
+    from .loads import required_rail
+    need = required_rail(design)
+    return Check("rail_min", v_min, need, "min", "V", text or
+                 f"rail minimum stays at or above max(UVLO off, V_GS needed) + margin = {need:.4g} V")
+
+
+def rail_max_v_bs_check(design, v_max: float, text: str | None = None) -> Check:
+    """``rail_max_v_bs``: the highest rail [V] ≤ the driver's ``v_bs_max``."""
+    lim = design.driver.v_bs_max
+    return Check("rail_max_v_bs", v_max, lim, "max", "V",
+                 text or f"rail maximum stays at or below the driver's v_bs_max = {lim:.4g} V")
+
+
+def rail_max_v_gs_check(design, v_max: float, text: str | None = None) -> Check:
+    """``rail_max_v_gs``: the highest rail [V] ≤ the gate's ``v_gs_max``."""
+    lim = design.gate.v_gs_max
+    return Check("rail_max_v_gs", v_max, lim, "max", "V",
+                 text or f"rail maximum stays at or below the gate rating v_gs_max = {lim:.4g} V")
+
+
+def startup_uvlo_check(design, v_reached: float, text: str | None = None) -> Check:
+    """``startup_uvlo``: the rail reached during start-up [V] ≥ the driver's ``uvlo_on``."""
+    lim = design.driver.uvlo_on
+    return Check("startup_uvlo", v_reached, lim, "min", "V",
+                 text or f"the rail reaches the UVLO rising threshold {lim:.4g} V during start-up")
+
+
+def cap_check_name(name: str) -> str:
+    """Check id of a capacitor's voltage check: ``cap_voltage_<name in lower case>``."""
+    return f"cap_voltage_{name.lower()}"
+
+
+def cap_voltage_check(design, name: str, v_max: float, v_rating: float | None,
+                      text: str | None = None) -> Check | None:
+    """``cap_voltage_<name>``: the capacitor's highest voltage [V] ≤ ``checks.cap_derating`` × its rating.
+
+    None when the capacitor has no rating (nothing to check).
+    """
+    if v_rating is None:
+        return None
+    k = design.checks.cap_derating
+    return Check(cap_check_name(name), v_max, v_rating * k, "max", "V",
+                 text or f"{name} voltage stays within {k:g} \u00d7 its rating {v_rating:.4g} V")
 
 
 #: The comparison's families of figures and the check names (or name prefixes) that belong to each.

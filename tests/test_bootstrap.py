@@ -426,7 +426,7 @@ def test_power_balance_without_bus_terms():
 def test_checks_cover_the_issue_list(demo):
     r = evaluate_option(demo, demo.options[0])
     names = {c.name for c in r.checks}
-    assert {"rail_min", "rail_max_v_bs", "rail_max_v_gs", "cap_voltage_C_boot",
+    assert {"rail_min", "rail_max_v_bs", "rail_max_v_gs", "cap_voltage_c_boot",
             "diode_v_rrm", "startup_uvlo"} <= names
     assert r.to_dict()["kind"] == "bootstrap"
 

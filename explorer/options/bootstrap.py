@@ -56,7 +56,8 @@ from ..capacitors import capacitance, parse_dielectric
 from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, required_rail
-from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
+from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
+                       rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, hs_duty_per_period, is_standstill, nominal_duty,
                         period_schedule, periods_per_fundamental, startup_schedule)
 from .details import BootstrapDetails
@@ -1195,22 +1196,22 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     # ---- checks
     checks = []
     if refreshed:
-        checks.append(Check("rail_min", v_min, need, "min", "V",
-                            f"steady-state rail stays above max(UVLO-off, V_GS needed) + margin = {_fmt(need, 'V')}"))
+        checks.append(rail_min_check(design, v_min, f"steady-state rail stays above max(UVLO-off, V_GS needed) "
+                                                    f"+ margin = {_fmt(need, 'V')}"))
     else:
-        checks.append(Check("rail_min", 0.0, need, "min", "V", "the rail is refreshed in steady state"))
-    checks.append(Check("rail_max_v_bs", v_cap_max, drv.v_bs_max, "max", "V",
-                        "rail maximum (V_DD at its tolerance, SW undershoot) stays below the driver's V_BS(max)"))
-    checks.append(Check("rail_max_v_gs", v_cap_max, design.gate.v_gs_max, "max", "V",
-                        "rail maximum stays below the gate's V_GS(max)"))
-    if option.v_rating is not None:
-        checks.append(Check("cap_voltage_C_boot", v_cap_max, option.v_rating * chk.cap_derating, "max", "V",
-                            "bootstrap capacitor voltage within its derated rating"))
+        checks.append(rail_min_check(design, 0.0, "the rail is refreshed in steady state"))
+    checks.append(rail_max_v_bs_check(design, v_cap_max, "rail maximum (V_DD at its tolerance, SW undershoot) "
+                                                         "stays below the driver's V_BS(max)"))
+    checks.append(rail_max_v_gs_check(design, v_cap_max, "rail maximum stays below the gate's V_GS(max)"))
+    cap_check = cap_voltage_check(design, "C_boot", v_cap_max, option.v_rating,
+                                  "bootstrap capacitor voltage within its derated rating")
+    if cap_check is not None:
+        checks.append(cap_check)
     if option.v_rrm is not None:
         checks.append(Check("diode_v_rrm", v_rev, option.v_rrm * chk.diode_derating, "max", "V",
                             "diode V_RRM covers V_bus + V_DD after derating"))
-    checks.append(Check("startup_uvlo", float(np.max(su.v_end, initial=0.0)), drv.uvlo_on, "min", "V",
-                        "the rail reaches UVLO-on during start-up"))
+    checks.append(startup_uvlo_check(design, float(np.max(su.v_end, initial=0.0)),
+                                     "the rail reaches UVLO-on during start-up"))
     feasible, verdict = verdict_from(checks, warn)
     return OptionResult(label=option.label, kind=option.kind, feasible=feasible, verdict=verdict,
                         warnings=tuple(warn), v_rail=rail if refreshed else None, efficiency=eff,

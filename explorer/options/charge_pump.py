@@ -76,7 +76,8 @@ from ..capacitors import capacitance, parse_dielectric
 from ..design import ChargePumpOption, Design
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, load_power, required_rail
-from ..results import CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, verdict_from
+from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
+                       rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import period_schedule
 from ..scnet import MAX_STARTUP_CYCLES, Cap, ISrc, Network, Res, StartupTransient, VSrc, periodic_steady_state
 from .details import ChargePumpDetails
@@ -797,10 +798,9 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
             i_pk = max(i_pk, q_pulse / t_e)
         caps.append(CapacitorStress(name=name, c_eff=c_eff, v_max=v_hi, v_rating=cap.v_rating,
                                     ripple=ripple, i_rms=i_rms, i_peak=i_pk))
-        if cap.v_rating is not None:
-            lim = cap.v_rating * design.checks.cap_derating
-            checks.append(Check(f"cap_voltage_{name}", v_hi, lim, "max", "V",
-                                f"{name} voltage stays within its derated rating"))
+        cap_check = cap_voltage_check(design, name, v_hi, cap.v_rating, f"{name} voltage stays within its derated rating")
+        if cap_check is not None:
+            checks.append(cap_check)
 
     # --- the domain-crossing switches block V_bus + V_in (the module notes)
     v_block = v_bus + v_in
@@ -823,15 +823,11 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
                       topology={"f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
                                 "note": "a pump needs no refresh: any HS duty 0..100 % while the load holds"})
 
-    checks.insert(0, Check("rail_min", v_min, req, "min", "V",
-                           "rail minimum stays above max(UVLO off, V_GS needed) + margin"))
-    checks.append(Check("rail_max_v_bs", v_max, design.driver.v_bs_max, "max", "V",
-                         "rail stays below the driver's V_BS absolute maximum"))
-    checks.append(Check("rail_max_v_gs", v_max, design.gate.v_gs_max, "max", "V",
-                        "rail stays below the gate's V_GS rating"))
-    checks.append(Check("startup_uvlo", st["v_final"], design.driver.uvlo_on, "min", "V",
-                        "the pump alone brings the rail up to the UVLO rising threshold (highest rail "
-                        "during start-up)"))
+    checks.insert(0, rail_min_check(design, v_min, "rail minimum stays above max(UVLO off, V_GS needed) + margin"))
+    checks.append(rail_max_v_bs_check(design, v_max, "rail stays below the driver's V_BS absolute maximum"))
+    checks.append(rail_max_v_gs_check(design, v_max, "rail stays below the gate's V_GS rating"))
+    checks.append(startup_uvlo_check(design, st["v_final"], "the pump alone brings the rail up to the UVLO rising "
+                                     "threshold (highest rail during start-up)"))
     if collapsed:
         warn.append("the pump cannot carry the gate-drive load: its mean rail would fall below 0 V "
                         "(the driver would stay in UVLO); efficiency is not defined")

@@ -61,9 +61,9 @@ from ..affine import affine_scan
 from ..capacitors import capacitance, parse_dielectric
 from ..design import Design, IsolatedOption
 from ..errors import DesignError, ModelValidityWarning
-from ..loads import charge_per_turn_on, load_charge, load_power, required_rail
-from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup,
-                       verdict_from)
+from ..loads import charge_per_turn_on, load_charge, load_power
+from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
+                       rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import Schedule, period_schedule
 from .details import IsolatedDetails
 from .base import SupplyModel
@@ -574,17 +574,12 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
                     f"peak {v_barrier:.4g} V across the barrier (bus plus rail); edge overshoot is not modelled")
 
     # ---- checks -------------------------------------------------------------------------------
-    need = required_rail(design)
     checks = [
-        Check("rail_min", rail.min, need, "min", "V",
-              f"rail minimum stays at or above max(UVLO off, V_GS needed) + margin = {need:.4g} V"),
-        Check("startup_uvlo", v_pre, drv.uvlo_on, "min", "V",
-              f"the module's output before the PWM starts reaches the UVLO rising threshold "
-              f"{drv.uvlo_on:.4g} V (else the driver never releases its pulses)"),
-        Check("rail_max_v_gs", v_max, gate.v_gs_max, "max", "V",
-              f"rail maximum stays at or below the gate rating v_gs_max = {gate.v_gs_max:.4g} V"),
-        Check("rail_max_v_bs", v_max, drv.v_bs_max, "max", "V",
-              f"rail maximum stays at or below the driver's v_bs_max = {drv.v_bs_max:.4g} V"),
+        rail_min_check(design, rail.min),
+        startup_uvlo_check(design, v_pre, f"the module's output before the PWM starts reaches the UVLO rising "
+                                          f"threshold {drv.uvlo_on:.4g} V (else the driver never releases its pulses)"),
+        rail_max_v_gs_check(design, v_max),
+        rail_max_v_bs_check(design, v_max),
         Check("load_rating", p_load, option.p_rated, "max", "W",
               f"gate load stays within the module's rating p_rated = {option.p_rated:.4g} W (overload otherwise)"),
         Check("cmti", option.cmti, float(cm.cmti_required(dv_dt, chk.cmti_margin)), "min", "V/s",
@@ -592,10 +587,9 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         Check("v_iso", option.v_iso, v_barrier, "min", "V",
               f"isolation working voltage covers the peak {v_barrier:.4g} V across the barrier"),
     ]
-    if cap.v_rating is not None:
-        checks.append(Check("cap_voltage_c_out", v_max, cap.v_rating * chk.cap_derating, "max", "V",
-                            f"c_out voltage stays within {chk.cap_derating:g} \u00d7 its rating "
-                            f"{cap.v_rating:.4g} V"))
+    cap_check = cap_voltage_check(design, "c_out", v_max, cap.v_rating)
+    if cap_check is not None:
+        checks.append(cap_check)
     else:
         warn.append("c_out has no voltage rating; its voltage stress is not checked")
     feasible, verdict = verdict_from(checks, warn)
