@@ -1,4 +1,4 @@
-"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH] | envelope FILE [--samples N] [--seed S] [--json] [--strict] | check DESIGN RULES [--json] | size FILE [--label L] [--series E12] [--headroom 2] [--i-max 2A] [--json]``.
+"""Command line: ``python -m explorer demo | evaluate FILE [--json] [--rank RULE] | netlist FILE --label L [--out PATH] | envelope FILE [--samples N] [--seed S] [--json] [--strict] | check DESIGN RULES [--json] | size FILE [--label L] [--series E12] [--headroom 2] [--i-max 2A] [--json] | report DESIGN [--rules R] [--notebook NB] --out HTML``.
 
 Exit codes: 0 success, 1 a design rule is broken (``check``), a margin is lost
 (``envelope --strict``) or ``size`` found nothing that works, 2 bad input (one line ``error: <field path>: <problem>``
@@ -62,6 +62,12 @@ def _parser() -> argparse.ArgumentParser:
                    help="factor over each bare minimum (default 2, common practice)")
     z.add_argument("--i-max", help="inrush limit of a bootstrap's first pulse, e.g. 2A (sizes R_boot)")
     z.add_argument("--json", action="store_true", help="print the sized values as JSON")
+    r = sub.add_parser("report", help="write a self-contained HTML hand-off report (opens offline)")
+    r.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
+    r.add_argument("--rules", help="rule file (explorer-rules JSON) whose status the report shows")
+    r.add_argument("--notebook", help="filled notebook (.ipynb) whose cells and outputs the report includes")
+    r.add_argument("--no-plots", action="store_true", help="leave the plots out (no Bokeh needed)")
+    r.add_argument("--out", required=True, help="HTML file to write")
     return p
 
 
@@ -103,6 +109,8 @@ def main(argv=None) -> int:
                 return _check(args, load_design(src), caught)
             if args.command == "size":
                 return _size(args, load_design(src), caught)
+            if args.command == "report":
+                return _report(args, load_design(src), caught)
             result = evaluate(load_design(src), rank=args.rank)
             if args.json:
                 sys.stdout.write(result.to_json(indent=2) + "\n")
@@ -199,6 +207,23 @@ def _size(args, design, caught) -> int:
     for w in caught:
         sys.stderr.write(f"warning: {w.message}\n")
     return 0 if all(r.ok for r in recs) else 1
+
+
+def _report(args, design, caught) -> int:
+    """``report``: write the HTML hand-off report; one summary line on standard error."""
+    from .views.report import read_report, write_report
+
+    text = write_report(design, args.out, rules=args.rules, notebook=args.notebook, plots=not args.no_plots)
+    blocks = read_report(text)
+    status = ""
+    if "rules-report" in blocks:
+        rep = blocks["rules-report"]
+        broken = sum(not o["ok"] for o in rep["outcomes"])
+        status = f"; design rules: {'all hold' if not broken else f'{broken} broken'}"
+    for w in caught:
+        sys.stderr.write(f"warning: {w.message}\n")
+    sys.stderr.write(f"wrote {args.out} ({len(text.encode('utf-8'))} bytes){status}\n")
+    return 0
 
 
 if __name__ == "__main__":

@@ -30,7 +30,6 @@ numbers shown in the examples are illustrations, not recommendations.
 from __future__ import annotations
 
 import dataclasses
-import html
 import json
 import os
 from dataclasses import dataclass, field
@@ -424,24 +423,20 @@ class RulesReport:
                 "outcomes": [o.to_dict() for o in self.outcomes]}
 
     def to_text(self) -> str:
-        n, b = len(self.outcomes), len(self.broken)
-        head = (f"{self.title}: all {n} design rules hold" if not b else
-                f"{self.title}: {b} of {n} design rules BROKEN")
-        return "\n".join([head] + [f"  {o.message}" for o in self.outcomes])
+        from .views.rules import rules_text
+        return rules_text(self)
 
     def __str__(self) -> str:
         return self.to_text()
 
+    def __repr__(self) -> str:
+        state = "all hold" if self.ok else f"{len(self.broken)} broken"
+        return f"<RulesReport {self.title!r}: {len(self.outcomes)} rule outcomes, {state}>"
+
     def _repr_html_(self) -> str:
         """A plain HTML table (no JavaScript)."""
-        e = html.escape
-        rows = "".join(
-            f"<tr><td style='color:{'#1b5e20' if o.ok else '#b71c1c'}'>{'holds' if o.ok else 'BROKEN'}</td>"
-            f"<td>{e(o.rule.title())}</td><td>{e(o.option)}</td><td style='text-align:left'>{e(o.check.text)}</td></tr>"
-            for o in self.outcomes)
-        head = "all design rules hold" if self.ok else f"{len(self.broken)} of {len(self.outcomes)} design rules broken"
-        return (f"<div class='explorer-rules'><b>{e(head)}</b><table><thead><tr><th>status</th><th>rule</th>"
-                f"<th>option</th><th>figures</th></tr></thead><tbody>{rows}</tbody></table></div>")
+        from .views.rules import rules_html
+        return rules_html(self)
 
 
 def check_rules(design, rules, *, comparison: Comparison | None = None) -> RulesReport:

@@ -8,7 +8,8 @@ module that needs Bokeh is imported by its own name (``explorer.views.plots``), 
 """
 
 from .envelope import envelope_text
+from .rules import rules_html, rules_text
 from .table import CAUTION, comparison_html, comparison_rows, comparison_text, topology_text
 
 __all__ = ["CAUTION", "comparison_html", "comparison_rows", "comparison_text", "envelope_text",
-           "topology_text"]
+           "rules_html", "rules_text", "topology_text"]
