@@ -1,84 +1,101 @@
-"""Write and execute the demo notebooks, so that they are stored with their outputs.
+"""Rebuild every notebook under notebooks/ from its source, execute it and store its outputs.
 
-Run after any change that moves a figure (nbval in `make test` fails until you do):
+Run after any change that moves a figure or a printed text (nbval in `make test` fails until you do):
 
-    .venv/bin/python notebooks/build_notebooks.py
+    .venv/bin/python notebooks/build_notebooks.py            # all of them
+    .venv/bin/python notebooks/build_notebooks.py lv_buck_5v_aux template   # some of them
 
-The notebooks use only the public API. Their outputs are what a colleague reads and what nbval
-re-checks in CI.
+Each notebook's source is ``notebooks/src/<name>.py`` in the "percent" cell format: a line
+``# %%`` starts a code cell, ``# %% [markdown]`` a Markdown cell whose lines start with ``# ``.
+The notebooks use only the public API. Their stored outputs are what a colleague reads and what
+nbval re-checks in CI, so the build is deterministic: cell ids are numbered, execution timings are
+not recorded, and the ids a run draws at random (widget model ids, UUIDs of Bokeh documents) are
+renumbered in order of appearance. A notebook over :data:`MAX_BYTES` is an error.
 """
 
 from __future__ import annotations
 
+import json
 import pathlib
+import re
 import sys
 
 import nbformat
 from nbconvert.preprocessors import ExecutePreprocessor
 
 HERE = pathlib.Path(__file__).parent
+SOURCES = HERE / "src"
+#: Largest stored notebook [bytes] (tests/test_notebooks.py checks it too).
+MAX_BYTES = 1_000_000
+#: Longest time one cell may run [s].
+CELL_TIMEOUT = 600
 
-CAUTION_MD = (
-    "> **Caution.** Bus voltages in these circuits can be lethal and stored charge persists after "
-    "power-off. These results are estimates to be confirmed by measurement. Isolation ratings, creepage "
-    "and clearance follow the applicable safety standards (for example IEC 62368-1, IEC 61800-5-1, "
-    "IEC 60664-1), local codes and licensed practice.")
 
-DEMO = [
-    ("md", "# Floating supplies for the high-side driver: the demo design\n\n"
-           "This notebook compares every floating-supply option of explorer's built-in demo design, "
-           "a 48 V to 12 V synchronous buck at 200 kHz. **The design is a scenario of our own invention**, "
-           "not a product or a reference design; its part values are plausible round numbers.\n\n" + CAUTION_MD),
-    ("code", "import numpy as np\nimport explorer\nfrom explorer import format_eng\n\n"
-             "design = explorer.demo_design()\nprint(design.title)\nprint([o.label for o in design.options])"),
-    ("md", "## Side by side\n\nOne call evaluates every option: steady-state rail, efficiency, start-up, "
-           "duty-cycle limits and capacitor stress, each checked with a margin. The table is plain HTML, "
-           "so it shows even in an untrusted notebook."),
-    ("code", "result = explorer.evaluate(design)\nresult"),
-    ("code", "for r in result.options:\n"
-             "    print(f\"{r.label:20s} {'holds' if r.feasible else 'FAILS':6s} rail min {format_eng(r.v_rail.min, 'V'):>8s}  \"\n"
-             "          f\"efficiency {100 * r.efficiency:5.1f} %  overhead {format_eng(r.overhead, 'W'):>8s}\")"),
-    ("md", "## The whole envelope: worst corner and Monte Carlo\n\n"
-           "Spreads come from each capacitor's tolerance and EIA-198 temperature class, the aux-rail "
-           "tolerance and the design's `spread` section. Here we add a ±10 % gate-charge spread and a "
-           "±10 % diode forward-voltage spread to the demo (invented values)."),
-    ("code", "from explorer.tolerance import monte_carlo, worst_case\n\n"
-             "d = explorer.load_design(design.to_dict() | {\"spread\": {\"q_g\": 0.1, \"v_f\": 0.1}})\n"
-             "for o in d.options:\n"
-             "    w = worst_case(d, o.label)\n"
-             "    print(f\"{o.label:20s} worst rail min {format_eng(w.rail_min, 'V'):>8s} (margin {w.margin:+.2f} V) at {w.corner}\")"),
-    ("code", "mc = monte_carlo(d, \"bootstrap 220n\", 10_000, seed=1)\n"
-             "print(f\"P(rail < UVLO off) = {mc.p_trip:.4f}, 95 % interval {mc.ci[0]:.4f} .. {mc.ci[1]:.5f}\")\n"
-             "print(f\"lowest sampled rail minimum {format_eng(mc.rail_min.min(), 'V')}\")"),
-    ("md", "## Where does the bootstrap stop holding?\n\n"
-           "The margin map is the rail minimum minus UVLO-off over switching frequency and high-side duty."),
-    ("code", "from explorer.sweep import margin_map\n\n"
-             "f = np.array([50e3, 100e3, 200e3, 500e3, 1e6])\nu = np.array([0.5, 0.8, 0.9, 0.95, 0.98])\n"
-             "m = margin_map(design, \"bootstrap 220n\", f, u)\n"
-             "print('f_sw \\\\ duty ' + ''.join(f'{x:>8.2f}' for x in u))\n"
-             "for fi, row in zip(f, m.margin):\n"
-             "    print(f\"{format_eng(fi, 'Hz'):>11s} \" + ''.join(f'{x:8.2f}' for x in row))"),
-    ("md", "## Sizing\n\nThe smallest E12 bootstrap capacitor that still holds the margin at the worst corner "
-           "if the buck must run at 92 % duty:"),
-    ("code", "from explorer.sizing import size_capacitor\n\n"
-             "high = explorer.replace_field(d, \"bridge.v_out\", 0.92 * 48)\n"
-             "s = size_capacitor(high, \"bootstrap 220n\", series=\"E12\")\n"
-             "print(s.note)\n"
-             "print(f\"next lower value {format_eng(s.below, 'F')} leaves {s.margin_below:+.2f} V at the worst corner\")"),
+def parse_source(text: str) -> list[tuple[str, str]]:
+    """Cells ``(kind, source)`` of a percent-format file; ``kind`` is ``"md"`` or ``"code"``."""
+    cells: list[tuple[str, list[str]]] = []
+    for line in text.splitlines():
+        if line.startswith("# %%"):
+            cells.append(("md" if "[markdown]" in line else "code", []))
+        elif cells:
+            kind, lines = cells[-1]
+            if kind == "md":
+                if line and not line.startswith("#"):
+                    raise ValueError(f"Markdown line without '# ': {line!r}")
+                line = line[2:] if line.startswith("# ") else line[1:]
+            lines.append(line)
+        elif line.strip():
+            raise ValueError(f"text before the first '# %%' cell marker: {line!r}")
+    return [(kind, "\n".join(lines).strip("\n")) for kind, lines in cells]
+
+
+#: Ids drawn at random per run, renumbered so that a rebuild gives the same bytes.
+_VOLATILE = [
+    (re.compile(r"[0-9a-f]{8}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{4}-[0-9a-f]{12}"),
+     lambda i: f"00000000-0000-4000-8000-{i:012x}"),
+    (re.compile(r"(?<![0-9a-fA-F])[0-9a-f]{32}(?![0-9a-fA-F])"), lambda i: f"{i:032x}"),
 ]
 
 
-def build(cells, path: pathlib.Path) -> None:
+def renumber_ids(text: str) -> str:
+    """Replace each random id by a counter in order of first appearance (same id, same number)."""
+    for pattern, make in _VOLATILE:
+        seen: dict[str, str] = {}
+        text = pattern.sub(lambda m: seen.setdefault(m.group(0), make(len(seen) + 1)), text)
+    return text
+
+
+def build(name: str) -> pathlib.Path:
+    """Execute ``src/<name>.py`` and write ``<name>.ipynb`` with its outputs."""
+    cells = parse_source((SOURCES / f"{name}.py").read_text(encoding="utf-8"))
     nb = nbformat.v4.new_notebook()
     nb.metadata["kernelspec"] = {"name": "python3", "display_name": "Python 3", "language": "python"}
     for kind, src in cells:
         nb.cells.append(nbformat.v4.new_markdown_cell(src) if kind == "md" else nbformat.v4.new_code_cell(src))
-    ExecutePreprocessor(timeout=600, kernel_name="python3").preprocess(nb, {"metadata": {"path": str(HERE)}})
+    ExecutePreprocessor(timeout=CELL_TIMEOUT, kernel_name="python3", record_timing=False).preprocess(
+        nb, {"metadata": {"path": str(HERE)}})
     for i, c in enumerate(nb.cells):  # stable ids keep diffs small
         c["id"] = f"cell-{i:02d}"
-    nbformat.write(nb, path)
-    print(f"wrote {path}", file=sys.stderr)
+    nbformat.validate(nb)
+    text = renumber_ids(json.dumps(nb, indent=1, sort_keys=True, ensure_ascii=False) + "\n")
+    path = HERE / f"{name}.ipynb"
+    size = len(text.encode("utf-8"))
+    if size > MAX_BYTES:
+        raise SystemExit(f"{path.name} is {size} bytes, over the {MAX_BYTES}-byte limit: trim its outputs")
+    path.write_text(text, encoding="utf-8")
+    print(f"wrote {path} ({size} bytes)", file=sys.stderr)
+    return path
+
+
+def names() -> list[str]:
+    """Every notebook this script builds (one per source file)."""
+    return sorted(p.stem for p in SOURCES.glob("*.py"))
 
 
 if __name__ == "__main__":
-    build(DEMO, HERE / "demo.ipynb")
+    wanted = sys.argv[1:] or names()
+    unknown = sorted(set(wanted) - set(names()))
+    if unknown:
+        raise SystemExit(f"no source for {', '.join(unknown)}; notebooks: {', '.join(names())}")
+    for n in wanted:
+        build(n)
