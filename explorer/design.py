@@ -29,7 +29,7 @@ __all__ = [
     "FORMAT", "VERSION", "MAX_FILE_BYTES", "TOPOLOGIES", "Spec", "Capacitor", "LinearDiode",
     "JunctionDiode", "Bridge", "Gate", "Driver", "Aux", "Checks", "Spread", "BootstrapOption",
     "ChargePumpOption", "IsolatedOption", "Design", "load_design", "save_design", "design_to_dict",
-    "replace_field", "replace_fields", "specs", "spec_at", "check_value", "spec_field",
+    "replace_field", "replace_fields", "specs", "read_bounded", "spec_at", "check_value", "spec_field",
 ]
 
 FORMAT = "explorer-design"
@@ -660,6 +660,18 @@ def load_design(source: Union[str, os.PathLike, dict, Design]) -> Design:
     except RecursionError:
         raise DesignError("", f"nested deeper than {MAX_DEPTH} levels; not a design file") from None
     return _design_from_dict(data)
+
+
+def read_bounded(source, *, limit: int, field: str, what: str) -> str:
+    """The text of a UTF-8 file no larger than ``limit`` bytes; a DesignError on ``field`` otherwise."""
+    try:
+        size = os.path.getsize(source)
+        if size > limit:
+            raise DesignError(field, f"{what} is {size} bytes; the limit is {limit}", str(source))
+        with open(source, encoding="utf-8") as fh:
+            return fh.read()
+    except (OSError, UnicodeDecodeError) as e:
+        raise DesignError(field, f"cannot read {what}: {getattr(e, 'strerror', None) or e}", str(source)) from None
 
 
 def _unique_keys(pairs: list) -> dict:

@@ -36,7 +36,7 @@ from dataclasses import dataclass, field
 from typing import Any, Sequence, Union
 
 from .compare import Comparison, evaluate
-from .design import FRACTION, NONNEG, POS, Design, _build_tagged, _f, load_design
+from .design import FRACTION, NONNEG, POS, Design, _build_tagged, _f, load_design, read_bounded
 from .errors import DesignError, RuleViolation
 from .results import Check, clean
 from .schedule import nominal_duty
@@ -543,14 +543,7 @@ def load_rules(source) -> tuple:
     if isinstance(source, str) and source.lstrip().startswith("{"):
         text = source
     else:
-        try:
-            if os.path.getsize(source) > MAX_RULES_BYTES:
-                raise DesignError("", f"rule file is larger than {MAX_RULES_BYTES} bytes", str(source))
-            with open(source, encoding="utf-8") as fh:
-                text = fh.read()
-        except (OSError, UnicodeDecodeError) as e:
-            raise DesignError("", f"cannot read rule file: {getattr(e, 'strerror', None) or e}",
-                              str(source)) from None
+        text = read_bounded(source, limit=MAX_RULES_BYTES, field="", what="rule file")
     try:
         data = json.loads(text, parse_constant=_reject_constant)
     except json.JSONDecodeError as e:

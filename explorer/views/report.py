@@ -21,7 +21,7 @@ import os
 import re
 
 from ..compare import Comparison, evaluate
-from ..design import design_to_dict, load_design
+from ..design import design_to_dict, load_design, read_bounded
 from ..errors import DesignError
 from .table import CAUTION, comparison_html
 
@@ -152,14 +152,9 @@ def _notebook(source) -> str:
     if isinstance(source, dict):
         nb = source
     else:
+        text = read_bounded(source, limit=MAX_NOTEBOOK_BYTES, field="notebook", what="the notebook")
         try:
-            if os.path.getsize(source) > MAX_NOTEBOOK_BYTES:
-                raise DesignError("notebook", f"larger than {MAX_NOTEBOOK_BYTES} bytes", str(source))
-            with open(source, encoding="utf-8") as fh:
-                nb = json.load(fh)
-        except (OSError, UnicodeDecodeError) as e:
-            raise DesignError("notebook", f"cannot read the notebook: {getattr(e, 'strerror', None) or e}",
-                              str(source)) from None
+            nb = json.loads(text)
         except json.JSONDecodeError as e:
             raise DesignError("notebook", f"not a Jupyter notebook: {e.msg} (line {e.lineno})", str(source)) from None
     if not isinstance(nb, dict) or not isinstance(nb.get("cells"), list):
