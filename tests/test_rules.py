@@ -1,6 +1,7 @@
 """Design rules: measured figures, broken rules named with their figures, rule files, ``check`` exit codes."""
 
 import json
+import pathlib
 import subprocess
 import sys
 
@@ -146,6 +147,9 @@ def test_bad_rule_file_names_field_value_and_allowed(data, message):
     with pytest.raises(DesignError) as exc:
         load_rules(data)
     assert str(exc.value).startswith(message), str(exc.value)
+    # docs/bad-input.md shows the exact text
+    doc = (pathlib.Path(__file__).parents[1] / "docs" / "bad-input.md").read_text(encoding="utf-8")
+    assert f"| {exc.value} |" in doc, f"add to docs/bad-input.md: {exc.value}"
 
 
 def test_rule_naming_a_missing_option_or_capacitor(demo, comparison):
