@@ -23,6 +23,7 @@ from typing import Any, Union
 
 from .capacitors import parse_dielectric
 from .errors import DesignError
+from .topology import TOPOLOGY, analysis_period
 from .units import format_exact, parse_eng
 
 __all__ = [
@@ -39,7 +40,8 @@ MAX_FILE_BYTES = 2_000_000
 #: Deepest JSON nesting accepted (a design needs 4).
 MAX_DEPTH = 8
 
-TOPOLOGIES = ("sync_buck", "sync_boost", "half_bridge", "full_bridge", "three_phase", "line_leg")
+#: Topology names, in the order of the topology table (:data:`explorer.topology.TOPOLOGY`).
+TOPOLOGIES = tuple(TOPOLOGY)
 
 _REQUIRED = object()
 
@@ -191,41 +193,23 @@ class Bridge:
     startup_cycles: int = _f("-", "switching periods analysed in start-up (line periods for line_leg)",
                              2000, kind="int", lo=1, hi=1_000_000)
 
+    @property
+    def period(self) -> float:
+        """The leg's own switching period [s]: 1/f_sw, or 1/f_line for a line-frequency leg."""
+        return analysis_period(self)
+
     def _check(self, path: str) -> None:
         t = self.topology
         period = 1.0 / self.f_sw
         if 2 * self.dead_time >= period:
             raise DesignError(f"{path}.dead_time", f"two dead times must be shorter than the switching "
                               f"period {period:.4g} s", self.dead_time)
-        need = {"sync_buck": ["v_out"], "sync_boost": ["v_in"], "full_bridge": ["duty"],
-                "three_phase": ["m", "f_o"], "line_leg": ["f_line"], "half_bridge": []}[t]
-        for k in need:
+        topo = TOPOLOGY[t]
+        for k in topo.required:
             if getattr(self, k) is None:
                 raise DesignError(f"{path}.{k}", f"required for topology {t!r}")
-        if t == "sync_buck":
-            if self.v_out >= self.v_bus * self.eta:
-                raise DesignError(f"{path}.v_out", f"a buck's output must be below v_bus\u00b7eta = "
-                                  f"{self.v_bus * self.eta:g} V", self.v_out)
-            if self.mode == "light_load" and self.ls_pulse is None:
-                raise DesignError(f"{path}.ls_pulse", "required in light_load mode (low-side on-time)")
-            if self.mode == "light_load":
-                t_ls = period * (1.0 - self.v_out / (self.eta * self.v_bus)) - 2 * self.dead_time
-                if self.ls_pulse >= t_ls:
-                    raise DesignError(f"{path}.ls_pulse", f"must be shorter than the low-side slot "
-                                      f"(1 \u2212 D)\u00b7T \u2212 2\u00b7t_dead = {max(t_ls, 0.0):.4g} s",
-                                      self.ls_pulse)
-        if t == "sync_boost" and self.v_in * self.eta >= self.v_bus:
-            raise DesignError(f"{path}.v_in", f"a boost's input must be below v_bus/eta = "
-                              f"{self.v_bus / self.eta:g} V", self.v_in)
-        if t == "three_phase" and self.f_o and self.f_o * 2 > self.f_sw:
-            raise DesignError(f"{path}.f_o", f"must be below half the switching frequency "
-                              f"({self.f_sw / 2:g} Hz)", self.f_o)
-        if t == "three_phase" and self.f_o and self.f_sw / self.f_o > 2_000_000:
-            raise DesignError(f"{path}.f_o", "f_sw/f_o above 2e6 switching periods per fundamental; "
-                              "use f_o = 0 (standstill) for slower output", self.f_o)
-        if t == "line_leg" and self.f_line * 2 > self.f_sw:
-            raise DesignError(f"{path}.f_line", f"must be below half the switching frequency "
-                              f"({self.f_sw / 2:g} Hz)", self.f_line)
+        if topo.check is not None:
+            topo.check(self, path)
 
 
 @dataclass(frozen=True, kw_only=True)

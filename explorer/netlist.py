@@ -70,6 +70,7 @@ from .errors import DesignError
 from .loads import charge_per_turn_on
 from .schedule import Schedule, period_schedule, startup_schedule
 from .spice import spice_number as _n
+from .topology import topology_of
 
 __all__ = ["export_netlist", "export_all", "netlist_probes", "netlist_plan", "NetlistPlan",
            "STEADY_PERIODS", "SETTLE_TAU", "POINTS_PER_PERIOD", "RELTOL"]
@@ -189,7 +190,7 @@ def netlist_plan(design: Design, label: str, *, n_cycles: int | None = None,
     if t_uvlo is not None:
         t_uvlo = t_uvlo + t_pump0
     if n_cycles is None:
-        t_ss = b.soft_start if b.topology not in ("half_bridge", "line_leg") else 0.0
+        t_ss = b.soft_start if topology_of(b).soft_start else 0.0
         t_first = max(t_ss, t_uvlo if t_uvlo is not None else b.startup_cycles * t_sw)
         n_cycles = (math.ceil((t_first + model.netlist_settle_time(design, option, result, corner)) / t_sw)
                     + STEADY_PERIODS * per.n_cycles)
@@ -538,7 +539,7 @@ def export_netlist(design: Design, label: str, *, n_cycles: int | None = None, c
     if "i_cm" in probes:
         head.append(f"*   {probes['i_cm']}  common-mode current through the isolation capacitance")
     head.append(f"* Steady state: the last {STEADY_PERIODS} analysis periods, from t = {_n(plan.t_steady)} s.")
-    t_ss = b.soft_start if b.topology not in ("half_bridge", "line_leg") else 0.0
+    t_ss = b.soft_start if topology_of(b).soft_start else 0.0
     if plan.t_steady < max(t_ss, plan.t_uvlo_model or 0.0):
         head.append("* Note: this span ends before the start-up does (soft-start or UVLO-on), so its last "
                     "periods are not yet the steady state.")

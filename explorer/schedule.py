@@ -40,6 +40,9 @@ and zero-length slots are dropped. Conventions (DOMAIN.md's topology table):
 
 A duty whose LS slot vanishes keeps the HS on for the whole period (no dead
 times); an HS pulse shorter than the driver's ``t_on_min`` is dropped.
+
+The per-topology rules above (slot layout, operating duty, soft-start, analysis
+period) are the table in :mod:`explorer.topology`; this module assembles them.
 """
 
 from __future__ import annotations
@@ -50,6 +53,8 @@ import numpy as np
 
 from .design import Bridge, Design, Driver
 from .errors import DesignError
+from .topology import (QUASI_STATIC_PERIODS, analysis_period, is_standstill, light_load, periods_per_fundamental,
+                       topology_of)
 
 __all__ = ["Schedule", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
            "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill"]
@@ -124,50 +129,11 @@ class Schedule:
 # --------------------------------------------------------------------------- duty
 
 def nominal_duty(bridge: Bridge) -> float:
-    """HS duty command of the operating point (before dead time) [-].
+    """HS duty command of the operating point (before dead time) [-] (the topology table's).
 
     For three_phase this is the highest duty over the fundamental.
     """
-    t = bridge.topology
-    if t == "sync_buck":
-        return bridge.v_out / (bridge.eta * bridge.v_bus)
-    if t == "sync_boost":
-        return bridge.eta * bridge.v_in / bridge.v_bus  # HS (rectifier) share 1 − D
-    if t in ("half_bridge", "line_leg"):
-        return 0.5 if bridge.duty is None else bridge.duty
-    if t == "full_bridge":
-        return bridge.duty
-    u = _modulation(bridge, np.array([np.pi / 3 if bridge.third_harmonic else np.pi / 2]), 1.0)
-    return float(np.clip(0.5 * (1 + u[0]), 0.0, 1.0))
-
-
-def _modulation(bridge: Bridge, theta: np.ndarray, ramp) -> np.ndarray:
-    u = np.sin(theta)
-    if bridge.third_harmonic:
-        u = u + np.sin(3 * theta) / 6.0
-    return bridge.m * ramp * u
-
-
-#: Above this many switching periods per fundamental a three-phase leg is analysed as standstill.
-#: The rail then follows the slowly varying duty quasi-statically, and holding the highest duty for
-#: ever (standstill) bounds the fundamental's minimum from below, so the answer stays on the safe
-#: side while the work stays bounded (a 100 kHz leg at 5 Hz and below).
-QUASI_STATIC_PERIODS = 20_000
-
-
-def periods_per_fundamental(f_sw: float, f_o: float | None) -> int:
-    """Switching periods analysed per fundamental: round(f_sw/f_o), or 1 for standstill.
-
-    Standstill is f_o = 0 and any f_o below f_sw / :data:`QUASI_STATIC_PERIODS`.
-    """
-    if not f_o or f_sw / f_o > QUASI_STATIC_PERIODS:
-        return 1
-    return max(1, int(round(f_sw / f_o)))
-
-
-def is_standstill(bridge: Bridge) -> bool:
-    """A three-phase leg analysed as standstill (f_o = 0, or quasi-static, see QUASI_STATIC_PERIODS)."""
-    return not bridge.f_o or bridge.f_sw / bridge.f_o > QUASI_STATIC_PERIODS
+    return topology_of(bridge).nominal_duty(bridge)
 
 
 def _n_per_fundamental(bridge: Bridge) -> int:
@@ -192,39 +158,7 @@ def hs_duty_per_period(bridge: Bridge, k: np.ndarray, ramp: np.ndarray):
     lvl_a, lvl_b : ndarray [V]
         SW level in the dead time after HS turn-off and before HS turn-on.
     """
-    t = bridge.topology
-    T = 1.0 / (bridge.f_line if t == "line_leg" else bridge.f_sw)
-    td = bridge.dead_time
-    low = -bridge.v_undershoot
-    high = bridge.v_bus
-    ones = np.ones(k.shape)
-    if t == "sync_buck":
-        t_hs = nominal_duty(bridge) * ramp * T
-        t_ls = T - t_hs - 2 * td
-        return t_hs, t_ls, low * ones, low * ones
-    if t == "sync_boost":
-        d_main = (1.0 - nominal_duty(bridge)) * ramp
-        t_ls = d_main * T
-        t_hs = T - t_ls - 2 * td
-        return t_hs, t_ls, high * ones, high * ones
-    if t in ("half_bridge", "line_leg"):
-        d = nominal_duty(bridge) * ones
-        lvl_a = low * ones if t == "half_bridge" else bridge.v_sw_low * ones
-        lvl_b = high * ones if t == "half_bridge" else bridge.v_sw_low * ones
-        return d * T - td, (1 - d) * T - td, lvl_a, lvl_b
-    if t == "full_bridge":
-        d = bridge.duty * ramp
-        return d * T - td, (1 - d) * T - td, low * ones, low * ones
-    # three_phase
-    n = _n_per_fundamental(bridge)
-    if not is_standstill(bridge):
-        theta = 2 * np.pi * k / n
-    else:  # standstill: the angle of the highest duty
-        theta = (np.pi / 3 if bridge.third_harmonic else np.pi / 2) * ones
-    d = np.clip(0.5 * (1 + _modulation(bridge, theta, ramp)), 0.0, 1.0)
-    i_pos = np.sin(theta - bridge.phi) >= 0
-    lvl = np.where(i_pos, low, high)
-    return d * T - td, (1 - d) * T - td, lvl, lvl
+    return topology_of(bridge).slots(bridge, k, ramp, analysis_period(bridge))
 
 
 # --------------------------------------------------------------------------- assembly
@@ -232,8 +166,8 @@ def hs_duty_per_period(bridge: Bridge, k: np.ndarray, ramp: np.ndarray):
 def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic: bool,
               pre: float = 0.0) -> Schedule:
     """Build the interval arrays from per-period slot times (vectorised)."""
-    t = bridge.topology
-    T = 1.0 / (bridge.f_line if t == "line_leg" else bridge.f_sw)
+    T = analysis_period(bridge)
+    skipping = light_load(bridge)
     td = bridge.dead_time
     K = t_hs.size
     full_on = t_ls <= 0.0
@@ -248,7 +182,7 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     v[:, 1] = lvl_a
     v[:, 2] = bridge.v_sw_low
     v[:, 3] = lvl_b
-    if t == "sync_buck" and bridge.mode == "light_load":
+    if skipping:
         if bridge.ls_pulse > t_ls.max(initial=0.0):
             raise DesignError("bridge.ls_pulse", f"must be shorter than the low-side slot "
                               f"{t_ls.max(initial=0.0):.4g} s", bridge.ls_pulse)
@@ -280,7 +214,7 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
         prev_hs = np.concatenate(([False], hs[:-1]))
     return Schedule(dt=dt, v_sw=v, hs_on=hs, hs_turn_on=hs & ~prev_hs, sw_rise=high & ~prev_high,
                     sw_fall=~high & prev_high, cycle=cyc, duty=duty,
-                    t_switch=T * (1 + (bridge.skip_cycles if t == "sync_buck" and bridge.mode == "light_load" else 0)),
+                    t_switch=T * (1 + (bridge.skip_cycles if skipping else 0)),
                     v_bus=bridge.v_bus, periodic=periodic)
 
 
@@ -300,7 +234,7 @@ def period_schedule(design: Design, bridge: Bridge | None = None) -> Schedule:
     1.0
     """
     b = bridge or design.bridge
-    n = _n_per_fundamental(b) if b.topology == "three_phase" else 1
+    n = _n_per_fundamental(b) if topology_of(b).fundamental else 1
     k = np.arange(n)
     t_hs, t_ls, la, lb = hs_duty_per_period(b, k, np.ones(n))
     return _assemble(b, design.driver, t_hs, t_ls, la, lb, periodic=True)
@@ -318,9 +252,9 @@ def startup_schedule(design: Design, bridge: Bridge | None = None, n_cycles: int
     """
     b = bridge or design.bridge
     n = b.startup_cycles if n_cycles is None else int(n_cycles)
-    T = 1.0 / (b.f_line if b.topology == "line_leg" else b.f_sw)
+    T = analysis_period(b)
     k = np.arange(n)
-    if b.soft_start > 0 and b.topology not in ("half_bridge", "line_leg"):
+    if b.soft_start > 0 and topology_of(b).soft_start:
         ramp = np.minimum(1.0, (k * T) / b.soft_start)
     else:
         ramp = np.ones(n)
@@ -351,7 +285,7 @@ def schedule_validity(design: Design, schedule: Schedule | None = None) -> list[
         out.append(f"the switch-node edge time t_edge = {b.t_edge:.3g} s is longer than the shortest "
                    f"interval of the schedule ({float(live.min()):.3g} s): the models treat edges as steps "
                    "between intervals, so the rail figures near that interval are not reliable")
-    if b.topology == "three_phase" and b.f_o and is_standstill(b):
+    if topology_of(b).fundamental and b.f_o and is_standstill(b):
         out.append(f"the output frequency f_o = {b.f_o:.3g} Hz is below f_sw/{QUASI_STATIC_PERIODS} = "
                    f"{b.f_sw / QUASI_STATIC_PERIODS:.3g} Hz: the leg is analysed as standstill (the highest "
                    "duty held for ever), which bounds the slow fundamental from the safe side")

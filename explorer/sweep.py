@@ -29,6 +29,7 @@ from .design import Design, check_value, load_design, replace_fields, spec_at
 from .errors import DesignError
 from .loads import required_rail
 from .options import supply_model
+from .topology import topology_of
 
 __all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "temperature_fields", "margin_map", "MarginMap"]
 
@@ -64,20 +65,12 @@ def duty_field(design: Design, duty: float, f_sw: float | None = None) -> tuple[
     A buck's HS is on D·T (v_out = D·η·v_bus); a boost's rectifier is on
     (1 − D)·T − 2·t_dead (v_in = (h + 2·t_dead·f_sw)·v_bus/η); a bridge leg's HS
     is on d·T − t_dead (d = h + t_dead·f_sw); a three-phase leg's crest duty is
-    ½(1 + m) (m = 2·h − 1, the standstill angle). See :mod:`explorer.schedule`.
+    ½(1 + m) (m = 2·h − 1, the standstill angle). The rule is the topology table's
+    (:attr:`explorer.topology.Topology.duty_setting`); see :mod:`explorer.schedule`.
     """
     b = design.bridge
-    t = b.topology
-    f = b.f_sw if f_sw is None else f_sw
-    if t == "sync_buck":
-        return "bridge.v_out", duty * b.eta * b.v_bus
-    if t == "sync_boost":
-        return "bridge.v_in", (duty + 2 * b.dead_time * f) * b.v_bus / b.eta
-    if t == "line_leg":
-        return "bridge.duty", duty + b.dead_time * b.f_line
-    if t in ("half_bridge", "full_bridge"):
-        return "bridge.duty", duty + b.dead_time * f
-    return "bridge.m", 2.0 * duty - 1.0
+    topo = topology_of(b)
+    return topo.duty_field, topo.duty_setting(b, duty, b.f_sw if f_sw is None else f_sw)
 
 
 @dataclass(frozen=True)

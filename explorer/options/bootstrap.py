@@ -60,6 +60,7 @@ from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailSta
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, hs_duty_per_period, is_standstill, nominal_duty,
                         period_schedule, periods_per_fundamental, startup_schedule)
+from ..topology import analysis_frequency, light_load, topology_of
 from .details import BootstrapDetails
 from .base import SupplyModel
 
@@ -586,7 +587,7 @@ def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period):
     td = np.broadcast_to(b.dead_time, t_hs.shape)
     dt = np.stack([t_hs, td, t_ls, td], axis=-1)
     v = np.stack([np.full(t_hs.shape, b.v_bus), lvl_a, np.full(t_hs.shape, b.v_sw_low), lvl_b], axis=-1)
-    if b.topology == "sync_buck" and b.mode == "light_load":
+    if light_load(b):
         span = period * (1 + b.skip_cycles)
         dt[..., 2] = b.ls_pulse
         dt[..., 3] = np.maximum(span - t_hs - td - b.ls_pulse, 0.0)
@@ -608,7 +609,7 @@ def _levels(design: Design):
     """Dead-time SW levels of the period of highest duty."""
     b = design.bridge
     k = np.zeros(1, dtype=int)
-    if b.topology == "three_phase" and not is_standstill(b):
+    if topology_of(b).fundamental and not is_standstill(b):
         s = period_schedule(design)
         k = np.array([int(np.argmax(s.duty))])
     _, _, la, lb = hs_duty_per_period(b, k, np.ones(1))
@@ -616,8 +617,7 @@ def _levels(design: Design):
 
 
 def _period(design: Design) -> float:
-    b = design.bridge
-    return 1.0 / (b.f_line if b.topology == "line_leg" else b.f_sw)
+    return design.bridge.period
 
 
 def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner: str = "nominal",
@@ -700,7 +700,7 @@ _MAP_BLOCK = 8192
 
 def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
     """Largest HS duty whose steady-state minimum stays at or above each threshold (None: none)."""
-    f = design.bridge.f_line if design.bridge.topology == "line_leg" else design.bridge.f_sw
+    f = analysis_frequency(design.bridge)
     th = np.asarray(thresholds, dtype=float)
     grid = np.linspace(h_lo, h_hi, DUTY_GRID + 1)
     coarse = rail_min_map(design, None, f, grid, circ=circ, full=True)
@@ -975,24 +975,13 @@ def _three_phase_terms(design, circ, need):
 
 
 def _topology_terms(design, circ, h_max, need, v_min_ss):
+    """The duty limit in the topology's own terms (the table's rule; three_phase searches m and f_o)."""
     b = design.bridge
-    T = _period(design)
-    td = b.dead_time
-    t = b.topology
+    limit = topology_of(b).duty_limit
+    if limit is None:
+        return _three_phase_terms(design, circ, need)
     ok = bool(v_min_ss is not None and v_min_ss >= need)
-    if t == "sync_buck":
-        return {"v_out_max": None if h_max is None else h_max * b.eta * b.v_bus}
-    if t == "sync_boost":
-        if h_max is None:
-            return {"v_out_over_v_in_min": None}
-        return {"v_out_over_v_in_min": max(1.0, b.eta / (h_max + 2 * td / T))}
-    if t == "full_bridge":
-        return {"duty_command_max": None if h_max is None else min(1.0, h_max + td / T)}
-    if t == "half_bridge":
-        return {"passes": ok, "duty_command_max": None if h_max is None else min(1.0, h_max + td / T)}
-    if t == "line_leg":
-        return {"passes": ok, "f_line": b.f_line}
-    return _three_phase_terms(design, circ, need)
+    return limit(b, h_max, _period(design), ok)
 
 
 # --------------------------------------------------------------------------- evaluation
@@ -1128,14 +1117,14 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
         hold = None if not math.isfinite(hold) else hold
     T_sw = _period(design)
     t_ls_min = None if h_need is None else max(0.0, (1.0 - h_need) * T_sw - 2 * b.dead_time)
-    if b.topology == "sync_buck" and b.mode == "light_load" and h_need is not None:
+    if light_load(b) and h_need is not None:
         t_ls_min = _ls_pulse_min(design, circ, need)
     topo = _topology_terms(design, circ, h_need, need, v_min)
     duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
                       t_ls_min=t_ls_min, topology=topo)
     extra["duty_max_uvlo_off"] = h_uvlo
     op_duty = float(np.max(sched.duty))
-    f_txt = _fmt(b.f_line if b.topology == "line_leg" else b.f_sw, "Hz")
+    f_txt = _fmt(analysis_frequency(b), "Hz")
     if refreshed and v_min < drv.uvlo_off:
         where = (f"at HS duty above {h_uvlo:.3g}" if h_uvlo is not None else "at every HS duty")
         warn.append(f"the rail falls below UVLO-off ({_fmt(drv.uvlo_off, 'V')}) {where} at {f_txt}; "

@@ -1,0 +1,279 @@
+"""What explorer knows about each bridge topology, in one table.
+
+One :class:`Topology` per name in :data:`TOPOLOGY`: the bridge keys it requires and its own
+consistency checks, its operating HS duty (:attr:`Topology.nominal_duty`), its slot layout per
+switching period (:attr:`Topology.slots`: HS and LS slot times and the switch-node level in each dead
+time), whether the duty ramps in soft-start, the design field the sweep alias ``"duty"`` sets
+(:attr:`Topology.duty_field`, :attr:`Topology.duty_setting`), and the duty limit in its own terms
+(:attr:`Topology.duty_limit`, the keys of ``DutyLimits.topology``, worded by
+:mod:`explorer.views.table`). Everything else asks this
+table instead of testing the topology's name: the design loader, :mod:`explorer.schedule`, the sweep,
+the option models, the netlist export.
+
+The conventions and their sources are those of :mod:`explorer.schedule` (volt-second balance of the
+buck and the boost, sine PWM of a three-phase leg).
+
+This module imports neither :mod:`explorer.design` nor :mod:`explorer.schedule` (they import it);
+functions take a ``Bridge``.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+from typing import Callable
+
+import numpy as np
+
+from .errors import DesignError
+
+__all__ = ["Topology", "TOPOLOGY", "topology_of", "analysis_frequency", "analysis_period", "light_load", "QUASI_STATIC_PERIODS",
+           "periods_per_fundamental", "is_standstill", "modulation"]
+
+
+#: Above this many switching periods per fundamental a three-phase leg is analysed as standstill.
+#: The rail then follows the slowly varying duty quasi-statically, and holding the highest duty for
+#: ever (standstill) bounds the fundamental's minimum from below, so the answer stays on the safe
+#: side while the work stays bounded (a 100 kHz leg at 5 Hz and below).
+QUASI_STATIC_PERIODS = 20_000
+
+
+@dataclass(frozen=True)
+class Topology:
+    """One bridge topology (see the module notes).
+
+    Attributes
+    ----------
+    name : str
+        The design-file value of ``bridge.topology``.
+    required : tuple of str
+        Bridge keys that must not be null for it.
+    nominal_duty : callable(bridge) -> float
+        HS duty command of the operating point, before dead time [-] (three_phase: the highest over
+        the fundamental).
+    slots : callable(bridge, k, ramp, T) -> (t_hs, t_ls, lvl_a, lvl_b)
+        Per switching period k (ndarray of int) with soft-start factor ``ramp`` and period T [s]: raw
+        HS and LS slot times [s] and the SW level [V] in the dead time after HS turn-off (a) and
+        before HS turn-on (b).
+    duty_field : str
+        The design field the sweep alias ``"duty"`` sets.
+    duty_setting : callable(bridge, h, f_sw) -> float
+        Value of :attr:`duty_field` that makes the HS on-time share of the period equal ``h`` [-] at
+        switching frequency ``f_sw`` [Hz].
+    duty_limit : callable(bridge, h_max, T, passes) -> dict, or None
+        The highest feasible HS share ``h_max`` [-] (None: none feasible) in the topology's own terms,
+        the keys of ``DutyLimits.topology`` (``passes``: the operating point holds). None: the terms
+        need a search of the supply model (three_phase: the highest m and the lowest f_o).
+    line_frequency : bool
+        The leg switches once per line period: its analysis period is 1/f_line, not 1/f_sw.
+    fundamental : bool
+        The analysis covers a whole fundamental of f_o (many switching periods).
+    soft_start : bool
+        The duty command ramps from 0 over ``soft_start`` (False: the leg keeps its duty).
+    light_load : bool
+        The topology has a pulse-skipping light-load mode (``mode = "light_load"``).
+    check : callable(bridge, path) or None
+        Its own consistency checks (raise :class:`~explorer.errors.DesignError`).
+    """
+
+    name: str
+    required: tuple
+    nominal_duty: Callable
+    slots: Callable
+    duty_field: str
+    duty_setting: Callable
+    duty_limit: Callable | None
+    line_frequency: bool = False
+    fundamental: bool = False
+    soft_start: bool = True
+    light_load: bool = False
+    check: Callable | None = None
+
+
+# --------------------------------------------------------------------------- three-phase helpers
+
+def modulation(bridge, theta: np.ndarray, ramp) -> np.ndarray:
+    """Sine PWM reference m·ramp·(sin θ [+ sin 3θ / 6 with third-harmonic injection]) [-]."""
+    u = np.sin(theta)
+    if bridge.third_harmonic:
+        u = u + np.sin(3 * theta) / 6.0
+    return bridge.m * ramp * u
+
+
+def periods_per_fundamental(f_sw: float, f_o: float | None) -> int:
+    """Switching periods analysed per fundamental: round(f_sw/f_o), or 1 for standstill.
+
+    Standstill is f_o = 0 and any f_o below f_sw / :data:`QUASI_STATIC_PERIODS`.
+    """
+    if not f_o or f_sw / f_o > QUASI_STATIC_PERIODS:
+        return 1
+    return max(1, int(round(f_sw / f_o)))
+
+
+def is_standstill(bridge) -> bool:
+    """A three-phase leg analysed as standstill (f_o = 0, or quasi-static, see QUASI_STATIC_PERIODS)."""
+    return not bridge.f_o or bridge.f_sw / bridge.f_o > QUASI_STATIC_PERIODS
+
+
+def _crest_angle(bridge) -> float:
+    """Angle of the highest duty of the reference [rad]."""
+    return np.pi / 3 if bridge.third_harmonic else np.pi / 2
+
+
+# --------------------------------------------------------------------------- the topologies
+
+def _levels(bridge, k, low: bool):
+    return (-bridge.v_undershoot if low else bridge.v_bus) * np.ones(k.shape)
+
+
+def _buck_duty(b):
+    return b.v_out / (b.eta * b.v_bus)
+
+
+def _buck_slots(b, k, ramp, T):
+    t_hs = _buck_duty(b) * ramp * T
+    t_ls = T - t_hs - 2 * b.dead_time
+    lvl = _levels(b, k, True)
+    return t_hs, t_ls, lvl, lvl
+
+
+def _buck_check(b, path):
+    period = 1.0 / b.f_sw
+    if b.v_out >= b.v_bus * b.eta:
+        raise DesignError(f"{path}.v_out", f"a buck's output must be below v_bus\u00b7eta = "
+                          f"{b.v_bus * b.eta:g} V", b.v_out)
+    if b.mode == "light_load" and b.ls_pulse is None:
+        raise DesignError(f"{path}.ls_pulse", "required in light_load mode (low-side on-time)")
+    if b.mode == "light_load":
+        t_ls = period * (1.0 - b.v_out / (b.eta * b.v_bus)) - 2 * b.dead_time
+        if b.ls_pulse >= t_ls:
+            raise DesignError(f"{path}.ls_pulse", f"must be shorter than the low-side slot "
+                              f"(1 \u2212 D)\u00b7T \u2212 2\u00b7t_dead = {max(t_ls, 0.0):.4g} s", b.ls_pulse)
+
+
+def _boost_duty(b):
+    return b.eta * b.v_in / b.v_bus  # HS (rectifier) share 1 − D
+
+
+def _boost_slots(b, k, ramp, T):
+    d_main = (1.0 - _boost_duty(b)) * ramp
+    t_ls = d_main * T
+    t_hs = T - t_ls - 2 * b.dead_time
+    lvl = _levels(b, k, False)
+    return t_hs, t_ls, lvl, lvl
+
+
+def _boost_check(b, path):
+    if b.v_in * b.eta >= b.v_bus:
+        raise DesignError(f"{path}.v_in", f"a boost's input must be below v_bus/eta = "
+                          f"{b.v_bus / b.eta:g} V", b.v_in)
+
+
+def _half_duty(b):
+    return 0.5 if b.duty is None else b.duty
+
+
+def _half_slots(b, k, ramp, T):
+    d = _half_duty(b) * np.ones(k.shape)
+    td = b.dead_time
+    return d * T - td, (1 - d) * T - td, _levels(b, k, True), _levels(b, k, False)
+
+
+def _line_slots(b, k, ramp, T):
+    d = _half_duty(b) * np.ones(k.shape)
+    td = b.dead_time
+    lvl = b.v_sw_low * np.ones(k.shape)
+    return d * T - td, (1 - d) * T - td, lvl, lvl
+
+
+def _line_check(b, path):
+    if b.f_line * 2 > b.f_sw:
+        raise DesignError(f"{path}.f_line", f"must be below half the switching frequency "
+                          f"({b.f_sw / 2:g} Hz)", b.f_line)
+
+
+def _full_slots(b, k, ramp, T):
+    d = b.duty * ramp
+    td = b.dead_time
+    lvl = _levels(b, k, True)
+    return d * T - td, (1 - d) * T - td, lvl, lvl
+
+
+def _three_phase_duty(b):
+    u = modulation(b, np.array([_crest_angle(b)]), 1.0)
+    return float(np.clip(0.5 * (1 + u[0]), 0.0, 1.0))
+
+
+def _three_phase_slots(b, k, ramp, T):
+    ones = np.ones(k.shape)
+    n = periods_per_fundamental(b.f_sw, b.f_o)
+    if not is_standstill(b):
+        theta = 2 * np.pi * k / n
+    else:  # standstill: the angle of the highest duty
+        theta = _crest_angle(b) * ones
+    d = np.clip(0.5 * (1 + modulation(b, theta, ramp)), 0.0, 1.0)
+    i_pos = np.sin(theta - b.phi) >= 0
+    lvl = np.where(i_pos, -b.v_undershoot, b.v_bus)
+    td = b.dead_time
+    return d * T - td, (1 - d) * T - td, lvl, lvl
+
+
+def _three_phase_check(b, path):
+    if b.f_o and b.f_o * 2 > b.f_sw:
+        raise DesignError(f"{path}.f_o", f"must be below half the switching frequency "
+                          f"({b.f_sw / 2:g} Hz)", b.f_o)
+    if b.f_o and b.f_sw / b.f_o > 2_000_000:
+        raise DesignError(f"{path}.f_o", "f_sw/f_o above 2e6 switching periods per fundamental; "
+                          "use f_o = 0 (standstill) for slower output", b.f_o)
+
+
+def _bridge_duty_limit(b, h_max, T, passes):
+    """Highest duty command: the HS share plus the dead time that delays turn-on."""
+    return {"duty_command_max": None if h_max is None else min(1.0, h_max + b.dead_time / T)}
+
+
+def _boost_duty_limit(b, h_max, T, passes):
+    """Lowest V_out/V_in: η/(1 − D) with the rectifier share h = 1 − D − 2·t_dead/T."""
+    if h_max is None:
+        return {"v_out_over_v_in_min": None}
+    return {"v_out_over_v_in_min": max(1.0, b.eta / (h_max + 2 * b.dead_time / T))}
+
+#: The topologies by name, in the order the design file lists them.
+TOPOLOGY = {t.name: t for t in (
+    Topology("sync_buck", ("v_out",), _buck_duty, _buck_slots, "bridge.v_out",
+             lambda b, h, f: h * b.eta * b.v_bus,
+             lambda b, h, T, ok: {"v_out_max": None if h is None else h * b.eta * b.v_bus}, light_load=True, check=_buck_check),
+    Topology("sync_boost", ("v_in",), _boost_duty, _boost_slots, "bridge.v_in",
+             lambda b, h, f: (h + 2 * b.dead_time * f) * b.v_bus / b.eta, _boost_duty_limit,
+             check=_boost_check),
+    Topology("half_bridge", (), _half_duty, _half_slots, "bridge.duty",
+             lambda b, h, f: h + b.dead_time * f,
+             lambda b, h, T, ok: {"passes": ok, **_bridge_duty_limit(b, h, T, ok)}, soft_start=False),
+    Topology("full_bridge", ("duty",), lambda b: b.duty, _full_slots, "bridge.duty",
+             lambda b, h, f: h + b.dead_time * f, _bridge_duty_limit),
+    Topology("three_phase", ("m", "f_o"), _three_phase_duty, _three_phase_slots, "bridge.m",
+             lambda b, h, f: 2.0 * h - 1.0, None, fundamental=True, check=_three_phase_check),
+    Topology("line_leg", ("f_line",), _half_duty, _line_slots, "bridge.duty",
+             lambda b, h, f: h + b.dead_time * b.f_line,
+             lambda b, h, T, ok: {"passes": ok, "f_line": b.f_line}, line_frequency=True, soft_start=False,
+             check=_line_check),
+)}
+
+
+def topology_of(bridge) -> Topology:
+    """The table entry of a bridge's topology."""
+    return TOPOLOGY[bridge.topology]
+
+
+def analysis_frequency(bridge) -> float:
+    """The leg's own switching frequency [Hz]: f_sw, or f_line for a leg that switches at line frequency."""
+    return bridge.f_line if TOPOLOGY[bridge.topology].line_frequency else bridge.f_sw
+
+
+def analysis_period(bridge) -> float:
+    """The leg's own switching period [s]: ``1/analysis_frequency(bridge)``."""
+    return 1.0 / analysis_frequency(bridge)
+
+
+def light_load(bridge) -> bool:
+    """The leg runs in a pulse-skipping light-load mode (a buck with ``mode = "light_load"``)."""
+    return TOPOLOGY[bridge.topology].light_load and bridge.mode == "light_load"
