@@ -77,7 +77,6 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scipy.special import wrightomega as _sp_wrightomega
 
 from .affine import affine_scan
 
@@ -256,7 +255,8 @@ def wright_omega(y):
     """
     y = np.asarray(y, dtype=float)
     if y.size < _OMEGA_OWN:
-        return _sp_wrightomega(y)
+        from scipy.special import wrightomega  # imported here: scipy.special takes ~0.3 s to load
+        return wrightomega(y)
     with np.errstate(over="ignore", under="ignore", divide="ignore", invalid="ignore"):
         low = y <= -2.0
         high = ~(y <= 3.0)

@@ -72,7 +72,7 @@ from functools import cached_property
 from typing import Union
 
 import numpy as np
-from scipy.optimize import brentq
+from .roots import brentq
 
 from .errors import DesignError
 

@@ -70,7 +70,7 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
+from ..roots import brentq
 
 from ..capacitors import capacitance, parse_dielectric
 from ..design import ChargePumpOption, Design

@@ -54,7 +54,7 @@ import warnings
 from dataclasses import dataclass
 
 import numpy as np
-from scipy.optimize import brentq
+from ..roots import brentq
 
 from .. import common_mode as cm
 from ..affine import affine_scan
