@@ -27,7 +27,7 @@ import numpy as np
 from .errors import DesignError
 
 __all__ = ["Topology", "TOPOLOGY", "topology_of", "analysis_frequency", "analysis_period", "light_load", "QUASI_STATIC_PERIODS",
-           "periods_per_fundamental", "is_standstill", "modulation"]
+           "periods_per_fundamental", "is_standstill", "modulation", "operating_share"]
 
 
 #: Above this many switching periods per fundamental a three-phase leg is analysed as standstill.
@@ -277,3 +277,20 @@ def analysis_period(bridge) -> float:
 def light_load(bridge) -> bool:
     """The leg runs in a pulse-skipping light-load mode (a buck with ``mode = "light_load"``)."""
     return TOPOLOGY[bridge.topology].light_load and bridge.mode == "light_load"
+
+
+def operating_share(bridge, f_sw: float | None = None) -> float:
+    """HS on-time share of the period at the bridge's operating point [-].
+
+    The inverse of :attr:`Topology.duty_setting` (linear in the share for every topology) at the
+    current value of :attr:`Topology.duty_field`, so it is the coordinate of the design on the
+    sweep's ``"duty"`` axis (the margin map's duty axis; for three_phase the standstill crest,
+    ½(1 + m)).
+    """
+    topo = TOPOLOGY[bridge.topology]
+    f = bridge.f_sw if f_sw is None else f_sw
+    s0, s1 = topo.duty_setting(bridge, 0.0, f), topo.duty_setting(bridge, 1.0, f)
+    x = getattr(bridge, topo.duty_field.split(".", 1)[1])
+    if x is None:  # a half bridge or line leg without a duty: its nominal command
+        x = topo.nominal_duty(bridge)
+    return float((x - s0) / (s1 - s0))
