@@ -190,6 +190,13 @@ class Bridge:
     v_sw_low: float = _f("V", "switch-node level while the low side conducts", 0.0, lo=-100.0, hi=100.0)
     v_undershoot: float = _f("V", "depth of the switch node below ground while the low-side body "
                              "diode conducts in dead time", 0.0, lo=0.0, hi=100.0)
+    v_out_start: float = _f("V", "output voltage at start-up (sync_buck; above 0 = a pre-biased output): where "
+                            "the switch node rests while UVLO withholds the high-side pulses", 0.0, lo=0.0,
+                            hi=1e5)
+    v_sw_hold: float | None = _f("V", "switch-node level while UVLO withholds the high-side pulses in start-up "
+                                 "(null = the topology's rule: buck v_out_start, boost v_in, line leg v_bus, "
+                                 "others the dead-time level before HS turn-on)", None, nullable=True,
+                                 lo=-100.0, hi=1e5)
     startup_cycles: int = _f("-", "switching periods analysed in start-up (line periods for line_leg)",
                              2000, kind="int", lo=1, hi=1_000_000)
 

@@ -17,7 +17,9 @@ schedule continues periodically, so its last periods are the steady state of
 design's ``bridge.t_edge``. High-side pulses that the driver withholds while
 its rail is below UVLO-on are decided by the model (for the bootstrap the
 model's start-up solution; for a pump or an isolated module the model's time
-to UVLO-on) and leave ``vs`` at ``v_sw_low``, as in the model.
+to UVLO-on) and leave ``vs`` where the topology holds it (the schedule's
+``v_hold``: a buck's starting output, a boost's input, a line leg's bus, else
+the dead-time level), as in the model.
 
 *The gate load* between the rail ``vb`` and ``vs``: a current pulse carrying
 Q_G + Q_LS over ``t_edge`` at each delivered HS turn-on, the driver's
@@ -307,9 +309,9 @@ def _charge_pulses(name: str, a: str, b: str, s: Schedule, k: np.ndarray, q: flo
 def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
     """Switch node, HS-on control node and the gate load between vb and vs."""
     b, s = design.bridge, plan.schedule
-    v_low = b.v_sw_low
+    v_low = s.v_rest
     live = s.dt > 0
-    v_sw = np.where(s.hs_on & ~plan.delivered, v_low, s.v_sw)
+    v_sw = s.sw_levels(plan.delivered)
     t0, dt = s.t_start, s.dt
     edge = b.t_edge
     lines = ["* --- bridge leg: switch node and high-side gate load (from the design's schedule)",
@@ -332,9 +334,10 @@ def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
 
 def _sw_high_pwl(design: Design, plan: NetlistPlan) -> list:
     s = plan.schedule
-    v_sw = np.where(s.hs_on & ~plan.delivered, design.bridge.v_sw_low, s.v_sw)
+    v_sw = s.sw_levels(plan.delivered)
     high = (v_sw > 0.5 * design.bridge.v_bus).astype(float)
-    return _steps(s.t_start, s.dt, high, design.bridge.t_edge, 0.0, plan.t_stop, 0.5)
+    return _steps(s.t_start, s.dt, high, design.bridge.t_edge, float(s.v_rest > 0.5 * design.bridge.v_bus),
+                  plan.t_stop, 0.5)
 
 
 # --------------------------------------------------------------------------- options
@@ -371,9 +374,9 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
                   f"GLK vb a swhi 0 {_n(option.i_leak)}"]
     if option.q_rr > 0:
         s = plan.schedule
-        v_sw = np.where(s.hs_on & ~plan.delivered, design.bridge.v_sw_low, s.v_sw)
+        v_sw = s.sw_levels(plan.delivered)
         high = v_sw > 0.5 * design.bridge.v_bus
-        prev = np.concatenate(([False], high[:-1]))
+        prev = np.concatenate(([s.v_rest > 0.5 * design.bridge.v_bus], high[:-1]))
         k = np.flatnonzero(high & ~prev & (s.dt > 0))
         if k.size:
             lines.append("* diode recovery charge Q_rr at each SW rising edge")

@@ -286,6 +286,10 @@ class OptionResult(_Dict):
     cautions : tuple of str
         Statements that always apply to this kind of option (e.g. that insulation must be designed
         to the safety standards); unlike ``warnings`` they do not say something is wrong.
+    assumptions : tuple of str
+        The model's assumptions behind this result's figures, in plain words (e.g. where the switch
+        node rests while UVLO withholds the high-side pulses, how each edge's capacitive energy is
+        charged); not a fault.
     t, v : ndarray [s], [V]
         Steady-state rail waveform over the analysis period.
     """
@@ -310,6 +314,7 @@ class OptionResult(_Dict):
     details: Details | None = None
     error: str | None = None
     cautions: tuple = ()
+    assumptions: tuple = ()
     t: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     v: np.ndarray = field(default_factory=lambda: np.zeros(0), repr=False)
     _arrays = ("t", "v")

@@ -53,8 +53,8 @@ import numpy as np
 
 from .design import Bridge, Design, Driver
 from .errors import DesignError
-from .topology import (QUASI_STATIC_PERIODS, analysis_period, is_standstill, light_load, periods_per_fundamental,
-                       topology_of)
+from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_standstill, light_load,
+                       periods_per_fundamental, topology_of)
 
 __all__ = ["Schedule", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
            "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill"]
@@ -87,7 +87,15 @@ class Schedule:
         Bus voltage, the high level of SW.
     periodic : bool
         True for a steady-state analysis period (the last interval precedes the
-        first); False for start-up (SW low and HS off before the first).
+        first); False for start-up (HS off before the first, SW at ``v_rest``).
+    v_hold : ndarray of float [V] or None
+        Start-up only: the switch-node level of each interval if its HS pulse is
+        withheld by UVLO (the topology's rule, :func:`explorer.topology.hold_level`);
+        equal to ``v_sw`` where the HS is not commanded on.
+    hold_words : str
+        The assumption behind ``v_hold`` in plain words ("" for a periodic schedule).
+    v_rest : float [V]
+        Switch-node level before the first interval of a start-up schedule.
     """
 
     dt: np.ndarray
@@ -101,6 +109,15 @@ class Schedule:
     t_switch: float
     v_bus: float
     periodic: bool
+    v_hold: np.ndarray | None = None
+    hold_words: str = ""
+    v_rest: float = 0.0
+
+    def sw_levels(self, delivered) -> np.ndarray:
+        """Switch-node level per interval with the HS pulses not in ``delivered`` withheld [V]."""
+        if self.v_hold is None:
+            return self.v_sw
+        return np.where(self.hs_on & ~np.asarray(delivered, dtype=bool), self.v_hold, self.v_sw)
 
     @property
     def period(self) -> float:
@@ -164,7 +181,7 @@ def hs_duty_per_period(bridge: Bridge, k: np.ndarray, ramp: np.ndarray):
 # --------------------------------------------------------------------------- assembly
 
 def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic: bool,
-              pre: float = 0.0) -> Schedule:
+              pre: float = 0.0, hold=None, hold_words: str = "") -> Schedule:
     """Build the interval arrays from per-period slot times (vectorised)."""
     T = analysis_period(bridge)
     skipping = light_load(bridge)
@@ -198,14 +215,18 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     hs[:, 0] = True
     cyc = np.repeat(np.arange(K), 4).reshape(K, 4)
     duty = dt[:, 0] / dt.sum(axis=1)
-    dt, v, hs, cyc = dt.ravel(), v.ravel(), hs.ravel(), cyc.ravel()
+    vh = v.copy()
+    if hold is not None:
+        vh[:, 0] = hold
+    dt, v, vh, hs, cyc = dt.ravel(), v.ravel(), vh.ravel(), hs.ravel(), cyc.ravel()
     if pre > 0.0:  # low-side pre-charge pulse before the first period
         dt = np.concatenate(([pre], dt))
         v = np.concatenate(([bridge.v_sw_low], v))
+        vh = np.concatenate(([bridge.v_sw_low], vh))
         hs = np.concatenate(([False], hs))
         cyc = np.concatenate(([-1], cyc))
     keep = dt > 0.0
-    dt, v, hs, cyc = dt[keep], v[keep], hs[keep], cyc[keep]
+    dt, v, vh, hs, cyc = dt[keep], v[keep], vh[keep], hs[keep], cyc[keep]
     high = v > 0.5 * bridge.v_bus
     if periodic:
         prev_high, prev_hs = np.roll(high, 1), np.roll(hs, 1)
@@ -215,7 +236,9 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     return Schedule(dt=dt, v_sw=v, hs_on=hs, hs_turn_on=hs & ~prev_hs, sw_rise=high & ~prev_high,
                     sw_fall=~high & prev_high, cycle=cyc, duty=duty,
                     t_switch=T * (1 + (bridge.skip_cycles if skipping else 0)),
-                    v_bus=bridge.v_bus, periodic=periodic)
+                    v_bus=bridge.v_bus, periodic=periodic, v_hold=None if hold is None else vh,
+                    hold_words=hold_words,
+                    v_rest=bridge.v_sw_low if hold is None else float(np.ravel(hold)[0]) if np.size(hold) else 0.0)
 
 
 def period_schedule(design: Design, bridge: Bridge | None = None) -> Schedule:
@@ -248,7 +271,11 @@ def startup_schedule(design: Design, bridge: Bridge | None = None, n_cycles: int
     leg's modulation index; a half bridge and a line leg keep their duty).
     ``n_cycles`` (default ``bridge.startup_cycles``) switching periods are
     covered after the pre-charge. Whether an HS pulse is really delivered
-    depends on the rail reaching UVLO, which the supply model decides.
+    depends on the rail reaching UVLO, which the supply model decides; where it
+    is withheld the switch node rests at ``v_hold`` (the topology's rule,
+    :func:`explorer.topology.hold_level`: a buck at its starting output, a boost
+    at its input, a line leg at the bus, the others where the load current holds
+    it in the dead time), and before the first interval at ``v_rest``.
     """
     b = bridge or design.bridge
     n = b.startup_cycles if n_cycles is None else int(n_cycles)
@@ -259,7 +286,9 @@ def startup_schedule(design: Design, bridge: Bridge | None = None, n_cycles: int
     else:
         ramp = np.ones(n)
     t_hs, t_ls, la, lb = hs_duty_per_period(b, k, ramp)
-    return _assemble(b, design.driver, t_hs, t_ls, la, lb, periodic=False, pre=b.precharge)
+    hold, words = hold_level(b, lb)
+    return _assemble(b, design.driver, t_hs, t_ls, la, lb, periodic=False, pre=b.precharge, hold=hold,
+                     hold_words=words)
 
 
 def schedule_validity(design: Design, schedule: Schedule | None = None) -> list[str]:

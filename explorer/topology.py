@@ -26,8 +26,8 @@ import numpy as np
 
 from .errors import DesignError
 
-__all__ = ["Topology", "TOPOLOGY", "topology_of", "analysis_frequency", "analysis_period", "light_load", "QUASI_STATIC_PERIODS",
-           "periods_per_fundamental", "is_standstill", "modulation", "operating_share"]
+__all__ = ["Topology", "TOPOLOGY", "topology_of", "hold_level", "analysis_frequency", "analysis_period", "light_load",
+           "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "modulation", "operating_share"]
 
 
 #: Above this many switching periods per fundamental a three-phase leg is analysed as standstill.
@@ -73,6 +73,10 @@ class Topology:
         The topology has a pulse-skipping light-load mode (``mode = "light_load"``).
     check : callable(bridge, path) or None
         Its own consistency checks (raise :class:`~explorer.errors.DesignError`).
+    hold : callable(bridge, lvl_b) -> (ndarray, str)
+        Where the switch node rests while the driver withholds the HS pulse of a period (start-up in
+        UVLO): the level [V] per period (``lvl_b`` is the dead-time level before HS turn-on) and the
+        assumption in plain words. ``bridge.v_sw_hold`` overrides it.
     """
 
     name: str
@@ -87,6 +91,7 @@ class Topology:
     soft_start: bool = True
     light_load: bool = False
     check: Callable | None = None
+    hold: Callable | None = None
 
 
 # --------------------------------------------------------------------------- three-phase helpers
@@ -138,6 +143,9 @@ def _buck_slots(b, k, ramp, T):
 
 def _buck_check(b, path):
     period = 1.0 / b.f_sw
+    if b.v_out_start >= b.v_bus:
+        raise DesignError(f"{path}.v_out_start", f"a pre-biased output must be below v_bus = {b.v_bus:g} V",
+                          b.v_out_start)
     if b.v_out >= b.v_bus * b.eta:
         raise DesignError(f"{path}.v_out", f"a buck's output must be below v_bus\u00b7eta = "
                           f"{b.v_bus * b.eta:g} V", b.v_out)
@@ -226,6 +234,55 @@ def _three_phase_check(b, path):
                           "use f_o = 0 (standstill) for slower output", b.f_o)
 
 
+# --------------------------------------------------------------------------- where SW rests in UVLO
+
+def _hold_buck(b, lvl_b):
+    """Buck: no HS pulse has put current in the inductor, so SW rests at the output through it."""
+    words = ("sync_buck: while UVLO withholds the HS pulses no current flows in the inductor and the "
+             f"switch node rests at the output's starting level v_out_start = {b.v_out_start:g} V "
+             "(0 V: a discharged output; above it, a pre-biased one), so the bootstrap charges toward "
+             "V_DD − V_F − v_out_start there and fully only while the low side conducts")
+    return b.v_out_start * np.ones(lvl_b.shape), words
+
+
+def _hold_boost(b, lvl_b):
+    """Boost: the inductor (and the HS body diode) hold SW at the input or above while the HS is off."""
+    words = ("sync_boost: while UVLO withholds the HS (rectifier) pulses the inductor holds the switch "
+             f"node at the input v_in = {b.v_in:g} V or above it (the HS body diode conducts at the "
+             "output), so the bootstrap charges only while the low-side main switch is on")
+    return b.v_in * np.ones(lvl_b.shape), words
+
+
+def _hold_line(b, lvl_b):
+    """Line leg: the HS body diode carries the line current in the half period the HS would conduct."""
+    words = ("line_leg: while UVLO withholds the HS the line current flows through its body diode in "
+             f"that half line period, holding the switch node at the bus ({b.v_bus:g} V), so the "
+             "bootstrap charges only in the low-side half period")
+    return b.v_bus * np.ones(lvl_b.shape), words
+
+
+def _hold_current(b, lvl_b):
+    """Half/full bridge, three-phase leg: the load current holds SW where it holds it in the dead time."""
+    words = (f"{b.topology}: while UVLO withholds an HS pulse both switches are off and the load "
+             "current holds the switch node where it holds it in the dead time before HS turn-on "
+             "(the low-side body diode: low; the HS body diode or a resonant current: at the bus)")
+    return np.asarray(lvl_b, dtype=float) * 1.0, words
+
+
+def hold_level(bridge, lvl_b):
+    """Switch-node level while an HS pulse is withheld in start-up, per period [V], and its words.
+
+    The topology's rule (:attr:`Topology.hold`), or ``bridge.v_sw_hold`` where the design gives it.
+    """
+    lvl_b = np.asarray(lvl_b, dtype=float)
+    if getattr(bridge, "v_sw_hold", None) is not None:
+        return (bridge.v_sw_hold * np.ones(lvl_b.shape),
+                f"design value: while UVLO withholds the HS pulses the switch node rests at "
+                f"v_sw_hold = {bridge.v_sw_hold:g} V")
+    rule = TOPOLOGY[bridge.topology].hold or _hold_current
+    return rule(bridge, lvl_b)
+
+
 def _bridge_duty_limit(b, h_max, T, passes):
     """Highest duty command: the HS share plus the dead time that delays turn-on."""
     return {"duty_command_max": None if h_max is None else min(1.0, h_max + b.dead_time / T)}
@@ -241,10 +298,11 @@ def _boost_duty_limit(b, h_max, T, passes):
 TOPOLOGY = {t.name: t for t in (
     Topology("sync_buck", ("v_out",), _buck_duty, _buck_slots, "bridge.v_out",
              lambda b, h, f: h * b.eta * b.v_bus,
-             lambda b, h, T, ok: {"v_out_max": None if h is None else h * b.eta * b.v_bus}, light_load=True, check=_buck_check),
+             lambda b, h, T, ok: {"v_out_max": None if h is None else h * b.eta * b.v_bus}, light_load=True, check=_buck_check,
+             hold=_hold_buck),
     Topology("sync_boost", ("v_in",), _boost_duty, _boost_slots, "bridge.v_in",
              lambda b, h, f: (h + 2 * b.dead_time * f) * b.v_bus / b.eta, _boost_duty_limit,
-             check=_boost_check),
+             check=_boost_check, hold=_hold_boost),
     Topology("half_bridge", (), _half_duty, _half_slots, "bridge.duty",
              lambda b, h, f: h + b.dead_time * f,
              lambda b, h, T, ok: {"passes": ok, **_bridge_duty_limit(b, h, T, ok)}, soft_start=False),
@@ -255,7 +313,7 @@ TOPOLOGY = {t.name: t for t in (
     Topology("line_leg", ("f_line",), _half_duty, _line_slots, "bridge.duty",
              lambda b, h, f: h + b.dead_time * b.f_line,
              lambda b, h, T, ok: {"passes": ok, "f_line": b.f_line}, line_frequency=True, soft_start=False,
-             check=_line_check),
+             check=_line_check, hold=_hold_line),
 )}
 
 

@@ -33,7 +33,9 @@ rail_min_map(design, option, f_sw, duty, corner="nominal")
     1e-12 relative at the operating point.
 
 Assumptions (each stated where it is used): UVLO is sampled at interval
-boundaries; a withheld HS pulse leaves SW at ``v_sw_low``; the gate charge is
+boundaries; a withheld HS pulse leaves SW where the topology holds it
+(:func:`explorer.topology.hold_level`: a buck's starting output, a boost's input,
+a line leg's bus, else the dead-time level; reported as ``startup_sw_hold``); the gate charge is
 drawn over the switch-node edge time ``t_edge`` for the RMS and peak current
 (common practice, no source); the diode's recovery charge is taken at every
 SW rising edge (conservative); the DC-bias factor of the capacitor is taken at
@@ -341,7 +343,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
             steady: SteadyState | None = None) -> StartupSolution:
     """Start-up from 0 V through :func:`~explorer.schedule.startup_schedule`.
 
-    HS pulses are withheld (SW stays at ``v_sw_low``) while the driver is in
+    HS pulses are withheld (SW rests at the schedule's ``v_hold``, the topology's rule) while the driver is in
     UVLO: from the start until the rail first reaches ``uvlo_on``, and again
     after it falls below ``uvlo_off`` until it is back at ``uvlo_on``. UVLO is
     sampled at interval boundaries (a pulse is delivered or withheld whole).
@@ -374,7 +376,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     p = 0
     v = 0.0
     enabled = False
-    prev_l, prev_h = circ.v_sw_low, False
+    prev_l, prev_h = s.v_rest, False
     t_uvlo = None
     k_uvlo = None
     segments = 0
@@ -391,7 +393,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         sl = slice(p, q_end)
         pred = _predict_enabled(state, s.cycle, p, q_end, enabled)
         hs = s.hs_on[sl] & pred
-        vsw = np.where(s.hs_on[sl] & ~pred, circ.v_sw_low, s.v_sw[sl])
+        vsw = np.where(s.hs_on[sl] & ~pred, s.v_hold[sl], s.v_sw[sl])
         loop = schedule_loop(circ, s.dt[sl], vsw, hs, periodic=False, v_prev0=prev_l, hs_prev0=prev_h)
         orb = propagate(loop, v, tol=STARTUP_TOL)
         segments += 1
@@ -453,8 +455,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         else:
             window *= 4
         p += stop
-    loop_all = schedule_loop(circ, s.dt, np.where(s.hs_on & ~delivered, circ.v_sw_low, s.v_sw), delivered,
-                             periodic=False)
+    loop_all = schedule_loop(circ, s.dt, s.sw_levels(delivered), delivered, periodic=False, v_prev0=s.v_rest)
     i_start = _diode_current(v_start, loop_all, circ)
     return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments, k_settled)
 
@@ -497,7 +498,7 @@ def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: b
     """
     k = slice(j1, j1 + L)
     hs = s.hs_on[k] & enabled
-    vsw = np.where(s.hs_on[k] & ~hs, circ.v_sw_low, s.v_sw[k])
+    vsw = np.where(s.hs_on[k] & ~hs, s.v_hold[k], s.v_sw[k])
     loop = _bc(schedule_loop(circ, s.dt[k], vsw, hs, periodic=True))
     orb = _rotated_orbit(loop, steady) if steady is not None else None
     if orb is None:
@@ -1094,7 +1095,9 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     v_su = np.append(np.column_stack((su.v_pre, su.v_start)).ravel(), su.v_end[-1])
     start = Startup(t_uvlo=su.t_uvlo, cycles_uvlo=cycles, i_peak=i_peak_su, v_dd_dip=v_dd_dip, t=t_su, v=v_su)
     extra.update({"i_first_pulse": i_first, "startup_segments": su.segments,
-                  "startup_v_max": float(np.max(su.v_start, initial=0.0))})
+                  "startup_v_max": float(np.max(su.v_start, initial=0.0)),
+                  "startup_v_sw_hold": _first_hold(s2), "startup_sw_hold": s2.hold_words})
+    assumptions = [s2.hold_words] if s2.hold_words else []
     if su.t_uvlo is None:
         warn.append(f"the rail does not reach UVLO-on ({_fmt(drv.uvlo_on, 'V')}) within the "
                     f"{s2.n_cycles} start-up cycles analysed")
@@ -1206,7 +1209,15 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
                         warnings=tuple(warn), v_rail=rail if refreshed else None, efficiency=eff,
                         p_delivered=p_del, p_drawn=None if p_aux is None else p_aux + p_bus,
                         startup=start, duty=duty, r_out=None, capacitors=caps, p_drawn_aux=p_aux,
-                        p_drawn_bus=p_bus, losses=losses, checks=tuple(checks), details=BootstrapDetails(**extra), t=t_wave, v=v_wave)
+                        p_drawn_bus=p_bus, losses=losses, checks=tuple(checks), details=BootstrapDetails(**extra),
+                        assumptions=tuple(assumptions), t=t_wave, v=v_wave)
+
+
+def _first_hold(s: Schedule) -> float | None:
+    """Switch-node level of the first withheld HS pulse of a start-up schedule [V] (None: no HS slot)."""
+    if s.v_hold is None or not np.any(s.hs_on):
+        return None
+    return float(s.v_hold[np.flatnonzero(s.hs_on)[0]])
 
 
 def _ls_pulse_min(design, circ, need):

@@ -51,6 +51,11 @@ class BootstrapDetails(Details):
     v_min_model : float or None [V]
         The model's steady-state rail minimum when it falls below 0 V (the reported minimum then
         reads 0 V); None otherwise.
+    startup_v_sw_hold : float or None [V]
+        Where the switch node rests while UVLO withholds the first high-side pulses of start-up
+        (the topology's rule or ``bridge.v_sw_hold``).
+    startup_sw_hold : str
+        That assumption in plain words (also listed in the result's ``assumptions``).
     """
 
     c_eff: float
@@ -67,6 +72,8 @@ class BootstrapDetails(Details):
     q_diode_per_period: float | None = None
     energy_switch_node: float | None = None
     v_min_model: float | None = None
+    startup_v_sw_hold: float | None = None
+    startup_sw_hold: str = ""
 
 
 @dataclass(frozen=True, kw_only=True)

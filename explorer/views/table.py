@@ -121,6 +121,8 @@ def comparison_text(comparison) -> str:
             out.append(f"warning [{r.label}]: {w}")
         for c in r.cautions:
             out.append(f"caution [{r.label}]: {c}")
+        for a in r.assumptions:
+            out.append(f"assumption [{r.label}]: {a}")
     out.append("")
     out.append(CAUTION)
     return "\n".join(out)
