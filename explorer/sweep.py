@@ -224,6 +224,8 @@ class MarginMap:
 
     ``margin[i, j]`` = steady-state rail minimum − uvlo_off at ``f_sw[i]`` and
     HS duty command ``duty[j]`` [V]; NaN where the point is not a valid design.
+    ``required`` is the required rail [V] and ``uvlo_off`` the driver's UVLO-off [V] the margin
+    is counted from.
     """
 
     label: str
@@ -233,6 +235,7 @@ class MarginMap:
     margin: np.ndarray
     required: float
     vectorised: bool
+    uvlo_off: float | None = None
 
     def to_dict(self) -> dict:
         from .results import clean
@@ -268,4 +271,4 @@ def margin_map(design, label: str, f_sw, duty) -> MarginMap:
         s = sweep(d, {"bridge.f_sw": f, "duty": u}, labels=[label], figures=["rail_min"])
         rail = s.figures[label]["rail_min"]
         vec = False
-    return MarginMap(label, f, u, rail, rail - d.driver.uvlo_off, required_rail(d), vec)
+    return MarginMap(label, f, u, rail, rail - d.driver.uvlo_off, required_rail(d), vec, d.driver.uvlo_off)

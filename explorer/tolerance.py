@@ -241,6 +241,10 @@ class MonteCarlo:
         Clopper–Pearson confidence interval of the trip probability.
     p_margin : float [-]
         Fraction of samples below the required rail (uvlo_off/v_gs_on_min + margin).
+    limit : float or None [V]
+        The trip limit, the driver's uvlo_off.
+    required : float or None [V]
+        The required rail ``p_margin`` counts against.
     """
 
     label: str
@@ -252,6 +256,8 @@ class MonteCarlo:
     ci: tuple
     p_margin: float
     vectorised: bool
+    limit: float | None = None
+    required: float | None = None
 
     def to_dict(self) -> dict:
         return {"label": self.label, "n": self.n, "seed": self.seed, "confidence": self.confidence,
@@ -299,5 +305,6 @@ def monte_carlo(design: Design, label: str, n: int = 10_000, *, seed: int = 0, c
     lo, hi = clopper_pearson(trips, n, confidence)
     p_margin = float(np.count_nonzero(~(rail >= required_rail(design)))) / n
     return MonteCarlo(label=label, n=int(n), seed=seed, confidence=confidence, rail_min=rail,
-                      p_trip=trips / n, ci=(lo, hi), p_margin=p_margin, vectorised=vectorised)
+                      p_trip=trips / n, ci=(lo, hi), p_margin=p_margin, vectorised=vectorised,
+                      limit=design.driver.uvlo_off, required=required_rail(design))
 

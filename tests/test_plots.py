@@ -174,3 +174,162 @@ def test_operating_share_inverts_the_duty_setting(comparisons):
         now = getattr(b, path.split(".", 1)[1])
         assert value == pytest.approx(0.5 if now is None else now, rel=1e-12)  # None: a 50 % command
     assert operating_share(comparisons["demo"].design.bridge) == pytest.approx(12 / 48)  # buck: D = V_out/V_bus
+
+
+# --------------------------------------------------------------------------- duty, stress, loss
+
+@pytest.mark.parametrize("name", NAMES)
+def test_duty_sources_are_the_duty_limits(comparisons, name):
+    from explorer.views.table import topology_text
+    c = comparisons[name]
+    p = plots.duty_plot(c)
+    data = p.sources["ranges"].data
+    assert list(data["label"]) == [r.label for r in c.options]
+    for r, lo, hi, terms in zip(c.options, data["lo"], data["hi"], data["terms"]):
+        assert lo == (0.0 if r.duty.min is None else r.duty.min)
+        assert hi == (1.0 if r.duty.max is None else r.duty.max)
+        assert terms == topology_text(r.duty.topology)
+    assert list(p.sources["operating"].data["x"]) == [operating_share(c.design.bridge)]
+    assert list(p.figure.y_range.factors) == [r.label for r in reversed(c.options)]
+    top = p.figure.extra_x_ranges["topology"]
+    b = c.design.bridge
+    topo = explorer.topology.topology_of(b)
+    k = 100.0 if topo.duty_field == "bridge.duty" else 1.0
+    assert (top.start, top.end) == (topo.duty_setting(b, 0.0, b.f_sw) * k, topo.duty_setting(b, 1.0, b.f_sw) * k)
+
+
+def test_duty_second_axis_in_the_topology_terms(comparisons):
+    # demo buck: V_out = D·η·V_bus (volt-second balance, Erickson & Maksimović, Fundamentals of Power
+    # Electronics, 2nd ed., sec. 2.3), so share 0..1 reads V_out 0..η·48 V
+    p = plots.duty_plot(comparisons["demo"])
+    b = comparisons["demo"].design.bridge
+    top = p.figure.extra_x_ranges["topology"]
+    assert (top.start, top.end) == (0.0, pytest.approx(b.eta * 48.0))
+    labels = [ax.axis_label for ax in p.figure.above]
+    assert labels == ["buck V_out [V]"]
+    tp = plots.duty_plot(comparisons["three_phase"])
+    assert [ax.axis_label for ax in tp.figure.above] == ["modulation index m (crest) [-]"]
+    assert "f_o = 200 Hz" in tp.figure.title.text
+    assert "f_line = 50 Hz" in plots.duty_plot(comparisons["line_leg"]).figure.title.text
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_stress_sources_are_the_capacitors_and_blocking_checks(comparisons, name):
+    c = comparisons[name]
+    data = plots.stress_plot(c).sources["parts"].data
+    rows = list(zip(data["label"], data["part"], data["peak"], data["rating"], data["derated"], data["margin"]))
+    want = []
+    for r in c.options:
+        checks = {k.name: k for k in r.checks}
+        for cap in r.capacitors:
+            k = checks[f"cap_voltage_{cap.name.lower()}"]
+            assert k.limit == cap.v_rating * c.design.checks.cap_derating
+            want.append((r.label, cap.name, cap.v_max, cap.v_rating, k.limit, k.margin))
+        opt = c.design.option(r.label)
+        if "diode_v_rrm" in checks:
+            k = checks["diode_v_rrm"]
+            want.append((r.label, "diode reverse V", k.value, opt.v_rrm, k.limit, k.margin))
+        if "switch_v_block" in checks:
+            k = checks["switch_v_block"]
+            want.append((r.label, "pump switches blocking V", k.value, opt.v_rating_sw, k.limit, k.margin))
+    assert rows == want
+    assert all(t == f"margin {m:+.3g} V" for t, m in zip(data["margin_text"], data["margin"]))
+
+
+@pytest.mark.parametrize("name", NAMES)
+def test_loss_sources_are_the_loss_split(comparisons, name):
+    c = comparisons[name]
+    p = plots.loss_plot(c)
+    seg = p.sources["segments"].data
+    for r in c.options:
+        mine = [i for i, lab in enumerate(seg["label"]) if lab == r.label]
+        assert [seg["mechanism"][i] for i in mine] == [m.replace("_", " ") for m in r.losses]
+        assert [seg["value"][i] for i in mine] == list(r.losses.values())
+        np.testing.assert_allclose([seg["top"][i] for i in mine], np.cumsum(list(r.losses.values())), rtol=1e-15)
+    ov = p.sources["overhead"].data
+    assert dict(zip(ov["label"], ov["overhead"])) == {r.label: r.overhead for r in c.options}
+
+
+def test_loss_split_of_the_pumps_and_module_adds_up_to_the_overhead(comparisons):
+    # energy conservation (overhead = drawn − delivered): the plotted stack reaches the tick
+    p = plots.loss_plot(comparisons["demo"])
+    seg, ov = p.sources["segments"].data, p.sources["overhead"].data
+    for lab, overhead in zip(ov["label"], ov["overhead"]):
+        top = max(t for t, x in zip(seg["top"], seg["label"]) if x == lab)
+        assert top == pytest.approx(overhead, rel=2e-3), lab
+
+
+# --------------------------------------------------------------------------- margin map, Monte Carlo
+
+def test_zero_contour_of_a_plane_is_the_line_where_it_vanishes():
+    # z = x − 2y vanishes on y = x/2 (analytic): marching squares interpolates a plane exactly
+    x = np.linspace(0.0, 1.0, 11)
+    y = np.linspace(0.0, 1.0, 7)
+    z = x[:, None] - 2 * y[None, :]
+    lines = plots.zero_contour(x, y, z)
+    assert len(lines) == 1
+    xs, ys = lines[0]
+    np.testing.assert_allclose(ys, xs / 2, atol=1e-12)
+    assert xs.min() == pytest.approx(0.0) and xs.max() == pytest.approx(1.0)
+    z2 = z.copy()
+    z2[:, :] = 1.0
+    assert plots.zero_contour(x, y, z2) == []
+
+
+@pytest.fixture(scope="module")
+def margin(comparisons):
+    from explorer.sweep import margin_map
+    d = comparisons["demo"].design
+    return margin_map(d, "bootstrap 220n", np.geomspace(20e3, 1e6, 9), np.linspace(0.5, 1.0, 11))
+
+
+def test_margin_map_sources_are_the_map(comparisons, margin):
+    d = comparisons["demo"].design
+    p = plots.margin_map_plot(margin, d)
+    cells = p.sources["cells"].data
+    ii, jj = np.meshgrid(np.arange(margin.f_sw.size), np.arange(margin.duty.size), indexing="ij")
+    np.testing.assert_array_equal(cells["f_sw"], margin.f_sw[ii.ravel()])
+    np.testing.assert_array_equal(cells["duty"], margin.duty[jj.ravel()])
+    np.testing.assert_array_equal(cells["margin"], margin.margin.ravel())
+    np.testing.assert_array_equal(cells["rail_min"], margin.rail_min.ravel())
+    assert margin.uvlo_off == d.driver.uvlo_off
+    con = p.sources["contour"].data
+    assert "rail = UVLO off (trip)" in con["level"]
+    for xs, ys, lev in zip(con["xs"], con["ys"], con["level"]):
+        want = [c for c in plots.zero_contour(np.log10(margin.f_sw), margin.duty, margin.margin,
+                                              0.0 if lev.endswith("(trip)") else margin.required - margin.uvlo_off)]
+        assert any(np.allclose(xs, 10 ** wx) and np.allclose(ys, wy) for wx, wy in want)
+    assert list(p.sources["design"].data["f_sw"]) == [d.bridge.f_sw]
+    assert list(p.sources["design"].data["duty"]) == [operating_share(d.bridge)]
+    assert p.figure.x_scale.__class__.__name__ == "LogScale"  # the grid spans 50:1
+    assert p.figure.xaxis[0].axis_label == "switching frequency f_sw [MHz]"  # up to 1 MHz
+    p.update(margin)  # a bare map keeps the design point
+    assert list(p.sources["design"].data["f_sw"]) == [d.bridge.f_sw]
+
+
+def test_margin_map_three_phase(comparisons):
+    from explorer.sweep import margin_map
+    d = comparisons["three_phase"].design
+    m = margin_map(d, "bootstrap 220n", np.array([10e3, 20e3, 40e3]), np.array([0.9, 0.99, 0.999, 1.0]))
+    p = plots.margin_map_plot(m, d)
+    np.testing.assert_array_equal(p.sources["cells"].data["margin"], m.margin.ravel())
+    assert list(p.sources["design"].data["duty"]) == [pytest.approx(0.5 * (1 + 0.9))]  # crest ½(1 + m)
+
+
+def test_monte_carlo_sources_are_the_histogram(comparisons):
+    from explorer.tolerance import monte_carlo
+    d = comparisons["demo"].design
+    mc = monte_carlo(d, "bootstrap 220n", 2000, seed=3)
+    p = plots.monte_carlo_plot(mc)
+    b = p.sources["bins"].data
+    count, edges = np.histogram(mc.rail_min, bins=int(round(np.sqrt(2000))))
+    np.testing.assert_array_equal(b["count"], count)
+    np.testing.assert_array_equal(b["left"], edges[:-1])
+    np.testing.assert_array_equal(b["right"], edges[1:])
+    assert b["count"].sum() == mc.n
+    lim = dict(zip(p.sources["limits"].data["name"], p.sources["limits"].data["x"]))
+    assert lim == {"UVLO off (trip)": d.driver.uvlo_off, "required rail": explorer.loads.required_rail(d)}
+    assert f"P(trip) = {mc.p_trip:.3g}" in p.figure.title.text and "n = 2000" in p.figure.title.text
+    mc2 = monte_carlo(d, "bootstrap 220n", 500, seed=4)
+    p.update(mc2)
+    assert p.sources["bins"].data["count"].sum() == 500 and "n = 500" in p.figure.title.text

@@ -329,9 +329,363 @@ def steady_plot(comparison, *, max_points: int | None = None) -> Plot:
     return Plot(p, src, fill)
 
 
+# --------------------------------------------------------------------------- duty limits
+
+#: The sweep's duty field of each topology as a second axis: field → (quantity, unit, scale to unit).
+_DUTY_AXIS = {"bridge.v_out": ("buck V_out", "V", 1.0), "bridge.v_in": ("boost V_in", "V", 1.0),
+              "bridge.duty": ("duty command", "%", 100.0), "bridge.m": ("modulation index m (crest)", "-", 1.0)}
+
+
+def _duty_range(r):
+    """(lo, hi) of the feasible HS share as the table reads it (None ends open; none feasible: NaN)."""
+    d = r.duty
+    if d is None or (d.min is None and d.max is None):
+        return math.nan, math.nan
+    return (0.0 if d.min is None else d.min), (1.0 if d.max is None else d.max)
+
+
+def duty_plot(comparison) -> Plot:
+    """Feasible high-side duty range of each option, the operating point, and the topology's terms.
+
+    Sources: ``ranges`` (one row per option: ``label``, ``color``, ``lo``/``hi`` the feasible HS
+    on-time share [-] from ``OptionResult.duty`` (an open end reads 0 or 1, none feasible NaN),
+    ``terms`` the limit in the topology's own terms as the table words it) and ``operating`` (the
+    design's HS share ``x`` [-], :func:`~explorer.topology.operating_share`). A second axis above
+    reads the same share as the topology's own duty variable (a buck's V_out, a boost's V_in, a
+    bridge's duty command, a three-phase leg's m).
+    """
+    p = _fig("Feasible high-side duty per option", y_range=FactorRange(), x_range=Range1d(0.0, 1.0),
+             height=300)
+    src = {"ranges": ColumnDataSource(), "operating": ColumnDataSource()}
+    xa = _Axis(p.xaxis[0], "HS on-time share", "", percent=True)
+    p.extra_x_ranges = {"topology": Range1d(0.0, 1.0)}
+    top = LinearAxis(x_range_name="topology")
+    p.add_layout(top, "above")
+    ta = _Axis(top, "", "")
+
+    def fill(c):
+        b = c.design.bridge
+        topo = topology_of(b)
+        colors = option_colors([r.label for r in c.options])
+        labs = [r.label for r in c.options]
+        lo, hi = zip(*[_duty_range(r) for r in c.options]) if labs else ((), ())
+        terms = [topology_text(r.duty.topology) if r.duty is not None else "\u2014" for r in c.options]
+        words = [("none feasible" if math.isnan(a) else f"{100 * a:.1f} \u2026 {100 * z:.1f} %") + f"; {t}"
+                 for a, z, t in zip(lo, hi, terms)]
+        _set(src["ranges"], {"label": labs, "color": [colors[x] for x in labs], "lo": np.array(lo, dtype=float),
+                             "hi": np.array(hi, dtype=float), "terms": terms, "text": words,
+                             "x_text": np.full(len(labs), 0.01)})
+        h = operating_share(b)
+        _set(src["operating"], {"x": [h], "text": [f"operating point {100 * h:.3g} %"]})
+        p.y_range.factors = list(reversed(labs))
+        xa.set([1.0])
+        quantity, unit, k = _DUTY_AXIS[topo.duty_field]
+        f = b.f_sw
+        s0, s1 = topo.duty_setting(b, 0.0, f) * k, topo.duty_setting(b, 1.0, f) * k
+        p.extra_x_ranges["topology"].start, p.extra_x_ranges["topology"].end = s0, s1
+        pre, scale = _prefix([s0, s1], unit)
+        top.axis_label = f"{quantity} [{pre}{unit}]"
+        ta.fmt.args = {"k": 1.0 / scale}
+        extra = f", f_o = {_eng(b.f_o, 'Hz')}" if topo.fundamental else (
+            f", f_line = {_eng(b.f_line, 'Hz')}" if topo.line_frequency else "")
+        p.title.text = f"Feasible high-side duty per option ({b.topology}{extra})"
+
+    fill(comparison)
+    bars = p.hbar(y="label", left="lo", right="hi", height=0.6, source=src["ranges"], fill_color="color",
+                  line_color="color", fill_alpha=0.6)
+    p.add_layout(LabelSet(x="x_text", y="label", text="text", source=src["ranges"], text_font_size="8pt",
+                          y_offset=-4, x_offset=2))
+    p.vspan(x="x", source=src["operating"], line_color="black", line_width=2, line_dash="dashed")
+    p.add_layout(LabelSet(x="x", y=0, y_units="screen", text="text", source=src["operating"],
+                          text_font_size="8pt", x_offset=4, y_offset=4))
+    p.add_tools(HoverTool(renderers=[bars], tooltips=[("option", "@label"), ("from", "@lo{custom}"),
+                                                      ("to", "@hi{custom}"), ("limit", "@terms")],
+                          formatters={"@lo": _pct_fmt(), "@hi": _pct_fmt()}))
+    return Plot(p, src, fill)
+
+
+# --------------------------------------------------------------------------- stress
+
+#: Blocking-voltage checks drawn as stress rows: check id → (part, the option field of its rating).
+_BLOCKING = {"diode_v_rrm": ("diode reverse V", "v_rrm"), "switch_v_block": ("pump switches blocking V", "v_rating_sw")}
+
+
+def _stress_rows(c) -> list:
+    """(label, part, peak, rating, derated limit, margin) of every stressed part [V]."""
+    from ..results import cap_check_name
+    rows = []
+    for r in c.options:
+        checks = {k.name: k for k in r.checks}
+        for cap in r.capacitors:
+            k = checks.get(cap_check_name(cap.name))
+            rows.append((r.label, cap.name, cap.v_max, cap.v_rating,
+                         k.limit if k else math.nan, k.margin if k else math.nan))
+        try:
+            opt = c.design.option(r.label)
+        except Exception:  # an option the design no longer has: only its capacitors are drawn
+            opt = None
+        for name, (part, rating_field) in _BLOCKING.items():
+            if name in checks:
+                k = checks[name]
+                rows.append((r.label, part, k.value, getattr(opt, rating_field, None), k.limit, k.margin))
+    return rows
+
+
+def stress_plot(comparison) -> Plot:
+    """Voltage stress of every part against its rating and derated rating, margin in volts beside it.
+
+    The isolation barrier (hundreds of volts against a kilovolt rating) is the isolation family's
+    check, left to the table so that the low-voltage parts stay readable.
+
+    Sources: ``parts`` (one row per capacitor, bootstrap diode or pump-switch set:
+    ``label``, ``part``, ``row``, ``color``, ``peak`` highest voltage [V], ``rating`` [V] (NaN: none
+    given), ``derated`` the limit the check uses [V] (the rating times the design's derating), and
+    ``margin`` [V] of that check, from ``OptionResult.capacitors`` and ``OptionResult.checks``).
+    """
+    p = _fig("Voltage stress against rating", y_range=FactorRange(), height=420)
+    src = {"parts": ColumnDataSource()}
+    xa = _Axis(p.xaxis[0], "voltage", "V")
+
+    def fill(c):
+        colors = option_colors([r.label for r in c.options])
+        rows = _stress_rows(c)
+        f = lambda i: np.array([math.nan if x[i] is None else x[i] for x in rows], dtype=float)  # noqa: E731
+        peak, rating, derated, margin = f(2), f(3), f(4), f(5)
+        keys = [f"{x[0]} \u00b7 {x[1]}" for x in rows]
+        right = np.nanmax(np.vstack([peak, rating, derated]), axis=0) if rows else np.zeros(0)
+        _set(src["parts"], {"label": [x[0] for x in rows], "part": [x[1] for x in rows], "row": keys,
+                            "color": [colors[x[0]] for x in rows], "peak": peak, "rating": rating,
+                            "derated": derated, "margin": margin, "x_text": right,
+                            "margin_text": ["" if math.isnan(m) else f"margin {m:+.3g} V" for m in margin]})
+        p.y_range.factors = list(reversed(keys))
+        xa.set(right if rows else [1.0])
+
+    fill(comparison)
+    bars = p.hbar(y="row", left=0, right="peak", height=0.6, source=src["parts"], fill_color="color",
+                  line_color="color", fill_alpha=0.7)
+    r_rat = p.scatter(x="rating", y="row", source=src["parts"], marker="diamond", size=11, fill_color="white",
+                      line_color="black", line_width=1.5)
+    r_der = p.scatter(x="derated", y="row", source=src["parts"], marker="triangle", size=10,
+                      fill_color="#B2182B", line_color="#B2182B")
+    p.add_layout(LabelSet(x="x_text", y="row", text="margin_text", source=src["parts"], text_font_size="8pt",
+                          x_offset=8, y_offset=-4))
+    p.add_layout(Legend(items=[LegendItem(label="highest voltage", renderers=[bars]),
+                               LegendItem(label="rating", renderers=[r_rat]),
+                               LegendItem(label="derated rating (check limit)", renderers=[r_der])],
+                        location="bottom_right", label_text_font_size="8pt"))
+    v = _hover_fmt("V")
+    p.add_tools(HoverTool(renderers=[bars], tooltips=[("option", "@label"), ("part", "@part"),
+                                                      ("highest", "@peak{custom}"), ("rating", "@rating{custom}"),
+                                                      ("derated", "@derated{custom}"), ("margin", "@margin{custom}")],
+                          formatters={"@peak": v, "@rating": v, "@derated": v, "@margin": v}))
+    p.x_range.start = 0
+    return Plot(p, src, fill)
+
+
+# --------------------------------------------------------------------------- loss split
+
+def loss_plot(comparison) -> Plot:
+    """Split of each option's overhead by mechanism, as stacked bars.
+
+    Sources: ``segments`` (one row per option and mechanism of ``OptionResult.losses``: ``label``,
+    ``color`` the option's, ``mechanism``, ``fill`` the mechanism's, ``value`` [W], ``bottom`` /
+    ``top`` [W] the stack) and ``overhead`` (``OptionResult.overhead`` [W] per option, drawn as a
+    bar-wide tick: where a model's split does not add up to its overhead the gap shows).
+    """
+    p = _fig("Overhead split by mechanism", x_range=FactorRange(), height=380)
+    src = {"segments": ColumnDataSource(), "overhead": ColumnDataSource()}
+    ya = _Axis(p.yaxis[0], "power", "W")
+
+    def fill(c):
+        colors = option_colors([r.label for r in c.options])
+        fills: dict = {}
+        seg = {k: [] for k in ("label", "color", "mechanism", "fill", "hatch", "value", "bottom", "top")}
+        for r in c.options:
+            acc = 0.0
+            for mech, val in r.losses.items():
+                if val is None:
+                    continue
+                i = fills.setdefault(mech, len(fills))
+                seg["label"].append(r.label)
+                seg["color"].append(colors[r.label])
+                seg["mechanism"].append(mech.replace("_", " "))
+                seg["fill"].append(_MECHANISM_FILLS[i % len(_MECHANISM_FILLS)])
+                seg["hatch"].append(" " if i < len(_MECHANISM_FILLS) else "/")
+                seg["value"].append(float(val))
+                seg["bottom"].append(acc)
+                acc += float(val)
+                seg["top"].append(acc)
+        for k in ("value", "bottom", "top"):
+            seg[k] = np.array(seg[k], dtype=float)
+        _set(src["segments"], seg)
+        ov = [r for r in c.options if r.overhead is not None]
+        _set(src["overhead"], {"label": [r.label for r in ov], "color": [colors[r.label] for r in ov],
+                               "overhead": np.array([r.overhead for r in ov], dtype=float)})
+        p.x_range.factors = [r.label for r in c.options]
+        ya.set(np.concatenate([seg["top"], src["overhead"].data["overhead"]]) if ov or len(seg["top"]) else [1.0])
+
+    fill(comparison)
+    bars = p.vbar(x="label", bottom="bottom", top="top", width=0.7, source=src["segments"], fill_color="fill",
+                  line_color="color", line_width=2, hatch_pattern="hatch", hatch_color="white",
+                  legend_field="mechanism")
+    ticks = p.scatter(x="label", y="overhead", source=src["overhead"], marker="dash", size=40,
+                      line_color="black", line_width=2)
+    p.legend.location = "top_left"
+    p.legend.label_text_font_size = "8pt"
+    p.add_layout(p.legend[0], "right")
+    p.xaxis.major_label_orientation = 0.35
+    p.y_range.start = 0
+    w = _hover_fmt("W")
+    p.add_tools(HoverTool(renderers=[bars], tooltips=[("option", "@label"), ("mechanism", "@mechanism"),
+                                                      ("power", "@value{custom}")], formatters={"@value": w}))
+    p.add_tools(HoverTool(renderers=[ticks], tooltips=[("option", "@label"), ("overhead", "@overhead{custom}")],
+                          formatters={"@overhead": w}))
+    return Plot(p, src, fill)
+
+
+# --------------------------------------------------------------------------- margin map
+
+def _edges(x: np.ndarray, log: bool) -> np.ndarray:
+    """Cell edges around grid points (geometric midpoints on a log axis)."""
+    if x.size == 1:
+        return np.array([x[0] * 0.9, x[0] * 1.1]) if log else np.array([x[0] - 0.005, x[0] + 0.005])
+    u = np.log(x) if log else x
+    mid = 0.5 * (u[1:] + u[:-1])
+    e = np.concatenate([[u[0] - (mid[0] - u[0])], mid, [u[-1] + (u[-1] - mid[-1])]])
+    return np.exp(e) if log else e
+
+
+def margin_map_plot(margin_map_result, design=None) -> Plot:
+    """Heat map of a :class:`~explorer.sweep.MarginMap`, its zero contour and the design's point.
+
+    ``update`` takes a new map (the design point stays) or a ``(map, design)`` pair.
+
+    Sources: ``cells`` (one row per grid point: ``f_sw`` [Hz], ``duty`` HS share [-], ``margin`` =
+    rail minimum − UVLO-off [V], ``rail_min`` [V], and the cell's ``left``/``right``/``bottom``/
+    ``top``), ``contour`` (``xs``/``ys`` lines where the margin is 0, the trip boundary, and where
+    the rail meets the required rail; ``level`` names it; :func:`zero_contour`) and ``design``
+    (the design's ``f_sw`` and operating HS share, empty without ``design``). The frequency axis is
+    logarithmic when the grid spans a decade or more.
+    """
+    mm = margin_map_result
+    log = bool(mm.f_sw.size > 1 and mm.f_sw.min() > 0 and mm.f_sw.max() / mm.f_sw.min() >= 10)
+    p = _fig("Rail margin map", x_axis_type="log" if log else "linear", height=420)
+    src = {"cells": ColumnDataSource(), "contour": ColumnDataSource(), "design": ColumnDataSource()}
+    xa, ya = _Axis(p.xaxis[0], "switching frequency f_sw", "Hz"), _Axis(p.yaxis[0], "HS on-time share", "",
+                                                                          percent=True)
+    mapper = LinearColorMapper(palette=_DIVERGING, low=-1.0, high=1.0, nan_color="#BBBBBB")
+
+    state = {"design": design}
+
+    def fill(args):
+        m, d = args if isinstance(args, tuple) else (args, state["design"])
+        state["design"] = d
+        fe, ue = _edges(m.f_sw, log), _edges(m.duty, False)
+        ii, jj = np.meshgrid(np.arange(m.f_sw.size), np.arange(m.duty.size), indexing="ij")
+        ii, jj = ii.ravel(), jj.ravel()
+        _set(src["cells"], {"f_sw": m.f_sw[ii], "duty": m.duty[jj], "margin": m.margin.ravel(),
+                            "rail_min": m.rail_min.ravel(), "left": fe[ii], "right": fe[ii + 1],
+                            "bottom": ue[jj], "top": ue[jj + 1]})
+        xs, ys, level = [], [], []
+        x = np.log10(m.f_sw) if log else m.f_sw
+        levels = [("rail = UVLO off (trip)", 0.0)]
+        if m.uvlo_off is not None:
+            levels.append(("rail = required", m.required - m.uvlo_off))
+        for name, lev in levels:
+            for cx, cy in zero_contour(x, m.duty, m.margin, lev):
+                xs.append(10 ** cx if log else cx)
+                ys.append(cy)
+                level.append(name)
+        _set(src["contour"], {"xs": xs, "ys": ys, "level": level,
+                              "dash": ["solid" if lv.endswith("(trip)") else "dashed" for lv in level]})
+        if d is not None:
+            h = operating_share(d.bridge)
+            _set(src["design"], {"f_sw": [d.bridge.f_sw], "duty": [h],
+                                 "text": [f"design {_eng(d.bridge.f_sw, 'Hz')}, {100 * h:.3g} %"]})
+        else:
+            _set(src["design"], {"f_sw": [], "duty": [], "text": []})
+        fin = m.margin[np.isfinite(m.margin)]
+        a = float(np.max(np.abs(fin))) if fin.size else 1.0
+        mapper.low, mapper.high = -(a or 1.0), (a or 1.0)
+        xa.set(m.f_sw)
+        ya.set([1.0])
+        p.title.text = f"Rail margin over f_sw \u00d7 HS duty: {m.label} (rail minimum \u2212 UVLO off)"
+
+    fill((mm, design))
+    cells = p.quad(left="left", right="right", bottom="bottom", top="top", source=src["cells"],
+                   fill_color={"field": "margin", "transform": mapper}, line_color=None)
+    p.multi_line(xs="xs", ys="ys", source=src["contour"], line_color="black", line_width=2.5,
+                 line_dash="dash", legend_field="level")
+    p.scatter(x="f_sw", y="duty", source=src["design"], marker="star", size=16, fill_color="#F0E442",
+              line_color="black", legend_label="design point")
+    p.add_layout(ColorBar(color_mapper=mapper, title="margin [V]", width=12), "right")
+    p.legend.location = "bottom_left"
+    p.legend.label_text_font_size = "8pt"
+    v = _hover_fmt("V")
+    p.add_tools(HoverTool(renderers=[cells], tooltips=[("f_sw", "@f_sw{custom}"), ("HS share", "@duty{custom}"),
+                                                       ("rail min", "@rail_min{custom}"),
+                                                       ("margin", "@margin{custom}")],
+                          formatters={"@f_sw": _hover_fmt("Hz"), "@duty": _pct_fmt(), "@rail_min": v,
+                                      "@margin": v}))
+    return Plot(p, src, fill)
+
+
+# --------------------------------------------------------------------------- Monte Carlo
+
+def monte_carlo_plot(mc_result, design=None) -> Plot:
+    """Histogram of a :class:`~explorer.tolerance.MonteCarlo`'s rail minima, its limits, P(trip) in the title.
+
+    ``update`` takes a new result or a ``(result, design)`` pair.
+
+    Sources: ``bins`` (``left``/``right`` bin edges [V] and ``count`` [-] of
+    ``numpy.histogram`` of the finite rail minima) and ``limits`` (``x`` [V]: UVLO-off, the trip
+    limit, and the required rail; from the result, or from ``design`` for a result without them).
+    """
+    p = _fig("Monte Carlo of the rail minimum", height=320)
+    src = {"bins": ColumnDataSource(), "limits": ColumnDataSource()}
+    xa = _Axis(p.xaxis[0], "steady-state rail minimum", "V")
+    p.yaxis[0].axis_label = "samples [-]"
+
+    state = {"design": design}
+
+    def fill(args):
+        mc, d = args if isinstance(args, tuple) else (args, state["design"])
+        state["design"] = d
+        x = np.asarray(mc.rail_min, dtype=float)
+        fin = x[np.isfinite(x)]
+        bins = int(min(60, max(10, round(math.sqrt(max(fin.size, 1))))))
+        count, edges = np.histogram(fin, bins=bins) if fin.size else (np.zeros(0), np.zeros(1))
+        _set(src["bins"], {"left": edges[:-1], "right": edges[1:], "count": count.astype(float)})
+        lim = [("UVLO off (trip)", mc.limit if d is None else d.driver.uvlo_off),
+               ("required rail", mc.required if d is None else required_rail(d))]
+        lim = [(n, v) for n, v in lim if v is not None]
+        _set(src["limits"], {"x": [v for _, v in lim], "name": [n for n, _ in lim],
+                             "text": [f"{n} {_eng(v, 'V')}" for n, v in lim],
+                             "y": [10.0 + 14.0 * i for i in range(len(lim))]})
+        xa.set(np.concatenate([fin, [v for _, v in lim]]) if fin.size or lim else [1.0])
+        lo, hi = mc.ci
+        bad = x.size - fin.size
+        p.title.text = (f"{mc.label}: P(trip) = {mc.p_trip:.3g} ({100 * mc.confidence:g} % interval "
+                        f"{lo:.3g} \u2026 {hi:.3g}), n = {mc.n}" + (f", {bad} not evaluated" if bad else ""))
+
+    fill((mc_result, design))
+    bars = p.quad(left="left", right="right", bottom=0, top="count", source=src["bins"], fill_color=PALETTE[3],
+                  line_color=PALETTE[3], fill_alpha=0.8)
+    p.vspan(x="x", source=src["limits"], line_color="#B2182B", line_width=2, line_dash="dashed")
+    p.add_layout(LabelSet(x="x", y="y", y_units="screen", text="text", source=src["limits"], text_font_size="8pt",
+                          x_offset=4, text_color="#B2182B"))
+    v = _hover_fmt("V")
+    p.add_tools(HoverTool(renderers=[bars], tooltips=[("from", "@left{custom}"), ("to", "@right{custom}"),
+                                                      ("samples", "@count{0}")],
+                          formatters={"@left": v, "@right": v}))
+    p.y_range.start = 0
+    return Plot(p, src, fill)
+
+
 # --------------------------------------------------------------------------- comparison plots
 
 def comparison_plots(comparison, *, max_points: int | None = None, log_time: bool = False) -> dict:
-    """Every plot of a comparison, in order: ``startup``, ``steady`` (more follow)."""
+    """Every plot of a comparison, in order: ``startup``, ``steady``, ``duty``, ``stress``, ``loss``."""
     return {"startup": startup_plot(comparison, log_time=log_time, max_points=max_points),
-            "steady": steady_plot(comparison, max_points=max_points)}
+            "steady": steady_plot(comparison, max_points=max_points),
+            "duty": duty_plot(comparison), "stress": stress_plot(comparison), "loss": loss_plot(comparison)}
