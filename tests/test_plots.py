@@ -333,3 +333,13 @@ def test_monte_carlo_sources_are_the_histogram(comparisons):
     mc2 = monte_carlo(d, "bootstrap 220n", 500, seed=4)
     p.update(mc2)
     assert p.sources["bins"].data["count"].sum() == 500 and "n = 500" in p.figure.title.text
+
+
+def test_plots_of_one_comparison_embed_in_separate_documents(comparisons):
+    # a Bokeh model belongs to one document: no formatter or source may be shared between figures
+    from bokeh.embed import json_item
+    ps = plots.comparison_plots(comparisons["demo"])
+    items = [json_item(p.figure) for p in ps.values()]
+    assert len(items) == 5
+    page = plots.standalone_html(ps, title="t")
+    assert page.count("Copyright (c) Anaconda") == 1 and "http://" not in page.split("</script>")[-1]

@@ -47,7 +47,7 @@ from .table import topology_text
 
 __all__ = ["Plot", "PALETTE", "option_colors", "thin", "zero_contour", "startup_plot", "steady_plot",
            "duty_plot", "stress_plot", "loss_plot", "margin_map_plot", "monte_carlo_plot",
-           "comparison_plots", "standalone_html", "setup_notebook", "notebook_html"]
+           "comparison_plots", "standalone_html", "setup_notebook", "setup_html", "notebook_html", "bokeh_js"]
 
 #: Option colours: the colour-blind-safe set of Okabe & Ito ("Color Universal Design", 2002,
 #: jfly.iam.u-tokyo.ac.jp/color), in their order with black moved to the end (on white it
@@ -176,8 +176,8 @@ def _fig(title: str, **kw):
     return p
 
 
-@functools.lru_cache(maxsize=None)
 def _hover_fmt(unit: str) -> CustomJSHover:
+    """A fresh formatter (a Bokeh model belongs to one document: never share one between figures)."""
     return CustomJSHover(code=_HOVER_JS, args={"unit": unit})
 
 
@@ -689,3 +689,138 @@ def comparison_plots(comparison, *, max_points: int | None = None, log_time: boo
     return {"startup": startup_plot(comparison, log_time=log_time, max_points=max_points),
             "steady": steady_plot(comparison, max_points=max_points),
             "duty": duty_plot(comparison), "stress": stress_plot(comparison), "loss": loss_plot(comparison)}
+
+
+# --------------------------------------------------------------------------- static output
+
+#: The page of :func:`standalone_html` may fetch nothing: scripts and styles are inline.
+_CSP = ("default-src 'none'; script-src 'unsafe-inline' 'unsafe-eval'; style-src 'unsafe-inline'; "
+        "img-src data: blob:; font-src data:; connect-src 'none'; base-uri 'none'; form-action 'none'")
+
+_PAGE_STYLE = ("body{font-family:system-ui,sans-serif;margin:1.5em auto;max-width:62em;padding:0 1em;color:#222}"
+               ".plot{margin:1.2em 0}")
+
+
+def _as_dict(plots) -> dict:
+    if isinstance(plots, Plot):
+        return {"plot": plots}
+    if isinstance(plots, dict):
+        return dict(plots)
+    return {f"plot {i + 1}": p for i, p in enumerate(plots)}
+
+
+def bokeh_js() -> str:
+    """BokehJS core (``bokeh.min.js``) as one inline ``<script>``: all the plots here need."""
+    from bokeh.resources import Resources
+    return Resources(mode="inline", components=["bokeh"]).render_js()
+
+
+def standalone_html(plots, title: str = "explorer plots", path=None) -> str:
+    """One self-contained HTML page of plots: BokehJS inline once, no network request.
+
+    Parameters
+    ----------
+    plots : Plot, dict of name to Plot, or a sequence of Plot
+        Shown in order, each under its name.
+    title : str
+    path : str or path-like, optional
+        Also write the page there.
+
+    Returns
+    -------
+    str
+        The page. A Content-Security-Policy in its head forbids every outside request.
+    """
+    from bokeh.embed import components
+    named = _as_dict(plots)
+    script, divs = components({name: p.figure for name, p in named.items()})
+    e = html.escape
+    body = "".join(f"<div class='plot' data-plot='{e(name)}'>{div}</div>" for name, div in divs.items())
+    page = (f"<!DOCTYPE html><html lang='en'><head><meta charset='utf-8'>"
+            f"<meta http-equiv='Content-Security-Policy' content=\"{_CSP}\">"
+            f"<title>{e(title)}</title><style>{_PAGE_STYLE}</style>{bokeh_js()}{script}</head>"
+            f"<body><h1>{e(title)}</h1>{body}</body></html>")
+    if path is not None:
+        with open(os.fspath(path), "w", encoding="utf-8") as fh:
+            fh.write(page)
+    return page
+
+
+# --------------------------------------------------------------------------- notebooks
+
+@functools.lru_cache(maxsize=1)
+def _bokeh_gzip_b64() -> str:
+    """``bokeh.min.js`` gzip-compressed (fixed mtime: the same bytes every run) in base64."""
+    from bokeh.util.paths import bokehjs_path
+    with open(os.path.join(bokehjs_path(), "js", "bokeh.min.js"), "rb") as fh:
+        raw = fh.read()
+    return base64.b64encode(gzip.compress(raw, compresslevel=9, mtime=0)).decode("ascii")
+
+
+def setup_html() -> str:
+    """The HTML :func:`setup_notebook` displays: BokehJS compressed, unpacked by the browser.
+
+    The script decodes the base64 text, inflates it with the browser's ``DecompressionStream``
+    (Chromium 80, Firefox 113, Safari 16.4 and later) and runs it; ``window.explorerBokeh`` is a
+    promise of the loaded ``Bokeh`` that each plot's output waits for. A page that already has this
+    Bokeh version keeps it.
+    """
+    from bokeh import __version__ as version
+    return (
+        "<div class='explorer-bokeh-setup' style='font-size:smaller;color:#555'>explorer: BokehJS "
+        f"{html.escape(version)} for the plots of this notebook (runs when the notebook is trusted).</div>"
+        "<script type='text/javascript'>(function () {"
+        f"var want = {json.dumps(version)};"
+        "if (window.explorerBokeh) return;"
+        "if (window.Bokeh && window.Bokeh.version === want) { window.explorerBokeh = Promise.resolve(window.Bokeh); return; }"
+        f"var b64 = \"{_bokeh_gzip_b64()}\";"
+        "window.explorerBokeh = (async function () {"
+        "var bin = atob(b64), bytes = new Uint8Array(bin.length);"
+        "for (var i = 0; i < bin.length; i++) bytes[i] = bin.charCodeAt(i);"
+        "var stream = new Blob([bytes]).stream().pipeThrough(new DecompressionStream('gzip'));"
+        "var text = await new Response(stream).text();"
+        "var s = document.createElement('script'); s.textContent = text; document.head.appendChild(s);"
+        "return window.Bokeh; })();"
+        "})();</script>")
+
+
+def setup_notebook() -> None:
+    """Make BokehJS available in this notebook, once (call in a cell before the first plot).
+
+    BokehJS (``bokeh.min.js``, 1.27 MB) inlined per plot would push a stored notebook over 1 MB;
+    here it is stored once, gzip-compressed in base64 (about 470 kB), and the browser unpacks it.
+    After this a :class:`Plot` as a cell's value shows itself, and ``jupyter_bokeh`` widgets find
+    ``window.Bokeh``. Notebooks run JavaScript only when trusted: a colleague who opens a notebook
+    received from elsewhere sees each plot's plain-text note until they trust it (``jupyter trust``);
+    the hand-off report (``python -m explorer report DESIGN --out report.html``) shows every plot
+    without a kernel and without trust.
+    """
+    from IPython.display import HTML, display
+    display(HTML(setup_html()))
+
+
+def notebook_html(plot: Plot) -> str:
+    """A plot as notebook HTML: a note that shows without JavaScript, replaced by the drawing.
+
+    The figure's document travels as JSON (``bokeh.embed.json_item``) in the output; the script
+    waits for the BokehJS of :func:`setup_notebook` (or any ``window.Bokeh``) and embeds it.
+    """
+    import uuid
+    el = uuid.uuid4().hex
+    item = json.dumps(json_item(plot.figure), separators=(",", ":")).replace("</", "<\\/")
+    title = getattr(getattr(plot.figure, "title", None), "text", "") or "plot"
+    return (
+        f"<div id='{el}' class='explorer-plot'><p style='font-size:smaller;color:#555'>[plot: "
+        f"{html.escape(title)}] Interactive (Bokeh): drawn when the notebook is trusted and "
+        "explorer.views.plots.setup_notebook() ran in an earlier cell; the hand-off report "
+        "(python -m explorer report) shows every plot without a kernel.</p></div>"
+        f"<script type='application/json' id='{el}-item'>{item}</script>"
+        "<script type='text/javascript'>(function () {"
+        f"var id = '{el}', tries = 0;"
+        "function draw(B) { var el = document.getElementById(id); if (!el || el.dataset.drawn) return;"
+        "el.dataset.drawn = '1'; el.innerHTML = '';"
+        "B.embed.embed_item(JSON.parse(document.getElementById(id + '-item').textContent), id); }"
+        "function wait() { if (window.explorerBokeh) { window.explorerBokeh.then(draw); return; }"
+        "if (window.Bokeh) { draw(window.Bokeh); return; }"
+        "if (++tries < 200) setTimeout(wait, 50); }"
+        "wait(); })();</script>")
