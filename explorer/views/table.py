@@ -10,7 +10,8 @@ import html
 
 from ..units import format_eng
 
-__all__ = ["CAUTION", "comparison_rows", "comparison_text", "comparison_html", "topology_text"]
+__all__ = ["CAUTION", "comparison_rows", "comparison_text", "comparison_html", "topology_text",
+           "side_by_side_rows", "side_by_side_html"]
 
 #: Shown under every comparison (see README "Safety").
 CAUTION = ("Caution: bus voltages in these circuits can be lethal and stored charge persists after "
@@ -149,3 +150,83 @@ def comparison_html(comparison) -> str:
             f"<p>ranking ({e(comparison.rank_words)}): {e(' > '.join(comparison.ranking()))}</p>"
             + (f"<ul>{warn}</ul>" if warn else "")
             + f"<p style='font-size:smaller'>{e(CAUTION)}</p></div>")
+
+
+# --------------------------------------------------------------------------- the panels' side-by-side table
+
+def _verdict_words(r) -> str:
+    return "holds" if r.feasible else r.verdict
+
+
+def _tightest(r) -> str:
+    c = r.worst_margin
+    if c is None:
+        return _DASH
+    unit = "" if c.unit in ("", "-") else f" {c.unit}"
+    return f"{c.text} (margin {c.margin:.3g}{unit})"
+
+
+def _worst_cap(r) -> str:
+    """The capacitor voltage check with the least margin; without ratings the highest voltage."""
+    cap = [c for c in r.checks if c.name.startswith("cap_voltage_")]
+    if cap:
+        c = min(cap, key=lambda c: c.margin / (abs(c.limit) or 1.0))
+        return f"{c.text}: {format_eng(c.value, 'V')} (margin {format_eng(c.margin, 'V')})"
+    if r.capacitors:
+        c = max(r.capacitors, key=lambda c: c.v_max)
+        return f"{c.name} {format_eng(c.v_max, 'V')} (no rating given)"
+    return _DASH
+
+
+#: The side-by-side table of the panels and the notebook summary: quantity → cell (rows of
+#: :data:`_ROWS` reused by name, so a figure reads the same in every view).
+_SIDE_BY_SIDE = (
+    ("verdict", _verdict_words),
+    ("tightest check", _tightest),
+    ("efficiency", dict(_ROWS)["efficiency"]),
+    ("overhead", dict(_ROWS)["overhead"]),
+    ("worst capacitor stress", _worst_cap),
+    ("start-up to UVLO", dict(_ROWS)["start-up to UVLO"]),
+    ("HS duty range", _duty),
+    ("limit, topology terms", dict(_ROWS)["limit, topology terms"]),
+    ("hold-up at 100 %", dict(_ROWS)["hold-up at 100 %"]),
+    ("warnings", lambda r: "; ".join(r.warnings) or "none"),
+)
+
+
+def side_by_side_rows(comparison) -> list[tuple[str, list[str]]]:
+    """Rows (quantity, one cell per option) of the panels' side-by-side table.
+
+    Verdict in words, the tightest check with its margin, efficiency and overhead, the worst
+    capacitor stress, time to UVLO, the duty range in HS terms and the topology's own, hold-up and
+    the warnings. Every figure is read from the result (nothing computed here).
+    """
+    def cell(fn, r):
+        try:
+            return fn(r)
+        except (AttributeError, TypeError):
+            return _DASH
+
+    return [(q, [cell(fn, r) for r in comparison.options]) for q, fn in _SIDE_BY_SIDE]
+
+
+def side_by_side_html(comparison, colors: dict | None = None) -> str:
+    """The side-by-side table as plain HTML (no JavaScript); ``colors``: label → CSS colour of its head."""
+    e = html.escape
+    colors = colors or {}
+    head = "".join(
+        f"<th data-label='{e(r.label)}' style='border-bottom:4px solid {e(colors.get(r.label, '#999'))};"
+        f"text-align:left;padding:2px 8px'>{e(r.label)}<br><span style='font-weight:normal'>{e(r.kind)}</span></th>"
+        for r in comparison.options)
+    body = []
+    for q, cells in side_by_side_rows(comparison):
+        tds = []
+        for r, c in zip(comparison.options, cells):
+            style = "padding:2px 8px;vertical-align:top"
+            if q == "verdict":
+                style += ";font-weight:bold;color:" + ("#1b5e20" if r.feasible else "#b71c1c")
+            tds.append(f"<td style='{style}'>{e(c)}</td>")
+        body.append(f"<tr><th style='text-align:left;padding:2px 8px;vertical-align:top'>{e(q)}</th>{''.join(tds)}</tr>")
+    return (f"<table class='explorer-side-by-side' style='border-collapse:collapse'><thead><tr><th></th>{head}</tr>"
+            f"</thead><tbody>{''.join(body)}</tbody></table>"
+            f"<p>ranking ({e(comparison.rank_words)}): {e(' > '.join(comparison.ranking()))}</p>")
