@@ -40,6 +40,10 @@ __all__ = ["ELV_DC_LIMIT", "DesignPanel", "OptionEditor", "ComparisonPanel", "Ex
 #: codes and licensed practice to say.
 ELV_DC_LIMIT = 60.0
 
+#: Most points per waveform a panel's plot carries (peaks and dips kept, see ``plots.thin``): keeps the
+#: updates quick and a stored notebook small.
+PLOT_POINTS = 1000
+
 #: Option kinds the editor offers, with the words on the add button's chooser.
 KIND_WORDS = {"bootstrap": "bootstrap", "charge_pump": "charge pump", "isolated": "isolated module"}
 
@@ -441,7 +445,7 @@ class ComparisonPanel(W.VBox):
             return
         if not self.plots:
             from jupyter_bokeh import BokehModel
-            self.plots = plots.comparison_plots(comparison)
+            self.plots = plots.comparison_plots(comparison, max_points=PLOT_POINTS)
             self.plot_views = {name: BokehModel(p.figure) for name, p in self.plots.items()}
             self.tabs.children = list(self.plot_views.values())
             for i, name in enumerate(self.plot_views):
@@ -471,7 +475,7 @@ def summary_html(comparison, *, plots: bool = True) -> str:
     mod = _plots_module() if plots else None
     if mod is not None:
         from bokeh.embed import components
-        script, divs = components({k: p.figure for k, p in mod.comparison_plots(comparison).items()})
+        script, divs = components({k: p.figure for k, p in mod.comparison_plots(comparison, max_points=PLOT_POINTS).items()})
         parts.append(script + "".join(f"<div data-plot='{_e(k)}'>{d}</div>" for k, d in divs.items()))
     text = json.dumps(design.to_dict(), indent=1, ensure_ascii=False, allow_nan=False)
     parts.append(f"<details><summary>design file (explorer-design JSON)</summary><pre class='explorer-design'>"
@@ -597,6 +601,9 @@ class Explorer(W.VBox):
         self._show_error(None)
         self._show_cautions(design)
         self.title.value = f"<h3 style='margin:4px 0'>{_e(design.title)}</h3>"
+        if self.result is not None and not self.evaluator.busy and design == self.result.design:
+            self._status(f"<span style='color:{_OK}'>\u2714 up to date</span> (the same design as shown)")
+            return
         self.evaluator.submit(design)
         if self.evaluator.busy:
             self._status("\u23f3 computing\u2026 (the numbers below are from the previous entry)")
