@@ -343,3 +343,17 @@ def test_plots_of_one_comparison_embed_in_separate_documents(comparisons):
     assert len(items) == 5
     page = plots.standalone_html(ps, title="t")
     assert page.count("Copyright (c) Anaconda") == 1 and "http://" not in page.split("</script>")[-1]
+
+
+@pytest.mark.parametrize("path", sorted((pathlib.Path(__file__).resolve().parent.parent / "notebooks").glob("*.ipynb")),
+                         ids=lambda p: p.stem)
+def test_stored_notebooks_carry_bokehjs_once_and_their_plots(path):
+    import json
+    nb = json.loads(path.read_text(encoding="utf-8"))
+    html = ["".join(o.get("data", {}).get("text/html", "")) for c in nb["cells"] if c["cell_type"] == "code"
+            for o in c["outputs"]]
+    assert sum("explorer-bokeh-setup" in h for h in html) == 1  # BokehJS stored once, compressed
+    drawn = [h for h in html if "class='explorer-plot'" in h]
+    assert len(drawn) >= 2
+    assert all("python -m explorer report" in h.split("<script", 1)[0] for h in drawn)  # the no-JS note
+    assert "Copyright (c) Anaconda" not in path.read_text(encoding="utf-8")  # never BokehJS uncompressed

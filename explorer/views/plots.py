@@ -103,6 +103,10 @@ class Plot:
     def _repr_html_(self) -> str:
         return notebook_html(self)
 
+    def __repr__(self) -> str:
+        title = getattr(getattr(self.figure, "title", None), "text", "") or type(self.figure).__name__
+        return f"<Plot {title!r}; sources: {', '.join(self.sources)}>"
+
 
 def option_colors(labels) -> dict:
     """Colour of each label by its position (``PALETTE``, repeating after eight)."""

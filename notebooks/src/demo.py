@@ -29,6 +29,47 @@ for r in result.options:
           f"efficiency {100 * r.efficiency:5.1f} %  overhead {format_eng(r.overhead, 'W'):>8s}")
 
 # %% [markdown]
+# ## Plots
+#
+# Interactive Bokeh plots of the same result. They are JavaScript: they draw when the notebook is trusted (a notebook received from someone else shows a short note in their place until you trust it, e.g. `jupyter trust demo.ipynb`). `python -m explorer report DESIGN --out report.html` gives a file with every plot that needs neither a kernel nor trust. `setup_notebook()` stores BokehJS once, compressed; long waveforms are thinned to 1500 points per option keeping every stretch's highest and lowest sample, so the stored notebook stays small.
+
+# %%
+from explorer.views import plots
+
+plots.setup_notebook()
+figures = plots.comparison_plots(result, max_points=1500, log_time=True)
+
+# %% [markdown]
+# Start-up from a dead rail on a logarithmic time axis (start-up times differ by orders of magnitude), with the UVLO thresholds and the required rail:
+
+# %%
+figures["startup"]
+
+# %% [markdown]
+# The steady-state rail over the analysis period, with the required minimum:
+
+# %%
+figures["steady"]
+
+# %% [markdown]
+# The feasible high-side duty of each option, the operating point, and the same share in the topology's own terms on the upper axis:
+
+# %%
+figures["duty"]
+
+# %% [markdown]
+# Voltage stress of each part against its rating and its derated rating (the check's limit), margin in volts:
+
+# %%
+figures["stress"]
+
+# %% [markdown]
+# Where each option's overhead goes, by mechanism (the tick is the overhead itself):
+
+# %%
+figures["loss"]
+
+# %% [markdown]
 # ## The whole envelope: worst corner and Monte Carlo
 #
 # Spreads come from each capacitor's tolerance and EIA-198 temperature class, the aux-rail tolerance and the design's `spread` section. Here we add a ±10 % gate-charge spread and a ±10 % diode forward-voltage spread to the demo (invented values).
@@ -46,6 +87,9 @@ mc = monte_carlo(d, "bootstrap 220n", 10_000, seed=1)
 print(f"P(rail < UVLO off) = {mc.p_trip:.4f}, 95 % interval {mc.ci[0]:.4f} .. {mc.ci[1]:.5f}")
 print(f"lowest sampled rail minimum {format_eng(mc.rail_min.min(), 'V')}")
 
+# %%
+plots.monte_carlo_plot(mc)
+
 # %% [markdown]
 # ## Where does the bootstrap stop holding?
 #
@@ -60,6 +104,12 @@ m = margin_map(design, "bootstrap 220n", f, u)
 print('f_sw \\ duty ' + ''.join(f'{x:>8.2f}' for x in u))
 for fi, row in zip(f, m.margin):
     print(f"{format_eng(fi, 'Hz'):>11s} " + ''.join(f'{x:8.2f}' for x in row))
+
+# %% [markdown]
+# The same map drawn (a finer grid), with the trip boundary (rail minimum = UVLO-off), the required rail and the design's own point:
+
+# %%
+plots.margin_map_plot(margin_map(design, "bootstrap 220n", np.geomspace(50e3, 1e6, 14), np.linspace(0.5, 1.0, 26)), design)
 
 # %% [markdown]
 # ## Sizing

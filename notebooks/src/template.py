@@ -59,6 +59,47 @@ result = explorer.evaluate(design)
 result
 
 # %% [markdown]
+# ## Plots
+#
+# Interactive Bokeh plots of the same result. They are JavaScript: they draw when the notebook is trusted (a notebook received from someone else shows a short note in their place until you trust it, e.g. `jupyter trust template.ipynb`). `python -m explorer report DESIGN --out report.html` gives a file with every plot that needs neither a kernel nor trust. `setup_notebook()` stores BokehJS once, compressed; long waveforms are thinned to 1500 points per option keeping every stretch's highest and lowest sample, so the stored notebook stays small.
+
+# %%
+from explorer.views import plots
+
+plots.setup_notebook()
+figures = plots.comparison_plots(result, max_points=1500, log_time=True)
+
+# %% [markdown]
+# Start-up from a dead rail on a logarithmic time axis (start-up times differ by orders of magnitude), with the UVLO thresholds and the required rail:
+
+# %%
+figures["startup"]
+
+# %% [markdown]
+# The steady-state rail over the analysis period, with the required minimum:
+
+# %%
+figures["steady"]
+
+# %% [markdown]
+# The feasible high-side duty of each option, the operating point, and the same share in the topology's own terms on the upper axis:
+
+# %%
+figures["duty"]
+
+# %% [markdown]
+# Voltage stress of each part against its rating and its derated rating (the check's limit), margin in volts:
+
+# %%
+figures["stress"]
+
+# %% [markdown]
+# Where each option's overhead goes, by mechanism (the tick is the overhead itself):
+
+# %%
+figures["loss"]
+
+# %% [markdown]
 # ## 3. The whole envelope: worst corner and Monte Carlo
 
 # %%
