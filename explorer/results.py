@@ -109,6 +109,10 @@ class DutyLimits(_Dict):
         Shortest LS on-time that still refreshes the rail (None: not needed).
     topology : dict
         The same limits in the topology's own terms (e.g. ``v_out_max`` for a buck).
+    hold_up_threshold : float or None [V]
+        The rail level ``hold_up`` counts down to (None: no hold-up limit).
+    hold_up_to : str or None
+        Which threshold that is, in words (e.g. the required rail max(UVLO-off, V_GS needed) + margin).
     """
 
     min: float | None
@@ -116,6 +120,8 @@ class DutyLimits(_Dict):
     hold_up: float | None
     t_ls_min: float | None = None
     topology: dict = field(default_factory=dict)
+    hold_up_threshold: float | None = None
+    hold_up_to: str | None = None
 
 
 @dataclass(frozen=True)

@@ -110,7 +110,7 @@ class RailMargin(_Rule):
             rail, where = w.rail_min, f"at the worst corner ({w.corner})"
         else:
             r = ctx.result(label)
-            rail, where = r.v_rail.min, "at nominal"
+            rail, where = (r.v_rail.min if r.v_rail is not None else 0.0), "at nominal"  # never refreshed: 0 V
         return Check("rail_margin", rail - threshold, self.margin, "min", "V",
                      f"rail minimum {format_eng(rail, 'V')} {where} is {rail - threshold:+.3g} V from "
                      f"{self.above} {format_eng(threshold, 'V')}; required \u2265 {self.margin:g} V")

@@ -180,8 +180,11 @@ def worst_case(design: Design, label: str) -> WorstCase:
     rows = []
     for name, f in corner_factors(design, label):
         r = _evaluate(apply_factors(design, label, f), label)
-        if r.v_rail is None:
+        if r.error is not None:
             raise DesignError(f"options[{label}]", f"cannot be evaluated at corner {name}: {r.error}")
+        if r.v_rail is None:  # never refreshed (HS on throughout): the rail is not held, it reads 0 V
+            rows.append((name, f, 0.0, max((c.v_max for c in r.capacitors), default=0.0)))
+            continue
         rows.append((name, f, r.v_rail.min, r.v_rail.max))
     worst = min(rows, key=lambda x: x[2])
     high = max(rows, key=lambda x: x[3])

@@ -396,7 +396,7 @@ def test_duty_limit_is_where_the_minimum_meets_the_requirement():
     assert 0 < h < 1
     need = r.details.required_rail
     m = rail_min_map(d, d.options[0], d.bridge.f_sw, [h - 1e-3, h + 1e-3])
-    assert m[0] >= need > m[1]
+    assert m[0] >= need and not m[1] >= need  # NaN above: the HS is on throughout, never refreshed
     assert r.duty.topology["v_out_max"] == pytest.approx(h * d.bridge.v_bus, rel=1e-12)
 
 

@@ -67,12 +67,12 @@ def _startup_reference(design):
     s = startup_schedule(design)
     drv = design.driver
     v, on = 0.0, False
-    prev_l, prev_h = circ.v_sw_low, False
+    prev_l, prev_h = s.v_rest, False  # where the switch node rests before start-up
     out = np.empty(len(s))
     delivered = np.zeros(len(s), dtype=bool)
     for k in range(len(s)):
         hs = bool(s.hs_on[k] and on)
-        lvl = circ.v_sw_low if (s.hs_on[k] and not on) else float(s.v_sw[k])
+        lvl = float(s.v_hold[k]) if (s.hs_on[k] and not on) else float(s.v_sw[k])  # a withheld pulse: SW held
         lp = schedule_loop(circ, s.dt[k:k + 1], [lvl], [hs], periodic=False, v_prev0=prev_l, hs_prev0=prev_h)
         v0 = v - float(np.atleast_1d(lp.q_step)[0]) / circ.c
         v1 = float(interval_map(np.array([v0]), lp)[0][0])

@@ -114,3 +114,31 @@ def test_line_leg_holds_switch_node_at_bus():
     r = _evaluate(d)
     assert r.details.startup_v_sw_hold == 48.0
     assert "bus" in r.details.startup_sw_hold
+
+
+@pytest.mark.ngspice
+def test_hold_up_at_full_command_with_gate_pull_down(ngspice):
+    """Hold-up at 100 % command with R_GS: a finite time down to the stated threshold, not 0 s.
+
+    The rail starts at its charge target V_DD − V_F, loses Q_G + Q_LS + C_j·V_bus at the turn-on and then
+    decays through R_GS with I_Q + I_leak. Closed form of the first-order circuit
+    t = R·C·ln((V₀ + I·R)/(V_th + I·R)) (Alexander & Sadiku, *Fundamentals of Electric Circuits*,
+    6th ed., 2017, ch. 7) and a hand-written ngspice netlist of the same C, R_GS and current source.
+    """
+    d = replace_fields(explorer.demo_design(), {"bridge.topology": "full_bridge", "bridge.duty": 1.0,
+                                               "bridge.v_out": None})
+    r = _evaluate(d)
+    assert r.v_rail is None and not any("collapses" in w for w in r.warnings)
+    c = r.details.c_eff
+    v0 = 12.0 - 0.55 - (40e-9 + 1e-9 + 15e-12 * 48.0) / c     # V_DD − V_F − (Q_G + Q_LS + C_j·V_bus)/C
+    i, rg = 100e-6 + 1e-6, 100e3                              # I_Q + I_leak, R_GS of the demo
+    closed = {th: rg * c * math.log((v0 + i * rg) / (th + i * rg)) for th in (8.5, 7.8)}
+    net = "\n".join(["hold-up through R_GS, written by hand", f"C1 b 0 {c:.12g} IC={v0:.12g}",
+                     f"RGS b 0 {rg:g}", f"IQ b 0 DC {i:.12g}", ".options reltol=1e-6",
+                     f".tran 1e-6 {1.5 * closed[7.8]:.12g} uic"])
+    out = run_transient(net, ["v(b)"])
+    for th, t_model in ((8.5, r.duty.hold_up), (7.8, r.details.hold_up_uvlo_off)):
+        t_sp = _crossing(out["time"], -out["v(b)"], -th)
+        assert t_model == pytest.approx(closed[th], rel=1e-9)
+        assert t_model == pytest.approx(t_sp, rel=1e-3)
+    assert r.duty.hold_up_threshold == 8.5 and "required rail" in r.duty.hold_up_to

@@ -676,7 +676,7 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
                           g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
                           n_vt=loop.n_vt, v_guess=None if g_flat is None else g_flat[a:a + _MAP_BLOCK])
-        out[a:a + _MAP_BLOCK] = orb.v_min
+        out[a:a + _MAP_BLOCK] = np.where(_refresh_mask(loop, orb), orb.v_min, np.nan)
         if full:
             parts.append(orb)
     if full:
@@ -1051,7 +1051,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     for msg in _validity_messages(design, circ):
         warnings.warn(msg, ModelValidityWarning, stacklevel=2)
         warn.append(msg)
-    refreshed = bool(np.isfinite(orb.v_min))
+    refreshed = _is_refreshed(ss)
     if refreshed:
         ints = ss.integrals
         v_min, v_max = float(orb.v_min), float(orb.v_max)
@@ -1108,23 +1108,19 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     # ---- duty limits
     h_need, h_uvlo = _duty_limit(design, circ, [need, drv.uvlo_off])
     h_min = min(1.0, drv.t_on_min / _period(design))
-    # hold-up at 100 % duty from the steady-state maximum
+    # hold-up at 100 % duty from the steady-state maximum (the full charge target if never refreshed)
     v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
     q_edge = circ.q_on + circ.q_rr + circ.c_j * (b.v_bus - circ.v_sw_low)
-    v_after = v_top - q_edge / circ.c
-    if v_after <= need:
-        hold = 0.0
-    else:
-        hold = float(_off_time_to(np.array(v_after), np.array(need), np.array(circ.i_q + circ.i_leak),
-                                  np.array(circ.g_gs), np.array(circ.c)))
-        hold = None if not math.isfinite(hold) else hold
+    hold, hold_uvlo = (hold_up_time(v_top, q_edge, th, i_load=circ.i_q + circ.i_leak, g_load=circ.g_gs, c=circ.c)
+                       for th in (need, drv.uvlo_off))
+    extra["hold_up_uvlo_off"] = hold_uvlo
     T_sw = _period(design)
     t_ls_min = None if h_need is None else max(0.0, (1.0 - h_need) * T_sw - 2 * b.dead_time)
     if light_load(b) and h_need is not None:
         t_ls_min = _ls_pulse_min(design, circ, need)
     topo = _topology_terms(design, circ, h_need, need, v_min)
     duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
-                      t_ls_min=t_ls_min, topology=topo)
+                      t_ls_min=t_ls_min, topology=topo, hold_up_threshold=need, hold_up_to=HOLD_UP_TO)
     extra["duty_max_uvlo_off"] = h_uvlo
     op_duty = float(np.max(sched.duty))
     f_txt = _fmt(analysis_frequency(b), "Hz")
@@ -1211,6 +1207,55 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
                         startup=start, duty=duty, r_out=None, capacitors=caps, p_drawn_aux=p_aux,
                         p_drawn_bus=p_bus, losses=losses, checks=tuple(checks), details=BootstrapDetails(**extra),
                         assumptions=tuple(assumptions), t=t_wave, v=v_wave)
+
+
+#: What ``DutyLimits.hold_up`` of a bootstrap counts down to (``hold_up_threshold`` gives the value;
+#: the time to UVLO-off is ``BootstrapDetails.hold_up_uvlo_off``).
+HOLD_UP_TO = "required rail: max(UVLO-off, V_GS needed) + margin"
+
+
+def _is_refreshed(ss: SteadyState) -> bool:
+    """The diode delivers charge in the periodic steady state.
+
+    A finite orbit is not enough: with a gate pull-down R_GS a never-refreshed rail still has a
+    fixed point (the load's own, V = −I·R_GS, below 0 V), which is a decay to nothing, not a
+    refreshed orbit.
+    """
+    if not np.all(np.isfinite(ss.orbit.v_start)):
+        return False
+    return bool(_refresh_mask(ss.loop, ss.orbit))
+
+
+def _refresh_mask(loop: Loop, orb: OrbitSolution) -> np.ndarray:
+    """Where the diode conducts somewhere in the orbit (shape of the orbit's rows; see :func:`_is_refreshed`).
+
+    An interval conducts where the rail dips below its conduction level: V_src − V_F for the
+    straight-line diode, V_src (forward bias) for the junction. The rail is monotone within an
+    interval, so its start (after the step) and its end tell; zero-length intervals do not count.
+    """
+    lp = _bc(loop)
+    level = lp.v_src - (lp.v_f if loop.diode == "linear" else 0.0)
+    low = np.minimum(orb.v_start, orb.v_end)
+    return np.any((low < level) & (lp.dt > 0), axis=-1)
+
+
+def hold_up_time(v_top: float, q_edge: float, v_threshold: float, *, i_load: float, g_load: float,
+                 c: float) -> float | None:
+    """Time a rail stays above ``v_threshold`` with the HS held on, never refreshed [s].
+
+    The rail starts at ``v_top`` [V] and loses ``q_edge`` [C] at the turn-on (gate, level shift,
+    recovery, junction charge); then C·dV/dt = −I − V·g (constant current ``i_load`` [A] and the
+    pull-down conductance ``g_load`` = 1/R_GS [S]), the first-order response
+    V(t) = (V₀ + I/g)·exp(−g·t/C) − I/g, so t = (C/g)·ln((V₀ + I/g)/(V_th + I/g)), and
+    t = C·(V₀ − V_th)/I without a pull-down (Alexander & Sadiku, *Fundamentals of Electric
+    Circuits*, 6th ed., 2017, ch. 7, first-order circuits). 0 when the turn-on step already takes it
+    below the threshold; None when it never gets there (no load at all).
+    """
+    v0 = v_top - q_edge / c
+    if v0 <= v_threshold:
+        return 0.0
+    t = float(_off_time_to(np.array(v0), np.array(v_threshold), np.array(i_load), np.array(g_load), np.array(c)))
+    return t if math.isfinite(t) else None
 
 
 def _first_hold(s: Schedule) -> float | None:
@@ -1304,7 +1349,7 @@ def rail_min_batch(design: Design, option: BootstrapOption, factors) -> np.ndarr
     s = period_schedule(design)
     loop = schedule_loop(circ, s.dt[None, :], s.v_sw[None, :], s.hs_on[None, :], periodic=True)
     orb = _solve_orbit(_bc(loop))
-    v_min = np.asarray(orb.v_min, dtype=float).reshape(n)
+    v_min = np.where(_refresh_mask(loop, orb), np.asarray(orb.v_min, dtype=float), np.nan).reshape(n)
     return np.where(v_min < 0.0, 0.0, v_min)
 
 

@@ -51,6 +51,9 @@ class BootstrapDetails(Details):
     v_min_model : float or None [V]
         The model's steady-state rail minimum when it falls below 0 V (the reported minimum then
         reads 0 V); None otherwise.
+    hold_up_uvlo_off : float or None [s]
+        Hold-up at 100 % duty down to UVLO-off (where the driver stops), from the same start as
+        ``duty.hold_up`` (which counts down to the required rail); None: indefinitely.
     startup_v_sw_hold : float or None [V]
         Where the switch node rests while UVLO withholds the first high-side pulses of start-up
         (the topology's rule or ``bridge.v_sw_hold``).
@@ -72,6 +75,7 @@ class BootstrapDetails(Details):
     q_diode_per_period: float | None = None
     energy_switch_node: float | None = None
     v_min_model: float | None = None
+    hold_up_uvlo_off: float | None = None
     startup_v_sw_hold: float | None = None
     startup_sw_hold: str = ""
 

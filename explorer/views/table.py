@@ -79,7 +79,8 @@ _ROWS = (
     ("inrush peak", lambda r: format_eng(r.startup.i_peak, "A")),
     ("HS duty range", _duty),
     ("limit, topology terms", lambda r: topology_text(r.duty.topology)),
-    ("hold-up at 100 %", lambda r: "unlimited" if r.duty.hold_up is None else format_eng(r.duty.hold_up, "s")),
+    ("hold-up at 100 %", lambda r: "unlimited" if r.duty.hold_up is None else format_eng(r.duty.hold_up, "s") + (
+        "" if r.duty.hold_up_threshold is None else f" to {format_eng(r.duty.hold_up_threshold, 'V')}")),
     ("R_out", lambda r: format_eng(r.r_out, "\u03a9")),
     ("cap V_max / rating", _caps),
     ("warnings", lambda r: str(len(r.warnings))),

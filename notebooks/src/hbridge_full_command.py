@@ -92,7 +92,7 @@ print(f"standing drain with the high side on: about {format_eng(standing, 'A')} 
 # %% [markdown]
 # ## Verdict
 #
-# At 100 % command the bootstrap rail **collapses**: with the high side on and no low-side pulse,
+# At 100 % command the bootstrap rail **is never refreshed**: with the high side on and no low-side pulse,
 # a 2.2 µF capacitor lasts a few tens of milliseconds on a standing drain of about a quarter of a
 # milliampere, so full command is a transient the bootstrap survives only briefly, and the bridge
 # must drop the command below about 99 % (the highest that still refreshes) well within that time.
@@ -103,6 +103,7 @@ print(f"standing drain with the high side on: about {format_eng(standing, 'A')} 
 
 # %%
 assert not result[boot].feasible and result["pump 1:1"].feasible
+assert result[boot].v_rail is None and 10e-3 < result[boot].duty.hold_up < 100e-3  # lasts tens of ms
 assert result["pump 1:1"].duty.max == 1.0 and result["pump 1:1"].duty.hold_up is None
 assert result["pump 1:1"].overhead < 10e-3
 running = explorer.evaluate(explorer.replace_field(design, "bridge.duty", 0.95))[boot]
