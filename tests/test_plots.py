@@ -357,3 +357,10 @@ def test_stored_notebooks_carry_bokehjs_once_and_their_plots(path):
     assert len(drawn) >= 2
     assert all("python -m explorer report" in h.split("<script", 1)[0] for h in drawn)  # the no-JS note
     assert "Copyright (c) Anaconda" not in path.read_text(encoding="utf-8")  # never BokehJS uncompressed
+
+
+def test_report_copies_no_plot_script_from_a_notebook_and_says_so(comparisons):
+    from explorer.views.report import _output
+    p = plots.steady_plot(comparisons["demo"])
+    out = _output({"output_type": "execute_result", "data": {"text/html": p._repr_html_(), "text/plain": repr(p)}})
+    assert "<script" not in out and "a plot in the notebook" in out and "Steady-state rail" in out

@@ -2,7 +2,7 @@
 
 :func:`report_html` turns a design (and, where given, its design rules and a filled notebook)
 into one HTML document: the cautions, each option's verdict and checks, the comparison table,
-the rules and their status, the plots (BokehJS inline, once), the notebook's cells and outputs,
+the rules and their status, the plots (BokehJS core inline, once), the notebook's cells and outputs,
 and, in ``<script type="application/json">`` blocks, the design file itself, the
 ``explorer-result`` JSON of the evaluation and the rules. :func:`read_report` gives those
 blocks back, so ``load_design(read_report(path)["design"])`` reproduces the report's numbers.
@@ -103,9 +103,8 @@ def _plots(comparison: Comparison) -> tuple[str, str]:
     """(head scripts, body) of the comparison plots: BokehJS inline once, one div per plot."""
     try:
         from bokeh.embed import components
-        from bokeh.resources import INLINE
 
-        from .plots import comparison_plots
+        from .plots import bokeh_js, comparison_plots
     except ModuleNotFoundError as e:
         if not (e.name or "").startswith(("bokeh", "explorer.views.plots")):
             raise
@@ -116,7 +115,7 @@ def _plots(comparison: Comparison) -> tuple[str, str]:
     script, divs = components({name: p.figure for name, p in plots.items()})
     body = "".join(f"<div class='plot' data-plot='{_e(name)}'><h3>{_e(name)}</h3>{div}</div>"
                    for name, div in divs.items())
-    return INLINE.render_js() + script, f"<div class='plots'>{body}</div>"
+    return bokeh_js() + script, f"<div class='plots'>{body}</div>"
 
 
 def _markdown(text: str) -> str:
@@ -143,6 +142,9 @@ def _output(o: dict) -> str:
                           or k == "application/javascript" for k in data)
         note = " <i>(interactive output in the notebook; its plots are drawn in this report's Plots section)</i>" \
             if interactive else ""
+        if "class='explorer-plot'" in page:  # a plot of explorer.views.plots: its script is not copied
+            note = (" <i>(a plot in the notebook, drawn there; the comparison's plots are drawn in this "
+                    "report's Plots section)</i>")
         return f"<pre>{_e(''.join(data['text/plain']))}</pre>{note}"
     return ""
 
