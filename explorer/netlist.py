@@ -66,8 +66,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .bootstrap_engine import thermal_voltage
 from .design import BootstrapOption, ChargePumpOption, Design, IsolatedOption, JunctionDiode
+from .engines.rail_loop import thermal_voltage
 from .errors import DesignError
 from .loads import charge_per_turn_on
 from .schedule import Schedule, period_schedule, startup_schedule
@@ -124,7 +124,7 @@ class NetlistPlan:
         Start of the last ``STEADY_PERIODS`` analysis periods (steady-state window).
     t_pump0 : float [s]
         Start of the pump clock's first phase (0 for the other kinds): :data:`PUMP_DELAY`
-        pump periods plus the control edge of :func:`explorer.scnet.spice_t0`.
+        pump periods plus the control edge of :func:`explorer.engines.spice_text.spice_t0`.
     t_uvlo_model : float or None [s]
         Model's time to UVLO-on, in the netlist's time frame.
     result : OptionResult
@@ -185,7 +185,7 @@ def netlist_plan(design: Design, label: str, *, n_cycles: int | None = None,
     t_uvlo = result.startup.t_uvlo if result.startup is not None else None
     durations = model.netlist_clock(design, option)
     if durations is not None:
-        from .scnet import spice_t0
+        from .engines.spice_text import spice_t0
         # a quarter period late, so that for commensurate clocks the pump's edges do not fall on
         # the PWM's (a coincidence shifts ngspice's rail by about 0.05 %; the clocks are asynchronous)
         t_pump0 = PUMP_DELAY * float(durations.sum()) + spice_t0(durations)
@@ -390,14 +390,14 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
 def pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> list[str]:
     """SPICE lines of a charge pump (its model's netlist writer)."""
     from .options.charge_pump import CIRCUITS, pump_durations
-    from .scnet import spice_t0
+    from .engines.spice_text import spice_t0
     circ = CIRCUITS[option.ratio]
     r = plan.result
     v_in = option.v_in if option.v_in is not None else design.aux.v_dd
     d = pump_durations(option.f_cp, option.dead_time_cp)
     t_cp = float(d.sum())
     t0 = plan.t_pump0
-    tr = spice_t0(d)  # control edges: 1e-2 of the shortest phase, as explorer.scnet.to_spice
+    tr = spice_t0(d)  # control edges: 1e-2 of the shortest phase, as explorer.engines.spice_text.to_spice
     domain_crossing = circ.ratio == "1:1"
     ref_in = "0" if domain_crossing else "vs"
     lines = [f"* --- charge pump {circ.ratio} clocked at {_n(option.f_cp)} Hz "

@@ -23,8 +23,12 @@ from scipy.integrate import solve_ivp
 from scipy.special import wrightomega
 
 from explorer import demo_design, load_design, replace_field
-from explorer.bootstrap_engine import (Loop, affine_scan, interval_integrals, junction_current, junction_map,
-                                       linear_map, propagate, thermal_voltage, wright_omega)
+from explorer.engines.affine import affine_scan
+from explorer.engines.rail_integrals import interval_integrals
+from explorer.engines.rail_junction import junction_current, junction_map, wright_omega
+from explorer.engines.rail_linear import linear_map
+from explorer.engines.rail_loop import Loop, thermal_voltage
+from explorer.engines.rail_orbit import propagate
 from explorer.errors import DesignError
 from explorer.options.bootstrap import (bootstrap_circuit, evaluate_option, rail_min_map, startup,
                                         steady_state)
@@ -140,8 +144,9 @@ def test_junction_integrals_match_solve_ivp(vs, v0, dt, I):
     assert ints["i2_d"][0] == pytest.approx(ref["i2_d"], rel=1e-9, abs=1e-12 * scale_i2)
     assert ints["e_d"][0] >= 0.0
     assert ints["e_d"][0] == pytest.approx(ref["e_d"], rel=1e-9, abs=1e-12 * vs * (abs(ints["q_d"][0]) + I * dt))
-    from explorer.bootstrap_engine import _broadcast_loop, _junction_integrals
-    own = _junction_integrals(np.array([v0]), ints["v1"], _broadcast_loop(loop), np.array([R - r_s]))
+    from explorer.engines.rail_integrals import junction_integrals
+    from explorer.engines.rail_loop import broadcast_loop
+    own = junction_integrals(np.array([v0]), ints["v1"], broadcast_loop(loop), np.array([R - r_s]))
     assert own["int_v2"][0] == pytest.approx(ref["int_v2"], rel=1e-11)
 
 
@@ -150,13 +155,13 @@ def test_junction_integrals_match_solve_ivp(vs, v0, dt, I):
 def test_bose_moments_match_quad(a, b):
     # source: scipy.integrate.quad of uⁿ·u/(eᵘ − 1), n = 0, 1
     from scipy.integrate import quad
-    from explorer.bootstrap_engine import _bose_moments
+    from explorer.engines.rail_integrals import bose_moments
     for n in (0, 1):
         f = lambda u: (u ** n) * (u / math.expm1(u) if u != 0 else 1.0)  # noqa: E731
         lo, hi = min(a, b), max(a, b)
         ref, _ = quad(f, lo, hi, epsabs=0, epsrel=1e-13, limit=500, points=[0.0] if lo < 0 < hi else None)
         ref = ref if a <= b else -ref
-        assert _bose_moments(np.array([a]), np.array([b]), n)[0] == pytest.approx(ref, rel=1e-12)
+        assert bose_moments(np.array([a]), np.array([b]), n)[0] == pytest.approx(ref, rel=1e-12)
 
 
 def test_junction_map_settling_from_below_the_load_current_matches_solve_ivp():

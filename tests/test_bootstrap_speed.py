@@ -10,7 +10,8 @@ import numpy as np
 import pytest
 
 from explorer import demo_design, load_design
-from explorer.bootstrap_engine import Loop, _broadcast_loop, interval_map
+from explorer.engines.rail_loop import Loop, broadcast_loop
+from explorer.engines.rail_orbit import interval_map
 from explorer.options.bootstrap import (_ffill_levels, bootstrap_circuit, evaluate_option, schedule_loop, steady_state,
                                         startup)
 from explorer.schedule import startup_schedule
@@ -157,7 +158,7 @@ def test_junction_steady_orbit_is_a_fixed_point_of_the_exact_maps(case):
     # below 1e-12 of the rail, also after the mismatch is amplified by 1/(1 − S) (S the period's slope)
     d = _variant(junction=True, **ORBITS[case])
     ss = steady_state(d, d.options[0])
-    lp = _broadcast_loop(ss.loop)
+    lp = broadcast_loop(ss.loop)
     v = ss.orbit.v_pre[0]
     n = len(lp.dt)
     seq = np.empty(n)
@@ -180,7 +181,7 @@ import warnings  # noqa: E402
 
 from scipy.integrate import solve_ivp  # noqa: E402
 
-from explorer.bootstrap_engine import junction_current  # noqa: E402
+from explorer.engines.rail_junction import junction_current  # noqa: E402
 from explorer.errors import ModelValidityWarning  # noqa: E402
 
 FUZZ = os.path.join(os.path.dirname(__file__), "reference", "bootstrap", "fuzz")
@@ -210,7 +211,7 @@ def test_fuzz_junction_mean_rail_matches_solve_ivp():
     # the rail falls with the diode current far below the load and settles at equilibrium within rounding
     d = _fuzz("bootstrap-uvlo-hiccup-slow-startup.json")
     ss = steady_state(d, d.options[0])
-    lp = _broadcast_loop(ss.loop)
+    lp = broadcast_loop(ss.loop)
     for k in range(len(lp.dt)):
         if lp.v_src[k] <= 0:
             continue
@@ -229,7 +230,7 @@ def test_fuzz_orbit_tangent_is_not_carried_across_the_diode_knee():
     # period, and the exact maps stepped one interval at a time (the orbit is their fixed point)
     d = _fuzz("bootstrap-orbit-tangent-across-knee.json")
     ss = _assert_orbit_balances_charge(d)
-    lp = _broadcast_loop(ss.loop)
+    lp = broadcast_loop(ss.loop)
     for k in range(len(lp.dt)):
         v1, _ = interval_map(ss.orbit.v_start[k:k + 1], _one_interval(lp, k))
         assert v1[0] == pytest.approx(ss.orbit.v_end[k], rel=1e-12)
@@ -287,9 +288,10 @@ def _loaded_junction_cases():
 def test_junction_with_pulldown_matches_solve_ivp(case):
     # source: scipy.integrate.solve_ivp (LSODA, rtol 1e-12) on C·dV/dt = i_d(V) − I − G·V with the exact
     # Lambert-W diode current, ∫V dt and ∫i_d dt as extra states
-    from explorer.bootstrap_engine import interval_integrals, junction_map
+    from explorer.engines.rail_integrals import interval_integrals
+    from explorer.engines.rail_junction import junction_map
     v0 = case.pop("v0")
-    lp = _broadcast_loop(Loop(dt=np.array([case.pop("dt")]), v_src=np.array([case.pop("v_src")]),
+    lp = broadcast_loop(Loop(dt=np.array([case.pop("dt")]), v_src=np.array([case.pop("v_src")]),
                               diode="junction", **case))
     v1, slope = junction_map(np.array([v0]), lp)
     ints = interval_integrals(np.array([v0]), lp)

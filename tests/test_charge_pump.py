@@ -13,7 +13,7 @@ from explorer.errors import DesignError, ModelValidityWarning
 from explorer.options.charge_pump import (CIRCUITS, evaluate_option, pulse_train_extremes, pump_durations,
                                           pump_network, r_fsl, r_out_engine, r_out_exact, r_out_limits,
                                           r_out_sqrt, r_ssl, rail_from_r_out)
-from explorer.scnet import periodic_steady_state
+from explorer.engines.periodic import periodic_steady_state
 
 
 @pytest.fixture

@@ -13,7 +13,7 @@ import pytest
 from numpy.testing import assert_allclose
 
 from explorer.options.charge_pump import pump_durations, r_out_engine
-from explorer.scnet import startup
+from explorer.engines.startup import startup
 from explorer.spice import run_transient
 
 HERE = os.path.join(os.path.dirname(__file__), "reference", "charge_pump")

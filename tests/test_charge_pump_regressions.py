@@ -13,7 +13,7 @@ from numpy.testing import assert_allclose
 
 from explorer import load_design
 from explorer.options.charge_pump import CIRCUITS, evaluate_option, pump_durations, pump_network
-from explorer.scnet import periodic_steady_state
+from explorer.engines.periodic import periodic_steady_state
 
 # fuzz finding charge_pump-charge-imbalance-slow-output: a 0.13 mΩ flying-capacitor ESR beside a slow
 # output (C_out 133 µF, R_GS share 200 kΩ): charge imbalance 1.2e-4 from the 1/ESR stamp before the fix

@@ -237,12 +237,13 @@ def _pulse_scenario(f_cp):
 
 def _ngspice_rail_min(d, phase):
     """Lowest rail over the last two pulse periods of an ngspice transient of the pump with the gate-charge
-    pulse train: the model's own netlist (explorer.scnet.to_spice, from its parameters) plus a current pulse of
+    pulse train: the model's own netlist (explorer.engines.spice_text.to_spice, from its parameters) plus a current pulse of
     charge Q_G + Q_LS (10 ns) at each HS turn-on, ``phase`` [s] after the start of a pump cycle; started from the
     model's periodic state under the average load and run for 12 time constants R_out·C_out."""
     from explorer.loads import charge_per_turn_on
     from explorer.options.charge_pump import _resolve, pump_network
-    from explorer.scnet import periodic_steady_state, spice_t0, to_spice
+    from explorer.engines.periodic import periodic_steady_state
+    from explorer.engines.spice_text import spice_t0, to_spice
     from explorer.spice import run_transient, spice_number
 
     o = d.options[PUMP]

@@ -55,7 +55,7 @@ from strategies import KINDS, TOPOLOGIES, designs, nonfinite_paths
 FUZZ_EXAMPLES = 10_000
 #: Relative tolerance of the charge balance (issue 7).
 CHARGE_RTOL = 1e-9
-#: Relative tolerance to which the bootstrap engine closes a periodic orbit (bootstrap_engine._solve_orbit).
+#: Relative tolerance to which the bootstrap engine closes a periodic orbit (engines.rail_orbit.solve_orbit).
 ORBIT_TOL = 1e-13
 #: Start-up cycles drawn in the long run (short, so that 10⁴ examples fit in about five minutes).
 FUZZ_STARTUP_CYCLES = (10, 30)

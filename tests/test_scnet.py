@@ -19,8 +19,10 @@ from numpy.testing import assert_allclose
 from scipy.integrate import solve_ivp
 
 from explorer.errors import DesignError
-from explorer.scnet import (Cap, ISrc, Network, Res, VSrc, periodic_steady_state, phase_square_integrals,
-                            startup)
+from explorer.engines.elements import Cap, ISrc, Res, VSrc
+from explorer.engines.network import Network
+from explorer.engines.periodic import periodic_steady_state, phase_square_integrals
+from explorer.engines.startup import startup
 
 C1, C2, R, RS, ESR2, V, I = 1e-6, 2.2e-6, 0.5, 2.0, 0.05, 10.0, 0.2
 D = np.array([3e-6, 0.5e-6, 2e-6])  # share, dead, charge

@@ -1,4 +1,4 @@
-"""Start-up over many cycles without stepping (explorer.scnet.StartupTransient).
+"""Start-up over many cycles without stepping (explorer.engines.transient.StartupTransient).
 
 References:
 * stepping: the cycle-to-cycle recurrence x_{k+1} = Φ·x_k + Γ·u run one cycle at a time,
@@ -17,7 +17,9 @@ from scipy.optimize import brentq
 
 from explorer.errors import DesignError
 from explorer.options.charge_pump import pump_durations, pump_network
-from explorer.scnet import StartupTransient, cycle_map, startup
+from explorer.engines.network import cycle_map
+from explorer.engines.startup import startup
+from explorer.engines.transient import StartupTransient
 
 #: (ratio, c_fly, c_out, r_on, f_cp, dead time, v_in, i_q, threshold): scenarios of our own invention
 #: spanning the slow- and fast-switching limits, a flying capacitor above and far below C_out,
@@ -215,7 +217,7 @@ def test_startup_extremes_bound_and_meet_the_stepped_cycles(design):
 
 
 def test_states_equal_the_closed_form_of_startup():
-    # the cycle-start states agree with explorer.scnet.startup (eigen-decomposition) and with stepping
+    # the cycle-start states agree with explorer.engines.startup.startup (eigen-decomposition) and with stepping
     net, d, u = build("2:1", 220e-9, 1e-6, 1.0, 5e5, 20e-9, 24.0, 1e-2)
     ks = np.arange(40)
     tr = StartupTransient(net, d, u)

@@ -11,7 +11,7 @@ junction-capacitance charge C_j·Δv_sw at every SW level change (it returns at
 the falling edge, so it costs energy but no net charge).
 
 The exact per-interval maps and their composition live in
-:mod:`explorer.bootstrap_engine`; this module turns a design and an option
+:mod:`explorer.engines` (rail_*); this module turns a design and an option
 into intervals and derives every figure of :class:`~explorer.results.OptionResult`.
 
 Public functions
@@ -21,14 +21,14 @@ evaluate_option(design, option, corner="nominal")
 bootstrap_circuit(design, option, corner="nominal")
     The option's loop parameters at a corner (effective C, resistances, diode).
 schedule_loop(circuit, dt, v_sw, hs_on, ...)
-    The :class:`~explorer.bootstrap_engine.Loop` of any interval arrays.
+    The :class:`~explorer.engines.rail_loop.Loop` of any interval arrays.
 steady_state(design, option, corner="nominal")
     Periodic orbit over :func:`~explorer.schedule.period_schedule`.
 startup(design, option, corner="nominal")
     Start-up from 0 V with HS pulses withheld until UVLO-on.
 rail_min_map(design, option, f_sw, duty, corner="nominal")
     Vectorised steady-state rail minimum over a grid of f_sw × HS duty
-    (one call of :func:`explorer.bootstrap_engine.steady_rail`; more than 10⁶
+    (one call of :func:`explorer.engines.rail_orbit.steady_rail`; more than 10⁶
     points per second). Its values equal ``evaluate_option``'s rail minimum to
     1e-12 relative at the operating point.
 
@@ -51,11 +51,13 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from ..bootstrap_engine import (Loop, OrbitSolution, _off_time_to, _solve_orbit, crossing_time,
-                                interval_integrals, junction_current, propagate, steady_rail,
-                                thermal_voltage)
 from ..capacitors import capacitance, parse_dielectric
 from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
+from ..engines.rail_integrals import crossing_time, interval_integrals
+from ..engines.rail_junction import junction_current
+from ..engines.rail_linear import off_time_to
+from ..engines.rail_loop import Loop, thermal_voltage
+from ..engines.rail_orbit import OrbitSolution, propagate, solve_orbit, steady_rail
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
@@ -287,7 +289,7 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
     circ = circ or bootstrap_circuit(design, option, corner)
     s = period_schedule(design)
     loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
-    orb = _solve_orbit(_bc(loop))
+    orb = solve_orbit(_bc(loop))
     if not orb.converged:
         warnings.warn("bootstrap steady state: the orbit iteration did not converge; figures are approximate",
                       ModelValidityWarning, stacklevel=2)
@@ -296,8 +298,8 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
 
 
 def _bc(loop: Loop) -> Loop:
-    from ..bootstrap_engine import _broadcast_loop
-    return _broadcast_loop(loop)
+    from ..engines.rail_loop import broadcast_loop
+    return broadcast_loop(loop)
 
 
 # --------------------------------------------------------------------------- start-up
@@ -502,7 +504,7 @@ def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: b
     loop = _bc(schedule_loop(circ, s.dt[k], vsw, hs, periodic=True))
     orb = _rotated_orbit(loop, steady) if steady is not None else None
     if orb is None:
-        orb = _solve_orbit(loop)
+        orb = solve_orbit(loop)
     vals = np.concatenate((orb.v_start, orb.v_end))
     if not (orb.converged and np.all(np.isfinite(vals))):
         return None
@@ -628,7 +630,7 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
     Each point is one switching period ``[HS duty·T][dead][LS][dead]`` with the
     design's dead-time levels (the light-load layout for a light-load buck),
     held for ever (the standstill case of a three-phase leg). All points are
-    solved at once by :func:`explorer.bootstrap_engine.steady_rail`.
+    solved at once by :func:`explorer.engines.rail_orbit.steady_rail`.
 
     Parameters
     ----------
@@ -758,7 +760,7 @@ def _full_fundamental_min(design, circ, m, f_o):
     t_hs, t_ls, la, lb = hs_duty_per_period(dataclasses.replace(b, m=float(m), f_o=f_o), k, np.ones(n))
     dt, v, hs = duty_slots(design, t_hs, t_ls, la, lb, 1.0 / b.f_sw)
     loop = schedule_loop(circ, dt, v, hs, periodic=True)
-    vm = float(_solve_orbit(_bc(loop)).v_min)
+    vm = float(solve_orbit(_bc(loop)).v_min)
     return vm if math.isfinite(vm) else -math.inf
 
 
@@ -1254,7 +1256,7 @@ def hold_up_time(v_top: float, q_edge: float, v_threshold: float, *, i_load: flo
     v0 = v_top - q_edge / c
     if v0 <= v_threshold:
         return 0.0
-    t = float(_off_time_to(np.array(v0), np.array(v_threshold), np.array(i_load), np.array(g_load), np.array(c)))
+    t = float(off_time_to(np.array(v0), np.array(v_threshold), np.array(i_load), np.array(g_load), np.array(c)))
     return t if math.isfinite(t) else None
 
 
@@ -1281,7 +1283,7 @@ def _ls_pulse_min(design, circ, need):
         v = np.broadcast_to([b.v_bus, la[0], b.v_sw_low, b.v_out], dt.shape)
         hs = np.broadcast_to([True, False, False, False], dt.shape)
         loop = schedule_loop(circ, dt, v, hs, periodic=True)
-        m = _solve_orbit(_bc(loop)).v_min
+        m = solve_orbit(_bc(loop)).v_min
         return np.where(np.isfinite(m), m, -np.inf)
 
     g = np.linspace(0.0, t_max, 33)[1:]
@@ -1312,7 +1314,7 @@ def rail_min_batch(design: Design, option: BootstrapOption, factors) -> np.ndarr
     (capacitance × k_c with its DC bias at the sample's charge target, gate
     charge, quiescent current, aux rail and diode forward voltage scaled,
     leakage grown with temperature); all samples share the analysis period and
-    are solved at once by :func:`explorer.bootstrap_engine.steady_rail`.
+    are solved at once by :func:`explorer.engines.rail_orbit.steady_rail`.
     A collapsing rail reads 0 V and a never-refreshed one NaN, as in
     ``evaluate_option``.
     """
@@ -1348,7 +1350,7 @@ def rail_min_batch(design: Design, option: BootstrapOption, factors) -> np.ndarr
                                v_bias=v_bias)
     s = period_schedule(design)
     loop = schedule_loop(circ, s.dt[None, :], s.v_sw[None, :], s.hs_on[None, :], periodic=True)
-    orb = _solve_orbit(_bc(loop))
+    orb = solve_orbit(_bc(loop))
     v_min = np.where(_refresh_mask(loop, orb), np.asarray(orb.v_min, dtype=float), np.nan).reshape(n)
     return np.where(v_min < 0.0, 0.0, v_min)
 

@@ -2,7 +2,7 @@
 
 Each ratio is one flying capacitor C_fly, four switches of on-resistance
 R_on, the output capacitor C_out (the floating rail, V_B − V_S) and the input
-rail V_in, described for the engine :mod:`explorer.scnet` and run by it. The
+rail V_in, described for the engine :mod:`explorer.engines.network` and run by it. The
 pump clock has four phases: φ1 (charge, duration D·T), a dead time, φ2
 (transfer, D·T) and a dead time, with D = ½ − t_dead,cp·f_cp.
 
@@ -74,12 +74,15 @@ from ..roots import brentq
 
 from ..capacitors import capacitance, parse_dielectric
 from ..design import ChargePumpOption, Design
+from ..engines.elements import Cap, ISrc, Res, VSrc
+from ..engines.network import Network
+from ..engines.periodic import periodic_steady_state
+from ..engines.transient import MAX_STARTUP_CYCLES, StartupTransient
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import period_schedule
-from ..scnet import MAX_STARTUP_CYCLES, Cap, ISrc, Network, Res, StartupTransient, VSrc, periodic_steady_state
 from .details import ChargePumpDetails
 from .base import SupplyModel
 
@@ -93,7 +96,7 @@ PHI1, DEAD1, PHI2, DEAD2 = 0, 1, 2, 3
 
 @dataclass(frozen=True)
 class PumpCircuit:
-    """One conversion ratio as a circuit description for :mod:`explorer.scnet`.
+    """One conversion ratio as a circuit description for :mod:`explorer.engines.network`.
 
     Attributes
     ----------
@@ -674,7 +677,7 @@ def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
 def _rail_bounds(sol, pump: _Pump, load: _Load, r_out, pump_extrema=None) -> dict:
     """Rail extremes: the pump's steady-state waveform plus the gate-charge pulse train.
 
-    The pump's extremes are exact (:meth:`explorer.scnet.PeriodicSolution.extrema`:
+    The pump's extremes are exact (:meth:`explorer.engines.periodic.PeriodicSolution.extrema`:
     the zeros of the closed-form derivative in each phase, not samples).
 
     Worst-case relative phase of the two clocks (module notes):
@@ -881,7 +884,7 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
     Before the rail reaches UVLO the HS pulses are withheld, so only the
     driver's quiescent current loads the rail (the R_GS share needs the HS on,
     so the start-up network has no resistive load). The cycles are not stepped:
-    :class:`explorer.scnet.StartupTransient` finds the first cycle whose exact
+    :class:`explorer.engines.transient.StartupTransient` finds the first cycle whose exact
     in-cycle maximum of the rail (ESR steps included) reaches UVLO-on, and the
     instant within it, from the closed form x_k = x_ss + Φ^k·(x₀ − x_ss), in a
     number of batched evaluations that grows with log N, not N. The stress
@@ -975,7 +978,7 @@ def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndar
     C_fly × k_c and C_out × k_out with the DC-bias factor at the sample's V_in, V_in ×
     v_dd, gate charge × q_g and quiescent current × i_q (v_f and temperature do
     not enter a pump). The samples are one batch of networks of the same
-    topology (arrays of element values, see :mod:`explorer.scnet`), solved at
+    topology (arrays of element values, see :mod:`explorer.engines.network`), solved at
     once: R_out, the periodic steady state and the rail extremes.
     """
     if not isinstance(option, ChargePumpOption):

@@ -57,9 +57,9 @@ import numpy as np
 from ..roots import brentq
 
 from .. import common_mode as cm
-from ..affine import affine_scan
 from ..capacitors import capacitance, parse_dielectric
 from ..design import Design, IsolatedOption
+from ..engines.affine import affine_scan
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, load_charge, load_power
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,

@@ -5,7 +5,7 @@ Usage (from the repository root, ngspice installed)::
     python3 tests/reference/charge_pump/regenerate.py
 
 For every case below the netlist is written from the model's own parameters
-(``explorer.options.charge_pump.pump_network`` → ``explorer.scnet.to_spice``),
+(``explorer.options.charge_pump.pump_network`` → ``explorer.engines.spice_text.to_spice``),
 saved next to this script as ``<case>.cir``, run through ngspice, and the
 figures read from the ngspice waveforms are written to ``reference.json``.
 The test suite re-writes the netlists and fails if they differ from the saved
@@ -27,7 +27,7 @@ HERE = os.path.dirname(os.path.abspath(__file__))
 sys.path.insert(0, os.path.abspath(os.path.join(HERE, "..", "..", "..")))
 
 from explorer.options.charge_pump import CIRCUITS, pump_durations, pump_network  # noqa: E402
-from explorer.scnet import spice_t0, to_spice  # noqa: E402
+from explorer.engines.spice_text import spice_t0, to_spice  # noqa: E402
 from explorer.spice import run_transient  # noqa: E402
 
 C_FLY = 220e-9

@@ -1,0 +1,117 @@
+"""Exact interval maps of the diode-charged rail with a straight-line diode.
+
+Straight-line diode (``v = v_f + r_d·i`` while conducting): with
+``R = r + r_d + esr``, ``V_∞ = v_src − v_f`` and ``g = 1/R`` the state obeys a
+linear ODE in each conduction regime, so every interval is one of
+
+* **A** (conducting throughout, ``V0 ≤ V_∞``): exponential toward
+  ``V_eq = (g·V_∞ − I)/(g + G)`` with rate ``(g + G)/C``;
+* **B** (cut off throughout): exponential toward ``−I/G`` with rate ``G/C``
+  (a straight line ``−I/C`` when ``G = 0``);
+* **C** (cut off, then the falling rail meets ``V_∞`` at ``t*`` and the diode
+  conducts): B up to ``t*``, then A from ``V_∞``.
+
+Regimes A and B are affine in ``V0``; C is smooth (its slope is continuous
+with A's and B's at both borders). First-order linear ODE solutions:
+Boyce & DiPrima, *Elementary Differential Equations*, 10th ed., 2012, §2.1.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+
+from .rail_loop import Loop
+
+__all__ = ['off_params', 'off_value', 'off_time_to', 'linear_map', 'affine_maps']
+
+
+def _expo(v0, veq, rate, t):
+    """V(t) of dV/dt = −rate·(V − veq); rate may be 0 (then veq holds the slope, see callers)."""
+    return veq + (v0 - veq) * np.exp(-rate * t)
+
+
+def off_params(i_load, g_load, c):
+    """Rate and equilibrium of the cut-off regime (rate 0: straight line of slope −I/C)."""
+    rate = g_load / c
+    with np.errstate(divide="ignore", invalid="ignore"):
+        veq = np.where(g_load > 0, -i_load / np.where(g_load > 0, g_load, 1.0), 0.0)
+    return rate, veq
+
+
+def off_value(v0, t, i_load, g_load, c):
+    rate, veq = off_params(i_load, g_load, c)
+    return np.where(rate > 0, _expo(v0, veq, rate, t), v0 - i_load / c * t)
+
+
+def off_time_to(v0, v_target, i_load, g_load, c):
+    """Time for the cut-off regime to fall from v0 to v_target (inf if never)."""
+    rate, veq = off_params(i_load, g_load, c)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        t_exp = np.log((v0 - veq) / (v_target - veq)) / np.where(rate > 0, rate, 1.0)
+        t_exp = np.where((v_target - veq) > 0, t_exp, np.inf)
+        t_lin = np.where(i_load > 0, (v0 - v_target) * c / np.where(i_load > 0, i_load, 1.0), np.inf)
+    return np.where(rate > 0, t_exp, t_lin)
+
+
+def linear_map(v0, loop: Loop):
+    """Exact end value, slope dV1/dV0 and regime of each interval (straight-line diode).
+
+    Parameters
+    ----------
+    v0 : ndarray [V]
+        Capacitor voltage at the interval start, after the step.
+    loop : Loop
+        With ``diode == "linear"``.
+
+    Returns
+    -------
+    v1 : ndarray [V]
+        Voltage at the interval end.
+    slope : ndarray [-]
+        dV1/dV0 (in (0, 1]).
+    regime : ndarray of int8
+        0 = A (conducting), 1 = B (cut off), 2 = C (cut off, then conducting).
+    """
+    c, dt, i_load, g_load = loop.c, loop.dt, loop.i_load, loop.g_load
+    g = 1.0 / loop.r
+    v_inf = loop.v_src - loop.v_f
+    able = v_inf > 0
+    rate_on = (g + g_load) / c
+    veq_on = (g * v_inf - i_load) / (g + g_load)
+    e_on = np.exp(-rate_on * dt)
+    # A
+    v1_a = veq_on + (v0 - veq_on) * e_on
+    # B
+    rate_off, _ = off_params(i_load, g_load, c)
+    v1_b = off_value(v0, dt, i_load, g_load, c)
+    s_b = np.exp(-rate_off * dt)
+    # C
+    t_star = off_time_to(v0, v_inf, i_load, g_load, c)
+    with np.errstate(invalid="ignore", over="ignore"):
+        v1_c = veq_on + (v_inf - veq_on) * np.exp(-rate_on * (dt - t_star))
+        num = g * (v_inf - v1_c) - i_load - g_load * v1_c
+        den = -i_load - g_load * v0
+        # den = 0 is a rail resting at the cut-off equilibrium −I/G (never refreshed): it never
+        # falls to V_∞, so t* = ∞ and the interval is in B, where s_c is not used
+        s_c = num / np.where(den != 0, den, 1.0)
+    in_a = able & (v0 <= v_inf)
+    in_c = able & ~in_a & (t_star < dt)
+    v1 = np.where(in_a, v1_a, np.where(in_c, v1_c, v1_b))
+    slope = np.where(in_a, e_on, np.where(in_c, s_c, s_b))
+    regime = np.where(in_a, 0, np.where(in_c, 2, 1)).astype(np.int8)
+    return v1, slope, regime
+
+
+def affine_maps(loop: Loop):
+    """Maps of the regimes the straight-line diode takes from below: A where it can conduct, B elsewhere."""
+    c, dt, i_load, g_load = loop.c, loop.dt, loop.i_load, loop.g_load
+    g = 1.0 / loop.r
+    v_inf = loop.v_src - loop.v_f
+    able = v_inf > 0
+    gg = g + g_load
+    e_on = np.exp(-(gg / c) * dt)
+    b_on = (g * v_inf - i_load) / gg * (1.0 - e_on)
+    e_off = np.exp(-(g_load / c) * dt)
+    with np.errstate(divide="ignore", invalid="ignore"):
+        b_off = np.where(g_load > 0, -i_load / g_load * (1.0 - e_off), -i_load / c * dt)
+    return np.where(able, e_on, e_off), np.where(able, b_on, b_off), able, v_inf

@@ -1,0 +1,107 @@
+"""The diode-charged rail's loop: its parameters per interval and the physical constants.
+
+The bootstrap circuit seen from its capacitor (voltage ``V = V_B − V_S``)::
+
+    V_DD ──R──diode──┬── B          C·dV/dt = i_d(V) − I − G·V
+                     C              (steps of −q/C at interval starts)
+    SW (v_sw) ───────┴── S
+
+Per interval ``j`` of a schedule the loop source is ``v_src = V_DD − v_sw``,
+the load is a constant current ``I`` (driver quiescent current, leakage) plus
+a conductance ``G`` (gate pull-down while the high side is on), and a charge
+``q`` is removed at the interval start (gate charge at turn-on, recovery and
+junction charge at switch-node edges).
+
+The maps are in :mod:`explorer.engines.rail_linear` (straight-line diode),
+:mod:`explorer.engines.rail_junction` (exponential junction), their composition
+over a period or a start-up in :mod:`explorer.engines.rail_orbit`, and the
+charge and energy integrals in :mod:`explorer.engines.rail_integrals`.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+__all__ = ['K_B', 'Q_E', 'broadcast_as', 'thermal_voltage', 'Loop', 'broadcast_loop', 'take_loop']
+
+
+#: Boltzmann constant [J/K] (SI 2019 exact value, BIPM SI Brochure 9th ed.).
+K_B = 1.380649e-23
+
+
+#: Elementary charge [C] (SI 2019 exact value).
+Q_E = 1.602176634e-19
+
+
+def broadcast_as(x, shape):
+    """``x`` broadcast to ``shape`` (``x`` itself where it already is an array of that shape)."""
+    if isinstance(x, np.ndarray) and x.shape == shape:
+        return x
+    return np.broadcast_to(x, shape)
+
+
+def thermal_voltage(t_celsius: float) -> float:
+    """Thermal voltage V_T = k·T/q [V] at a temperature in °C."""
+    return K_B * (t_celsius + 273.15) / Q_E
+
+
+@dataclass(frozen=True)
+class Loop:
+    """The charging loop and load of every interval (arrays broadcast to ``(..., n)``).
+
+    Attributes
+    ----------
+    dt : ndarray [s]
+        Interval durations.
+    v_src : ndarray [V]
+        Loop source V_DD − v_sw during the interval.
+    c : ndarray or float [F]
+        Effective bootstrap capacitance.
+    r : ndarray or float [Ω]
+        Total series resistance of the loop: r + esr + r_d (straight line) or
+        r + esr + r_s (junction).
+    i_load : ndarray or float [A]
+        Constant load current drawn from the capacitor during the interval.
+    g_load : ndarray or float [S]
+        Load conductance during the interval (gate pull-down while HS on).
+    q_step : ndarray or float [C]
+        Charge removed from the capacitor at the start of the interval
+        (negative: charge added).
+    v_f : ndarray or float [V]
+        Straight-line diode knee voltage (``diode == "linear"``).
+    i_s, n_vt : ndarray or float [A], [V]
+        Junction saturation current and n·V_T (``diode == "junction"``).
+    diode : {"linear", "junction"}
+    """
+
+    dt: np.ndarray
+    v_src: np.ndarray
+    c: np.ndarray
+    r: np.ndarray
+    i_load: np.ndarray = 0.0
+    g_load: np.ndarray = 0.0
+    q_step: np.ndarray = 0.0
+    v_f: np.ndarray = 0.0
+    i_s: np.ndarray = 1e-14
+    n_vt: np.ndarray = 0.025
+    diode: str = "linear"
+
+    @property
+    def able(self) -> np.ndarray:
+        """The diode may conduct in this interval (its source is above the switch node)."""
+        if self.diode == "linear":
+            return np.asarray(self.v_src - self.v_f) > 0.0
+        return np.asarray(self.v_src) > 0.0
+
+
+def broadcast_loop(loop: Loop) -> Loop:
+    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
+    arrs = np.broadcast_arrays(*[np.asarray(getattr(loop, k), dtype=float) for k in names])
+    return Loop(**dict(zip(names, arrs)), diode=loop.diode)
+
+
+def take_loop(loop: Loop, idx) -> Loop:
+    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
+    return Loop(**{k: getattr(loop, k)[idx] for k in names}, diode=loop.diode)
