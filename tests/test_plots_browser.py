@@ -156,3 +156,32 @@ def test_report_draws_its_plots_offline(browser, served):
     assert outside == [] and errors == []
     assert len(colours) == 5 and all(c > 500 for c in colours), colours
     page.close()
+
+
+_TOOLTIPS = """() => { const out = []; const walk = (n) => { if (!n) return; if (n.shadowRoot) walk(n.shadowRoot);
+  for (const c of n.children || []) { if ((c.className || '').toString().includes('tooltip') && c.innerText.trim())
+  out.push(c.innerText); walk(c); } }; walk(document.body); return out; }"""
+
+
+def test_hover_shows_exact_values_with_units(browser, served, demo):
+    folder, base = served
+    plots.standalone_html({"stress": plots.stress_plot(demo)}, title="stress", path=folder / "hover.html")
+    page, outside, errors = _open(browser, f"{base}/hover.html")
+    _drawn(page, ".plot", 1)
+    box = page.locator("canvas").first.bounding_box()
+    tip = []
+    for y in range(30, 200, 6):  # the top row is the first option's first capacitor
+        page.mouse.move(box["x"] + 270, box["y"] + y)
+        page.wait_for_timeout(40)
+        tip = page.evaluate(_TOOLTIPS)
+        if tip:
+            break
+    assert tip, "no tooltip over the first bar"
+    text = tip[0]
+    cap = demo.options[0].capacitors[0]
+    margin = next(k for k in demo.options[0].checks if k.name == "cap_voltage_c_boot").margin
+    six = lambda v: f"{float(f'{v:.6g}'):g}"  # noqa: E731  six significant digits, as the hover's JavaScript
+    assert "C_boot" in text and f"{six(cap.v_max)} V" in text and f"{six(cap.v_rating)} V" in text
+    assert f"{six(margin)} V" in text
+    assert outside == [] and errors == []
+    page.close()
