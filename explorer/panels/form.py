@@ -86,6 +86,15 @@ class Field:
     editable: bool = True
 
     @property
+    def label(self) -> str:
+        """What the form calls the field: its key, or for a part's value the part's name
+        (``c_fly`` for ``c_fly.c``) and for a part's other keys ``part.key`` (``c_fly.esr``)."""
+        parts = self.path.split(".")
+        if len(parts) >= 3 and not parts[-2].endswith("]"):
+            return parts[-2] if parts[-1] == "c" else f"{parts[-2]}.{parts[-1]}"
+        return self.name
+
+    @property
     def unit(self) -> str:
         """Unit shown beside the box ("" for plain numbers)."""
         return "" if self.spec.unit in ("-", "") else self.spec.unit

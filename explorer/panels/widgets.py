@@ -76,6 +76,8 @@ def cautions_for(design: Design, comparison=None) -> list[str]:
                    "(e.g. IEC 62368-1, IEC 61800-5-1, IEC 60664-1), local codes and licensed practice.")
     if comparison is not None:
         for r in comparison.options:
+            if r.kind == "isolated" and len(out) and out[-1].startswith("Isolated option shown"):
+                continue  # the line above says it, with the deference to licensed practice
             for c in r.cautions:
                 line = f"[{r.label}] {c}"
                 if line not in out:
@@ -112,7 +114,7 @@ class FieldControl:
         self._on_change = on_change
         self._syncing = False
         spec = field.spec
-        desc = field.name + (f" [{field.unit}]" if field.unit else "")
+        desc = field.label + (f" [{field.unit}]" if field.unit else "")
         common = dict(description=desc, tooltip=field.tooltip, layout=layout, style=style)
         if spec.kind == "bool":
             self.widget = W.Checkbox(value=bool(value), indent=True, **common)
@@ -250,7 +252,7 @@ class DesignPanel(W.VBox):
             self._boxes[key] = box
             self._build(key)
             children.append(box)
-        super().__init__(children, layout=W.Layout(width="310px"))
+        super().__init__(children, layout=W.Layout(width="310px", flex="0 0 310px"))
 
     def _slider(self, f: Field):
         b = self.form.last_valid
@@ -546,7 +548,8 @@ class Explorer(W.VBox):
         self.output = W.Output()
         self.title = W.HTML(value="")
         tools = W.HBox([self.path, self.load_button, self.save_button, self.summary_button])
-        right = W.VBox([self.option_editor, self.comparison], layout=W.Layout(flex="1 1 auto", min_width="500px"))
+        right = W.VBox([self.option_editor, self.comparison],
+                       layout=W.Layout(flex="1 1 auto", min_width="500px", overflow_x="auto"))
         super().__init__([self.css, self.title, self.caution, self.status,
                           W.HBox([self.design_panel, right]), tools, self.output])
         self.evaluator_background = background
