@@ -102,35 +102,94 @@ def _colors(labels) -> dict:
     return plots.option_colors(labels) if plots is not None else {}
 
 
+# --------------------------------------------------------------------------- shared looks
+
+_SHARED: dict = {}
+
+
+def _lay(**kw):
+    """A Layout shared by every widget that asks for the same settings (never mutate one)."""
+    key = ("layout", *sorted(kw.items()))
+    if key not in _SHARED:
+        _SHARED[key] = W.Layout(**kw)
+    return _SHARED[key]
+
+
+def _sty(name: str):
+    """The shared style of a kind of widget (``html``, ``button``, ``toggle``)."""
+    if name not in _SHARED:
+        from ipywidgets.widgets.widget_bool import ToggleButtonStyle
+        from ipywidgets.widgets.widget_string import HTMLStyle
+        _SHARED[name] = {"html": HTMLStyle, "button": W.ButtonStyle, "toggle": ToggleButtonStyle}[name]()
+    return _SHARED[name]
+
+
+def _html(value: str = "", **layout):
+    return W.HTML(value=value, layout=_lay(**layout), style=_sty("html"))
+
+
+def _vbox(children=(), **layout):
+    return W.VBox(list(children), layout=_lay(**layout))
+
+
+def _hbox(children=(), **layout):
+    return W.HBox(list(children), layout=_lay(**layout))
+
+
+def _button(description: str, icon: str, tooltip: str, **layout):
+    return W.Button(description=description, icon=icon, tooltip=tooltip, layout=_lay(**layout), style=_sty("button"))
+
+
 # --------------------------------------------------------------------------- one field
+
+class _Looks:
+    """One layout and one style per widget class, shared by every field of a panel (a stored
+    notebook keeps each widget model's state: sharing them keeps it small)."""
+
+    def __init__(self, width: str, description_width: str):
+        self.layout = W.Layout(width=width)
+        self._dw = description_width
+        self._styles: dict = {}
+
+    def style(self, cls):
+        if cls not in self._styles:
+            from ipywidgets.widgets.widget_bool import CheckboxStyle
+            from ipywidgets.widgets.widget_string import DescriptionStyle, TextStyle
+            make = {W.Text: TextStyle, W.Checkbox: CheckboxStyle}.get(cls, DescriptionStyle)
+            self._styles[cls] = make(description_width=self._dw)
+        return self._styles[cls]
+
 
 class FieldControl:
     """One form field as a widget (text box, checkbox, chooser), optionally with a slider."""
 
-    def __init__(self, field: Field, value, on_change, *, layout, style, slider: str | None = None,
-                 slider_range: tuple | None = None):
+    def __init__(self, field: Field, value, on_change, *, looks: _Looks, slider: str | None = None,
+                 slider_range: tuple | None = None, buttons: bool = False):
         self.field = field
         self.path = field.path
         self._on_change = on_change
         self._syncing = False
         spec = field.spec
         desc = field.label + (f" [{field.unit}]" if field.unit else "")
-        common = dict(description=desc, tooltip=field.tooltip, layout=layout, style=style)
+        common = dict(description=desc, tooltip=field.tooltip, layout=looks.layout)
         if spec.kind == "bool":
-            self.widget = W.Checkbox(value=bool(value), indent=True, **common)
+            self.widget = W.Checkbox(value=bool(value), indent=True, style=looks.style(W.Checkbox), **common)
+        elif spec.kind == "choice" and buttons:
+            self.widget = W.ToggleButtons(options=list(spec.choices), value=value, tooltip=field.tooltip,
+                                          style={"button_width": "56px"})
         elif spec.kind == "choice":
-            self.widget = W.Dropdown(options=list(spec.choices), value=value, **common)
+            self.widget = W.Dropdown(options=list(spec.choices), value=value, style=looks.style(W.Dropdown), **common)
         elif not field.editable:
             shown = "none" if value in ("", None) else f"{len(value)} points (edit in the design file)"
-            self.widget = W.Text(value=shown, disabled=True, **common)
+            self.widget = W.Text(value=shown, disabled=True, style=looks.style(W.Text), **common)
         else:
-            self.widget = W.Text(value=str(value), continuous_update=False, **common)
+            self.widget = W.Text(value=str(value), continuous_update=False, style=looks.style(W.Text), **common)
         if field.editable:
             self.widget.observe(self._changed, "value")
         self.slider = None
         if slider is not None and slider_range is not None:
             self._make_slider(slider, slider_range, value)
-        self.view = self.widget if self.slider is None else W.VBox([self.widget, self.slider])
+        self.view = self.widget if self.slider is None else _vbox([self.widget, self.slider])
 
     def _make_slider(self, kind: str, rng: tuple, value) -> None:
         lo, hi = rng
@@ -139,7 +198,7 @@ class FieldControl:
         except DesignError:
             x = lo
         x = min(max(x, lo), hi)
-        layout = W.Layout(width="300px")
+        layout = _lay(width="300px")
         if kind == "log":
             self.slider = W.FloatLogSlider(value=x, base=10, min=math.log10(lo), max=math.log10(hi), step=0.01,
                                            readout=False, continuous_update=False, layout=layout,
@@ -183,19 +242,47 @@ class FieldControl:
 
 
 class _Group:
-    """A titled group of fields: main fields, a 'more' toggle for the rest, an inline error line."""
+    """A titled group of fields: the main fields, a 'more' toggle for the rest (built when first
+    opened, or when an error or a caller needs one), and an inline error line.
 
-    def __init__(self, title: str, main: list, more: list, *, color: str | None = None, header=None):
-        self.controls = {c.path: c for c in (*main, *more)}
-        self.error = W.HTML(value="")
-        self.more_box = W.VBox([c.view for c in more], layout=W.Layout(display="none"))
+    ``make`` turns a :class:`Field` into a :class:`FieldControl`.
+    """
+
+    def __init__(self, title: str, main: list, more: list, make, *, header=None, card: bool = False):
+        self.controls = {c.path: c for c in main}
+        self._more = list(more)
+        self._make = make
+        self.error = _html()
+        self.more_box = W.VBox(layout=W.Layout(display="none"))  # its own: shown and hidden
         self.toggle = W.ToggleButton(value=False, description=f"more ({len(more)})",
-                                     tooltip="show the fields that have defaults",
-                                     layout=W.Layout(width="110px", display="" if more else "none"))
-        self.toggle.observe(lambda ch: setattr(self.more_box.layout, "display", "flex" if ch["new"] else "none"),
-                            "value")
-        head = header if header is not None else W.HTML(value=f"<b>{_e(title)}</b>")
-        self.view = W.VBox([head, *[c.view for c in main], self.error, self.toggle, self.more_box])
+                                     tooltip="show the fields that have defaults", style=_sty("toggle"),
+                                     layout=_lay(width="110px", display="" if more else "none"))
+        self.toggle.observe(self._toggled, "value")
+        head = header if header is not None else _html(f"<b>{_e(title)}</b>")
+        self.view = _vbox([head, *[c.view for c in main], self.error, self.toggle, self.more_box],
+                          **({"width": "266px"} if card else {}))
+        if card:
+            self.view.add_class("explorer-card")
+
+    def _toggled(self, change) -> None:
+        if change["new"]:
+            self.build_more()
+        self.more_box.layout.display = "flex" if change["new"] else "none"
+
+    def build_more(self) -> None:
+        if self._more:
+            made = [self._make(f) for f in self._more]
+            self._more = []
+            self.controls.update({c.path: c for c in made})
+            self.more_box.children = [c.view for c in made]
+
+    def has(self, path: str) -> bool:
+        return path in self.controls or any(f.path == path for f in self._more)
+
+    def get(self, path: str):
+        if path not in self.controls and self.has(path):
+            self.build_more()
+        return self.controls.get(path)
 
     def show_error(self, err: DesignError | None) -> bool:
         """Mark the field the error names (True if it is in this group) and say why, inline."""
@@ -216,8 +303,8 @@ class _Group:
     def _control_for(self, path: str):
         # a capacitor given as a number is reported on the capacitor itself: show it on its value
         for p in (path, f"{path}.c"):
-            if p in self.controls:
-                return self.controls[p]
+            if self.has(p):
+                return self.get(p)
         return None
 
 
@@ -242,13 +329,12 @@ class DesignPanel(W.VBox):
     def __init__(self, form: DesignForm, on_change):
         self.form = form
         self._notify = on_change
-        self._layout = W.Layout(width="290px")
-        self._style = {"description_width": "120px"}
+        self._looks = _Looks("290px", "120px")
         self.groups: dict[str, _Group] = {}
         self._boxes: dict[str, W.Box] = {}
         children = []
         for key, title, _ in SECTIONS:
-            box = W.VBox()
+            box = _vbox()
             self._boxes[key] = box
             self._build(key)
             children.append(box)
@@ -272,27 +358,25 @@ class DesignPanel(W.VBox):
     def _build(self, key: str) -> None:
         topo = self.form.topology if key == "bridge" else None
         fields = section_fields(key, topo if topo in TOPOLOGY else None)
-        controls = []
-        for f in fields:
-            if f.path == "bridge.topology":
-                continue
+        fields = [f for f in fields if f.path != "bridge.topology"]
+
+        def make(f):
             kind, rng = self._slider(f)
-            controls.append(FieldControl(f, self.form.get(f.path), self._changed, layout=self._layout,
-                                         style=self._style, slider=kind, slider_range=rng))
+            return FieldControl(f, self.form.get(f.path), self._changed, looks=self._looks, slider=kind,
+                                slider_range=rng)
         own = TOPOLOGY_FIELDS.get(topo, ()) if topo else ()
-        main_f, more_f = _split([c.field for c in controls], own)
-        main = [c for c in controls if c.field in main_f]
-        more = [c for c in controls if c.field in more_f]
+        main_f, more = _split(fields, own)
+        main = [make(f) for f in main_f]
         title = dict((k, t) for k, t, _ in SECTIONS)[key]
         header = None
         if key == "bridge":
             spec = specs(type(self.form.last_valid.bridge))["topology"]
             self.topology = W.Dropdown(options=list(spec.choices), value=self.form.topology, description="topology",
                                        tooltip=spec.doc + "; the fields below follow it",
-                                       layout=self._layout, style=self._style)
+                                       layout=self._looks.layout, style=self._looks.style(W.Dropdown))
             self.topology.observe(self._topology_changed, "value")
-            header = W.VBox([W.HTML(value=f"<b>{_e(title)}</b>"), self.topology])
-        group = _Group(title, main, more, header=header)
+            header = _vbox([_html(f"<b>{_e(title)}</b>"), self.topology])
+        group = _Group(title, main, more, make, header=header)
         self.groups[key] = group
         self._boxes[key].children = [group.view]
 
@@ -308,8 +392,8 @@ class DesignPanel(W.VBox):
     def control(self, path: str) -> FieldControl:
         """The control of a field by its design-file path (``"bridge.f_sw"``)."""
         for g in self.groups.values():
-            if path in g.controls:
-                return g.controls[path]
+            if g.has(path):
+                return g.get(path)
         raise KeyError(f"no control for {path!r} in the design panel (hidden for this topology?)")
 
     def show_error(self, err: DesignError | None) -> bool:
@@ -335,18 +419,17 @@ class OptionEditor(W.VBox):
     def __init__(self, form: DesignForm, on_change):
         self.form = form
         self._notify = on_change
-        self._layout = W.Layout(width="250px")
-        self._style = {"description_width": "95px"}
+        self._looks = _Looks("250px", "95px")
         self.cards: list[_Group] = []
         self.row = W.HBox(layout=W.Layout(flex_flow="row wrap", align_items="flex-start"))
         self.kind = W.Dropdown(options=[(w, k) for k, w in KIND_WORDS.items()], value="charge_pump",
                                description="new option", layout=W.Layout(width="240px"),
                                style={"description_width": "80px"})
-        self.add = W.Button(description="add", icon="plus", tooltip="add an option of this kind (a copy of one "
-                            "already in the design, else of the demo's)", layout=W.Layout(width="80px"))
+        self.add = _button("add", "plus", "add an option of this kind (a copy of one already in the design, else "
+                           "of the demo's)", width="80px")
         self.add.on_click(lambda _: self._structure(lambda: self.form.add_option(self.kind.value)))
         self.rebuild()
-        super().__init__([W.HBox([W.HTML(value="<b>Supply options</b>", layout=W.Layout(width="150px")),
+        super().__init__([_hbox([_html("<b>Supply options</b>", width="150px"),
                                   self.kind, self.add]), self.row])
 
     def rebuild(self, colors: dict | None = None) -> None:
@@ -355,42 +438,29 @@ class OptionEditor(W.VBox):
         self.row.children = [c.view for c in self.cards]
 
     def _card(self, i: int, option: dict, color: str) -> _Group:
-        fields = option_fields(option, i)
-        controls = {}
-        for f in fields:
-            if f.name == "kind":
-                continue
-            controls[f.path] = FieldControl(f, self.form.get(f.path), self._changed, layout=self._layout,
-                                            style=self._style)
-        label = controls.pop(f"options[{i}].label")
-        label.widget.description = "label"
-        ratio = controls.pop(f"options[{i}].ratio", None)
-        if ratio is not None:  # the pump's ratio as a chooser in the card's head
-            spec = ratio.field.spec
-            ratio.widget.close()
-            ratio.widget = W.ToggleButtons(options=list(spec.choices), value=self.form.get(ratio.path),
-                                           tooltip=ratio.field.tooltip, style={"button_width": "56px"})
-            ratio.widget.observe(ratio._changed, "value")
-            ratio.view = ratio.widget
-        dup = W.Button(description="duplicate", icon="copy", layout=W.Layout(width="110px"),
-                       tooltip="add a copy of this option beside it")
-        rem = W.Button(description="remove", icon="trash", layout=W.Layout(width="100px"),
-                       tooltip="remove this option (a design keeps at least one)")
+        fields = [f for f in option_fields(option, i) if f.name != "kind"]
+
+        def make(f):
+            return FieldControl(f, self.form.get(f.path), self._changed, looks=self._looks)
+        label = make(next(f for f in fields if f.name == "label"))
+        ratio_f = [f for f in fields if f.name == "ratio"]
+        # the pump's ratio as a row of buttons in the card's head
+        ratio = FieldControl(ratio_f[0], self.form.get(ratio_f[0].path), self._changed, looks=self._looks,
+                             buttons=True) if ratio_f else None
+        fields = [f for f in fields if f.name not in ("label", "ratio")]
+        dup = _button("duplicate", "copy", "add a copy of this option beside it", width="110px")
+        rem = _button("remove", "trash", "remove this option (a design keeps at least one)", width="100px")
         dup.on_click(lambda _, i=i: self._structure(lambda: self.form.duplicate_option(i)))
         rem.on_click(lambda _, i=i: self._structure(lambda: self.form.remove_option(i)))
         rem.disabled = len(self.form.options) <= 1
         kind = KIND_WORDS.get(option["kind"], option["kind"])
-        head = W.VBox([W.HTML(value=f"<div style='border-top:6px solid {_e(color)};padding-top:2px'>"
-                                    f"<b>{_e(kind)}</b></div>"),
-                       label.view, *([ratio.view] if ratio is not None else []), W.HBox([dup, rem])])
-        main_f, more_f = _split([c.field for c in controls.values()])
-        group = _Group(option.get("label", ""), [c for c in controls.values() if c.field in main_f],
-                       [c for c in controls.values() if c.field in more_f], header=head)
+        head = _vbox([_html(f"<div style='border-top:6px solid {_e(color)};padding-top:2px'><b>{_e(kind)}</b></div>"),
+                      label.view, *([ratio.view] if ratio is not None else []), _hbox([dup, rem])])
+        main_f, more_f = _split(fields)
+        group = _Group(option.get("label", ""), [make(f) for f in main_f], more_f, make, header=head, card=True)
         group.controls[label.path] = label
         if ratio is not None:
             group.controls[ratio.path] = ratio
-        group.view.add_class("explorer-card")
-        group.view.layout.width = "266px"
         return group
 
     def _changed(self, path, value) -> None:
@@ -404,8 +474,8 @@ class OptionEditor(W.VBox):
 
     def control(self, path: str) -> FieldControl:
         for g in self.cards:
-            if path in g.controls:
-                return g.controls[path]
+            if g.has(path):
+                return g.get(path)
         raise KeyError(f"no control for {path!r} in the option editor")
 
     def card_buttons(self, index: int) -> dict:
@@ -425,12 +495,13 @@ class OptionEditor(W.VBox):
 class ComparisonPanel(W.VBox):
     """The side-by-side table and the comparison plots, updated in place from each new result."""
 
-    def __init__(self, comparison=None):
-        self.table = W.HTML(value="")
+    def __init__(self, comparison=None, *, plots=True):
+        self.which = plots  # True: every comparison plot; False: none; or a tuple of plot names
+        self.table = _html()
         self.plots: dict = {}
         self.plot_views: dict = {}
         self.tabs = W.Tab()
-        self.note = W.HTML(value="")
+        self.note = _html()
         self.comparison = None
         super().__init__([self.table, self.note, self.tabs])
         if comparison is not None:
@@ -441,13 +512,17 @@ class ComparisonPanel(W.VBox):
         self.comparison = comparison
         labels = [r.label for r in comparison.options]
         self.table.value = side_by_side_html(comparison, _colors(labels))
-        plots = _plots_module()
+        plots = _plots_module() if self.which else None
+        if not self.which:
+            return
         if plots is None:
             self.note.value = "<i>Plots need Bokeh and jupyter_bokeh: pip install 'explorer[panels]'.</i>"
             return
         if not self.plots:
             from jupyter_bokeh import BokehModel
             self.plots = plots.comparison_plots(comparison, max_points=PLOT_POINTS)
+            if self.which is not True:
+                self.plots = {k: v for k, v in self.plots.items() if k in self.which}
             self.plot_views = {name: BokehModel(p.figure) for name, p in self.plots.items()}
             self.tabs.children = list(self.plot_views.values())
             for i, name in enumerate(self.plot_views):
@@ -514,6 +589,8 @@ class Explorer(W.VBox):
         Evaluate changes on a worker thread (default); False evaluates in the callback.
     rank : str
         Ranking rule of the comparison.
+    plots : bool or tuple of str
+        Which comparison plots to show (``("startup", "duty")``; True: all, False: none).
 
     Attributes
     ----------
@@ -523,35 +600,33 @@ class Explorer(W.VBox):
         The result on screen.
     """
 
-    def __init__(self, design, *, background: bool = True, rank: str = "overhead"):
+    def __init__(self, design, *, background: bool = True, rank: str = "overhead", plots=True):
         self.form = DesignForm(design)
         self.error: DesignError | None = None
         self.warnings: list = []
         self.evaluator = Evaluator(self._deliver, background=background, rank=rank)
-        self.css = W.HTML(value=_CSS)
-        self.caution = W.HTML(value="")
-        self.status = W.HTML(value="")
+        self.css = _html(_CSS)
+        self.caution = _html()
+        self.status = _html()
         self.design_panel = DesignPanel(self.form, self._changed)
         self.option_editor = OptionEditor(self.form, self._changed)
-        self.comparison = ComparisonPanel()
+        self.comparison = ComparisonPanel(plots=plots)
         self.path = W.Text(value="design.json", description="file", tooltip="design file to load or save",
                            layout=W.Layout(width="320px"), style={"description_width": "40px"})
-        self.load_button = W.Button(description="load", icon="folder-open", tooltip="load the design file")
-        self.save_button = W.Button(description="save design", icon="save",
-                                    tooltip="write the current design to the file (numbers with units)")
-        self.summary_button = W.Button(description="static summary", icon="file-text",
-                                       tooltip="write the table, plots and design into the output below; "
-                                       "it stays readable without a kernel")
+        self.load_button = _button("load", "folder-open", "load the design file")
+        self.save_button = _button("save design", "save", "write the current design to the file (numbers with units)")
+        self.summary_button = _button("static summary", "file-text", "write the table, plots and design into the "
+                                      "output below; it stays readable without a kernel")
         self.load_button.on_click(self._load)
         self.save_button.on_click(self._save)
         self.summary_button.on_click(self._summary)
         self.output = W.Output()
-        self.title = W.HTML(value="")
-        tools = W.HBox([self.path, self.load_button, self.save_button, self.summary_button])
+        self.title = _html()
+        tools = _hbox([self.path, self.load_button, self.save_button, self.summary_button])
         right = W.VBox([self.option_editor, self.comparison],
-                       layout=W.Layout(flex="1 1 auto", min_width="500px", overflow_x="auto"))
+                       layout=W.Layout(flex="1 1 auto", min_width="500px", overflow="auto"))
         super().__init__([self.css, self.title, self.caution, self.status,
-                          W.HBox([self.design_panel, right]), tools, self.output])
+                          _hbox([self.design_panel, right]), tools, self.output])
         self.evaluator_background = background
         # the first result is computed here, so a stored notebook has it
         self.evaluator.background = False
@@ -693,14 +768,16 @@ class Explorer(W.VBox):
                                          "text/plain": f"static summary of {self.design.title!r}"}},)
 
 
-def explore(design=None, *, background: bool = True, rank: str = "overhead") -> Explorer:
+def explore(design=None, *, background: bool = True, rank: str = "overhead", plots=True) -> Explorer:
     """The composed explorer for a design (default: the built-in demo, an invented scenario).
 
     ``design`` is anything :func:`explorer.load_design` accepts: a design file's path, JSON text, a
     dict or a :class:`~explorer.design.Design` built in code. In a notebook call
-    ``explorer.views.plots.setup_notebook()`` in an earlier cell so the plots can draw.
+    ``explorer.views.plots.setup_notebook()`` in an earlier cell so the plots can draw. ``plots``
+    picks the comparison plots shown (True: all of them; a tuple of names such as
+    ``("startup", "duty")``; False: the table only).
     """
     if design is None:
         from ..demo import DEMO
         design = DEMO
-    return Explorer(design, background=background, rank=rank)
+    return Explorer(design, background=background, rank=rank, plots=plots)
