@@ -103,7 +103,7 @@ def _core(design):
     def run():  # as evaluate_option does: the start-up reuses the steady orbit for its settled tail
         ss = B.steady_state(design, o, circ=circ)
         B.startup(design, o, circ=circ, steady=ss)
-        B._duty_limit(design, circ, [required_rail(design), design.driver.uvlo_off])
+        B.duty_limit(design, circ, [required_rail(design), design.driver.uvlo_off])
     return run
 
 
@@ -176,8 +176,8 @@ def _split_ms(design):
     need = required_rail(design)
     out = []
     for fn in (lambda: B.steady_state(design, o, circ=circ), lambda: B.startup(design, o, circ=circ),
-               lambda: B._duty_limit(design, circ, [need, design.driver.uvlo_off]),
-               lambda: B._topology_terms(design, circ, None, need, None)):
+               lambda: B.duty_limit(design, circ, [need, design.driver.uvlo_off]),
+               lambda: B.topology_terms(design, circ, None, need, None)):
         t = time.perf_counter()
         fn()
         out.append(1e3 * (time.perf_counter() - t))

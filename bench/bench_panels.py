@@ -58,7 +58,7 @@ def three_phase():
 
 def main():
     warnings.simplefilter("ignore", explorer.ExplorerWarning)
-    print(f"plots: {'yes' if widgets._plots_module() is not None else 'no (Bokeh missing)'}; "
+    print(f"plots: {'yes' if widgets.plots_module() is not None else 'no (Bokeh missing)'}; "
           f"waveforms thinned to {widgets.PLOT_POINTS} points")
     p = panels.explore(explorer.DEMO).wait()
     cb, total, ev, show = change_to_plot_data(p, "bridge.f_sw", ["210k", "200k"])

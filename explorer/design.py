@@ -532,7 +532,7 @@ def _build(cls, data: Any, path: str):
     return obj
 
 
-def _build_tagged(data: Any, classes: dict, tag: str, path: str, what: str):
+def build_tagged(data: Any, classes: dict, tag: str, path: str, what: str):
     """Build the object whose class the key ``tag`` picks from ``classes`` (an option's kind, a rule's kind)."""
     if not isinstance(data, dict):
         raise DesignError(path, f"expected an object with {what}", data)
@@ -588,7 +588,7 @@ def _design_from_dict(data: Any) -> Design:
     labels = set()
     for i, o in enumerate(opts_raw):
         p = f"options[{i}]"
-        opt = _build_tagged(o, option_classes, "kind", p, "label and kind")
+        opt = build_tagged(o, option_classes, "kind", p, "label and kind")
         if opt.label in labels:
             raise DesignError(f"{p}.label", "labels must be unique", opt.label)
         labels.add(opt.label)

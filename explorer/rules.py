@@ -36,7 +36,8 @@ from dataclasses import dataclass, field
 from typing import Any, Sequence, Union
 
 from .compare import Comparison, evaluate
-from .design import FRACTION, NONNEG, POS, Design, _build_tagged, _f, load_design, read_bounded
+from .design import FRACTION, NONNEG, POS, Design, build_tagged, load_design, read_bounded
+from .design import spec_field as _f
 from .errors import DesignError, RuleViolation
 from .results import Check, clean
 from .schedule import nominal_duty
@@ -525,7 +526,7 @@ def _rules_from_dict(data: Any) -> tuple:
     if not isinstance(raw, list) or not 1 <= len(raw) <= 500:
         raise DesignError("rules", "expected a list of 1 to 500 rules",
                           raw if not isinstance(raw, (list, dict)) else f"{len(raw)} items")
-    return tuple(_build_tagged(r, RULE_KINDS, "rule", f"rules[{i}]", "a 'rule' key") for i, r in enumerate(raw))
+    return tuple(build_tagged(r, RULE_KINDS, "rule", f"rules[{i}]", "a 'rule' key") for i, r in enumerate(raw))
 
 
 def load_rules(source) -> tuple:

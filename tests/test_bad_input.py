@@ -160,7 +160,7 @@ def test_api_raises_one_design_error_with_the_field_path(name, source, path, tex
     assert str(e.value) == text
 
 
-def _file_text(source) -> str | None:
+def file_text(source) -> str | None:
     """The case as a file's text; None for a dict holding NaN/inf (as a file that is the JSON-literal case)."""
     if isinstance(source, str):
         return source
@@ -171,13 +171,13 @@ def _file_text(source) -> str | None:
 
 
 #: The cases a user can write into a file (all but the in-memory NaN/inf numbers).
-FILE_CASES = [c for c in CASES if _file_text(c[1]) is not None]
+FILE_CASES = [c for c in CASES if file_text(c[1]) is not None]
 
 
 @pytest.mark.parametrize("name,source,path,text", FILE_CASES, ids=[c[0] for c in FILE_CASES])
 def test_cli_exit_2_one_error_line(name, source, path, text, tmp_path, capsys):
     f = tmp_path / "design.json"
-    f.write_text(_file_text(source), encoding="utf-8")
+    f.write_text(file_text(source), encoding="utf-8")
     code = main(["evaluate", str(f)])
     out = capsys.readouterr()
     assert code == 2

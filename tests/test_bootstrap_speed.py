@@ -12,7 +12,7 @@ import pytest
 from explorer import demo_design, load_design
 from explorer.engines.rail_loop import Loop, broadcast_loop
 from explorer.engines.rail_orbit import interval_map
-from explorer.options.bootstrap import (_ffill_levels, bootstrap_circuit, evaluate_option, schedule_loop, steady_state,
+from explorer.options.bootstrap import (ffill_levels, bootstrap_circuit, evaluate_option, schedule_loop, steady_state,
                                         startup)
 from explorer.schedule import startup_schedule
 
@@ -56,7 +56,7 @@ def test_vectorised_level_fill_equals_loop(periodic):
     dt[3] = 0.0  # a row of zero-length intervals only
     v = rng.normal(size=(50, 40))
     hs = rng.uniform(size=(50, 40)) > 0.5
-    got = _ffill_levels(dt, v, hs, periodic, -0.7, True)
+    got = ffill_levels(dt, v, hs, periodic, -0.7, True)
     ref = _ffill_reference(dt, v, hs, periodic, -0.7, True)
     for g, r in zip(got, ref):
         assert np.array_equal(g, r)
@@ -317,8 +317,8 @@ def test_demo_raises_no_validity_warning(demo):
 
 # --------------------------------------------------------------------------- three-phase limit bounds
 
-from explorer.options.bootstrap import (_full_fundamental_min, _fundamental_bounds,  # noqa: E402
-                                        _three_phase_terms)
+from explorer.options.bootstrap import (full_fundamental_min, fundamental_bounds,  # noqa: E402
+                                        three_phase_terms)
 from explorer.loads import required_rail  # noqa: E402
 
 
@@ -334,18 +334,18 @@ def test_fundamental_bounds_bracket_the_exact_minimum(kw):
     d = _three_phase(**kw)
     circ = bootstrap_circuit(d, d.options[0])
     cases = [(m, f_o) for m in (0.5, 0.95, 1.1) for f_o in (5.0, 1.0)]
-    lo, hi = _fundamental_bounds(d, circ, cases)
+    lo, hi = fundamental_bounds(d, circ, cases)
     for (m, f_o), a, b in zip(cases, lo, hi):
-        exact = _full_fundamental_min(d, circ, m, f_o)
+        exact = full_fundamental_min(d, circ, m, f_o)
         assert a <= exact + 1e-9 and exact <= b + 1e-9
 
 
 @pytest.mark.parametrize("axis", ["m", "f_o"])
 def test_limit_screening_equals_the_exact_scan(axis):
     # reference: the exact rail minimum of every case along the axis (every switching period of the
-    # fundamental solved), scanned from the easiest case until the first failure. _passes screens
+    # fundamental solved), scanned from the easiest case until the first failure. fundamental_passes screens
     # with the bounds and bisects among the undecided cases; the answers must be the same
-    from explorer.options.bootstrap import _passes
+    from explorer.options.bootstrap import fundamental_passes
     d = _three_phase(f_sw=20e3, m=1.0, f_o=1.0, c=10e-6, v_rating=25.0)
     circ = bootstrap_circuit(d, d.options[0])
     need = required_rail(d)
@@ -353,9 +353,9 @@ def test_limit_screening_equals_the_exact_scan(axis):
         cases = [(float(m), 1.0) for m in np.linspace(0.9, 1.2, 13)]
     else:
         cases = [(1.1, float(f)) for f in np.geomspace(50.0, 1.0, 13)]
-    ref = np.cumprod([_full_fundamental_min(d, circ, m, f) >= need for m, f in cases]).astype(bool)
+    ref = np.cumprod([full_fundamental_min(d, circ, m, f) >= need for m, f in cases]).astype(bool)
     assert ref.any() and not ref.all()  # the threshold lies inside the scan
-    assert np.array_equal(_passes(d, circ, cases, need), ref)
+    assert np.array_equal(fundamental_passes(d, circ, cases, need), ref)
 
 
 def test_lowest_output_frequency_is_searched_to_the_quasi_static_limit():
@@ -366,11 +366,11 @@ def test_lowest_output_frequency_is_searched_to_the_quasi_static_limit():
     d = _three_phase(f_sw=20e3, m=1.0, f_o=2.0, c=10e-6, v_rating=25.0)
     circ = bootstrap_circuit(d, d.options[0])
     need = required_rail(d)
-    terms = _three_phase_terms(d, circ, need)
+    terms = three_phase_terms(d, circ, need)
     f = terms["f_o_min"]
     assert f is not None and d.bridge.f_sw / QUASI_STATIC_PERIODS <= f < d.bridge.f_o
-    assert _full_fundamental_min(d, circ, d.bridge.m, f) >= need
-    assert _full_fundamental_min(d, circ, d.bridge.m, 0.0) < need
+    assert full_fundamental_min(d, circ, d.bridge.m, f) >= need
+    assert full_fundamental_min(d, circ, d.bridge.m, 0.0) < need
 
 
 # --------------------------------------------------------------------------- model-validity warnings

@@ -241,7 +241,7 @@ def _ngspice_rail_min(d, phase):
     charge Q_G + Q_LS (10 ns) at each HS turn-on, ``phase`` [s] after the start of a pump cycle; started from the
     model's periodic state under the average load and run for 12 time constants R_out·C_out."""
     from explorer.loads import charge_per_turn_on
-    from explorer.options.charge_pump import _resolve, pump_network
+    from explorer.options.charge_pump import resolve_pump, pump_network
     from explorer.engines.periodic import periodic_steady_state
     from explorer.engines.spice_text import spice_t0, to_spice
     from explorer.spice import run_transient, spice_number
@@ -250,7 +250,7 @@ def _ngspice_rail_min(d, phase):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ModelValidityWarning)
         r = evaluate_option(d, o)
-    p = _resolve(d, o, "nominal")
+    p = resolve_pump(d, o, "nominal")
     net = pump_network(o.ratio, c_fly=p.c_fly, r_on=p.r_on, esr_fly=p.esr_fly, output="load", c_out=p.c_out,
                        esr_out=p.esr_out)
     T, t_p, q = float(p.durations.sum()), 1.0 / d.bridge.f_sw, charge_per_turn_on(d)

@@ -44,6 +44,7 @@ from hypothesis import HealthCheck, Phase, given, settings
 import explorer
 from explorer import DesignError, ExplorerWarning
 from explorer.design import JunctionDiode
+from explorer.engines.rail_loop import broadcast_loop
 from explorer.loads import charge_per_turn_on
 from explorer.options import bootstrap as boot
 from explorer.options import isolated as iso
@@ -96,7 +97,7 @@ def bootstrap_charge_residual(design, option):
         ss = boot.steady_state(design, option)
     if not (ss.orbit.converged and np.all(np.isfinite(ss.orbit.v_start))):
         return None
-    lp = boot._bc(ss.loop)
+    lp = broadcast_loop(ss.loop)
     ints = ss.integrals
     q_in = float(np.sum(ints["q_d"]))
     flows = [np.sum(lp.q_step), np.sum(lp.i_load * lp.dt), np.sum(lp.g_load * ints["int_v"])]
@@ -270,7 +271,7 @@ def test_bootstrap_junction_with_pulldown_conserves_charge():
     design = explorer.load_design(d)
     opt = design.options[0]
     assert isinstance(opt.diode, JunctionDiode)
-    lp = boot._bc(boot.steady_state(design, opt).loop)
+    lp = broadcast_loop(boot.steady_state(design, opt).loop)
     assert np.any((lp.v_src > 0) & (lp.g_load > 0))  # the case the finding was about
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ExplorerWarning)
@@ -411,7 +412,7 @@ def test_bootstrap_junction_mean_within_min_and_max():
         design = explorer.load_design(_JUNCTION_MEAN)
         ss = boot.steady_state(design, design.options[0])
     assert r.v_rail.min <= r.v_rail.mean <= r.v_rail.max
-    lp = boot._bc(ss.loop)
+    lp = broadcast_loop(ss.loop)
     area = 0.0
     for k in range(lp.dt.size):
         R, th, i_s, vs = lp.r[k], lp.n_vt[k], lp.i_s[k], lp.v_src[k]

@@ -25,7 +25,7 @@ from explorer.panels import form as form_mod
 from explorer.panels import runner, widgets
 from explorer.views.table import side_by_side_html
 
-from test_bad_input import CASES, _file_text  # the catalogue's cases (tests/ is on sys.path)
+from test_bad_input import CASES, file_text  # the catalogue's cases (tests/ is on sys.path)
 
 
 @pytest.fixture(autouse=True)
@@ -48,8 +48,8 @@ def shared():
         return panels.explore(explorer.demo_design()).wait()
 
 
-def _colors(c):
-    return widgets._colors([r.label for r in c.options])
+def option_colors(c):
+    return widgets.option_colors([r.label for r in c.options])
 
 
 def _same(panel, design):
@@ -59,8 +59,8 @@ def _same(panel, design):
         direct = evaluate(design)
     assert panel.design == design
     assert panel.result.to_json() == direct.to_json()
-    assert panel.comparison.table.value == side_by_side_html(direct, _colors(direct))
-    mod = widgets._plots_module()
+    assert panel.comparison.table.value == side_by_side_html(direct, option_colors(direct))
+    mod = widgets.plots_module()
     if mod is not None:
         fresh = mod.comparison_plots(direct, max_points=widgets.PLOT_POINTS)
         assert list(panel.comparison.plots) == list(fresh)
@@ -239,13 +239,13 @@ def test_catalogue_case_typed_into_its_field(shared, name, path, typed):
     assert ex.error is None and ex.result is before  # back to the valid design: nothing re-evaluated
 
 
-@pytest.mark.parametrize("case", [c for c in CASES if _file_text(c[1]) is not None], ids=lambda c: c[0])
+@pytest.mark.parametrize("case", [c for c in CASES if file_text(c[1]) is not None], ids=lambda c: c[0])
 def test_catalogue_case_loaded_from_a_file(shared, case, tmp_path):
     """docs/bad-input.md, panel column "load": the status line shows the exact text load_design
     gives (the catalogue's, which tests/test_bad_input.py checks); the design on screen stays."""
     name, source, _, _ = case
     f = tmp_path / "d.json"
-    f.write_text(_file_text(source), encoding="utf-8")
+    f.write_text(file_text(source), encoding="utf-8")
     ex = shared
     before = ex.result
     ex.path.value = str(f)
@@ -279,7 +279,7 @@ def test_save_and_load_buttons(ex, tmp_path):
 
 def test_static_summary_embeds_the_design_and_the_table(ex):
     text = ex.summary(plots=False)._repr_html_()
-    assert side_by_side_html(ex.result, _colors(ex.result)) in text
+    assert side_by_side_html(ex.result, option_colors(ex.result)) in text
     pre = text.split("<pre class='explorer-design'>")[1].split("</pre>")[0]
     assert load_design(json.loads(html.unescape(pre))) == ex.design
     ex.summary_button.click()

@@ -366,7 +366,7 @@ def test_stored_notebooks_carry_bokehjs_once_and_their_plots(path):
 
 
 def test_report_copies_no_plot_script_from_a_notebook_and_says_so(comparisons):
-    from explorer.views.report import _output
+    from explorer.views.report import output_html
     p = plots.steady_plot(comparisons["demo"])
-    out = _output({"output_type": "execute_result", "data": {"text/html": p._repr_html_(), "text/plain": repr(p)}})
+    out = output_html({"output_type": "execute_result", "data": {"text/html": p._repr_html_(), "text/plain": repr(p)}})
     assert "<script" not in out and "a plot in the notebook" in out and "Steady-state rail" in out

@@ -174,7 +174,7 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
 
 # --------------------------------------------------------------------------- loops
 
-def _ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool):
+def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool):
     """Level and HS state of the previous interval of non-zero length (zero-length ones are skipped)."""
     n = dt.shape[-1]
     v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
@@ -238,7 +238,7 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
     hs_on = np.broadcast_to(np.asarray(hs_on, dtype=bool), dt.shape)
     v_prev0 = circ.v_sw_low if v_prev0 is None else v_prev0
-    lev, prev_l, prev_h = _ffill_levels(dt, v_sw, hs_on, periodic, v_prev0, hs_prev0)
+    lev, prev_l, prev_h = ffill_levels(dt, v_sw, hs_on, periodic, v_prev0, hs_prev0)
     live = dt > 0
     high = lev > 0.5 * circ.v_bus
     rise = live & high & (prev_l <= 0.5 * circ.v_bus)
@@ -701,7 +701,7 @@ def _reported_min(v_min):
 _MAP_BLOCK = 8192
 
 
-def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
+def duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
     """Largest HS duty whose steady-state minimum stays at or above each threshold (None: none)."""
     f = analysis_frequency(design.bridge)
     th = np.asarray(thresholds, dtype=float)
@@ -752,7 +752,7 @@ def _duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
 F_O_SEARCH_PERIODS = QUASI_STATIC_PERIODS
 
 
-def _full_fundamental_min(design, circ, m, f_o):
+def full_fundamental_min(design, circ, m, f_o):
     """Steady-state rail minimum over a whole fundamental, every interval solved (reference path) [V]."""
     b = design.bridge
     n = periods_per_fundamental(b.f_sw, f_o)
@@ -819,7 +819,7 @@ def _peak_span(bridge, n):
     return n / 4.0, n / 4.0
 
 
-def _fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
+def fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     """Lower and upper bounds of the rail minimum over a fundamental for each ``(m, f_o)`` [V].
 
     * Lower: the periodic minimum of :func:`_worst_period` at the peak duty. Its
@@ -869,25 +869,25 @@ def _fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     return lower, upper
 
 
-def _passes(design, circ, cases, need, exact=None):
+def fundamental_passes(design, circ, cases, need, exact=None):
     """Whether the rail minimum over a fundamental stays at or above ``need`` for each ``(m, f_o)``.
 
     ``cases`` must be ordered from the easiest to the hardest (m rising or f_o
     falling): the rail minimum falls monotonically along them (tested), so the
     answer is a run of passes followed by a run of failures. Each case is first
-    screened by :func:`_fundamental_bounds` (passes where its lower bound is at
+    screened by :func:`fundamental_bounds` (passes where its lower bound is at
     or above ``need``, fails where its upper bound is below); the boundary among
     the undecided ones is found by bisection on exact minima
-    (:func:`_full_fundamental_min`, or ``exact(m, f_o)`` when given, e.g. a
+    (:func:`full_fundamental_min`, or ``exact(m, f_o)`` when given, e.g. a
     memoised one), a few exact solves instead of one per undecided case.
     """
-    exact = exact or (lambda m, f_o: _full_fundamental_min(design, circ, m, f_o))
+    exact = exact or (lambda m, f_o: full_fundamental_min(design, circ, m, f_o))
     n = np.array([periods_per_fundamental(design.bridge.f_sw, f_o) for _, f_o in cases])
     lower = np.full(len(cases), -np.inf)
     upper = np.full(len(cases), np.inf)
     big = np.flatnonzero(n > _BOUNDS_FROM)  # below this the exact solve is cheaper than the bounds
     if big.size:
-        lower[big], upper[big] = _fundamental_bounds(design, circ, [cases[i] for i in big])
+        lower[big], upper[big] = fundamental_bounds(design, circ, [cases[i] for i in big])
     fails = np.flatnonzero(upper < need)
     hi = int(fails[0]) if fails.size else len(cases)       # cases from hi on fail
     holds = np.flatnonzero(lower[:hi] >= need)
@@ -903,15 +903,15 @@ def _passes(design, circ, cases, need, exact=None):
     return ok
 
 
-#: Fundamentals of more switching periods than this are first screened by :func:`_fundamental_bounds`.
+#: Fundamentals of more switching periods than this are first screened by :func:`fundamental_bounds`.
 _BOUNDS_FROM = 8192
 
 
-def _three_phase_terms(design, circ, need):
+def three_phase_terms(design, circ, need):
     """Highest m at this f_o (grid rounds, then interpolation) and lowest f_o at this m (grid rounds in log f_o).
 
     The rail minimum falls as m rises and as f_o falls (tested with hypothesis).
-    Each grid point is decided by :func:`_passes` (bounds first, the exact
+    Each grid point is decided by :func:`fundamental_passes` (bounds first, the exact
     minimum only where they do not decide); the final bracket of m is
     interpolated between exact minima. f_o is searched down to the lowest legal
     value, f_sw / ``F_O_SEARCH_PERIODS``.
@@ -923,7 +923,7 @@ def _three_phase_terms(design, circ, need):
     def exact(m, f_o):  # each exact minimum once per evaluation (grid rounds share their ends)
         key = (float(m), float(f_o))
         if key not in memo:
-            memo[key] = _full_fundamental_min(design, circ, m, f_o)
+            memo[key] = full_fundamental_min(design, circ, m, f_o)
         return memo[key]
 
     lo, hi = 0.0, 4 / math.pi
@@ -931,7 +931,7 @@ def _three_phase_terms(design, circ, need):
     bracket = None
     for _ in range(3):
         g = np.linspace(lo, hi, 17)
-        ok = _passes(design, circ, [(float(x), b.f_o) for x in g], need, exact)
+        ok = fundamental_passes(design, circ, [(float(x), b.f_o) for x in g], need, exact)
         if ok.all():
             m_max = float(hi)
             bracket = None
@@ -957,7 +957,7 @@ def _three_phase_terms(design, circ, need):
         g = np.geomspace(f_lo, f_hi, 17)
         if r:
             g = g[1:-1]  # the bracket ends are known
-        ok = _passes(design, circ, [(b.m, float(f)) for f in g[::-1]], need, exact)[::-1]
+        ok = fundamental_passes(design, circ, [(b.m, float(f)) for f in g[::-1]], need, exact)[::-1]
         if r == 0 and not ok[-1]:
             out["f_o_min"] = None
             return out
@@ -977,12 +977,12 @@ def _three_phase_terms(design, circ, need):
     return out
 
 
-def _topology_terms(design, circ, h_max, need, v_min_ss):
+def topology_terms(design, circ, h_max, need, v_min_ss):
     """The duty limit in the topology's own terms (the table's rule; three_phase searches m and f_o)."""
     b = design.bridge
     limit = topology_of(b).duty_limit
     if limit is None:
-        return _three_phase_terms(design, circ, need)
+        return three_phase_terms(design, circ, need)
     ok = bool(v_min_ss is not None and v_min_ss >= need)
     return limit(b, h_max, _period(design), ok)
 
@@ -1108,7 +1108,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
                     f"capacitor (common practice): V_DD dips by about {_fmt(v_dd_dip, 'V')} while it fills")
 
     # ---- duty limits
-    h_need, h_uvlo = _duty_limit(design, circ, [need, drv.uvlo_off])
+    h_need, h_uvlo = duty_limit(design, circ, [need, drv.uvlo_off])
     h_min = min(1.0, drv.t_on_min / _period(design))
     # hold-up at 100 % duty from the steady-state maximum (the full charge target if never refreshed)
     v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
@@ -1120,7 +1120,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     t_ls_min = None if h_need is None else max(0.0, (1.0 - h_need) * T_sw - 2 * b.dead_time)
     if light_load(b) and h_need is not None:
         t_ls_min = _ls_pulse_min(design, circ, need)
-    topo = _topology_terms(design, circ, h_need, need, v_min)
+    topo = topology_terms(design, circ, h_need, need, v_min)
     duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
                       t_ls_min=t_ls_min, topology=topo, hold_up_threshold=need, hold_up_to=HOLD_UP_TO)
     extra["duty_max_uvlo_off"] = h_uvlo
@@ -1158,7 +1158,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     p_aux = p_bus = p_del = eff = None
     losses: dict = {}
     if refreshed:
-        lev, prev_l, _ = _ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
+        lev, prev_l, _ = ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
         high = lev > 0.5 * b.v_bus
         rise = (sched.dt > 0) & high & (prev_l <= 0.5 * b.v_bus)
         n_rise = int(np.count_nonzero(rise))

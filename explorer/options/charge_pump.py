@@ -600,7 +600,7 @@ class _Pump:
     r_on: float
 
 
-def _resolve(design: Design, opt: ChargePumpOption, corner: str, *, k_c=None, k_out=None, k_v=None) -> _Pump:
+def resolve_pump(design: Design, opt: ChargePumpOption, corner: str, *, k_c=None, k_out=None, k_v=None) -> _Pump:
     """Effective pump values; ``k_c``, ``k_out``, ``k_v`` (arrays) scale C_fly, C_out and V_in per sample.
 
     With factors the arithmetic is that of :func:`explorer.tolerance.apply_factors`
@@ -719,7 +719,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     """
     if not isinstance(option, ChargePumpOption):
         raise DesignError("option", "expected a charge_pump option", type(option).__name__)
-    pump = _resolve(design, option, corner)
+    pump = resolve_pump(design, option, corner)
     circ = pump.circ
     v_in = pump.v_in
     v_ideal = circ.m * v_in
@@ -989,7 +989,7 @@ def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndar
     def col(x):
         return np.broadcast_to(np.asarray(x, dtype=float), (n,))
 
-    pump = _resolve(design, option, "nominal", k_c=k_c, k_out=col(factors.k_out), k_v=col(factors.v_dd))
+    pump = resolve_pump(design, option, "nominal", k_c=k_c, k_out=col(factors.k_out), k_v=col(factors.v_dd))
     load = _rail_load(design, period_schedule(design), k_q=col(factors.q_g), k_i=col(factors.i_q))
     r_out, _, _, sol = _steady(pump, option, load)
     return np.asarray(_rail_bounds(sol, pump, load, r_out)["v_min"], dtype=float).reshape(n)

@@ -85,7 +85,7 @@ def cautions_for(design: Design, comparison=None) -> list[str]:
     return out
 
 
-def _plots_module():
+def plots_module():
     """``explorer.views.plots`` (needs Bokeh), or None when this install has no plots."""
     import importlib
     try:
@@ -97,8 +97,8 @@ def _plots_module():
     return plots
 
 
-def _colors(labels) -> dict:
-    plots = _plots_module()
+def option_colors(labels) -> dict:
+    plots = plots_module()
     return plots.option_colors(labels) if plots is not None else {}
 
 
@@ -433,7 +433,7 @@ class OptionEditor(W.VBox):
                                   self.kind, self.add]), self.row])
 
     def rebuild(self, colors: dict | None = None) -> None:
-        colors = colors or _colors([o.get("label") for o in self.form.options])
+        colors = colors or option_colors([o.get("label") for o in self.form.options])
         self.cards = [self._card(i, o, colors.get(o.get("label"), "#888888")) for i, o in enumerate(self.form.options)]
         self.row.children = [c.view for c in self.cards]
 
@@ -511,8 +511,8 @@ class ComparisonPanel(W.VBox):
         """Show a new result: the table's rows and the plots' sources (assigned in place)."""
         self.comparison = comparison
         labels = [r.label for r in comparison.options]
-        self.table.value = side_by_side_html(comparison, _colors(labels))
-        plots = _plots_module() if self.which else None
+        self.table.value = side_by_side_html(comparison, option_colors(labels))
+        plots = plots_module() if self.which else None
         if not self.which:
             return
         if plots is None:
@@ -548,8 +548,8 @@ def summary_html(comparison, *, plots: bool = True) -> str:
     parts = [f"<div class='explorer-summary'><h3>{_e(comparison.title)}</h3>"]
     if caution:
         parts.append(f"<ul style='border:2px solid {_BAD};padding:4px 24px'>{caution}</ul>")
-    parts.append(side_by_side_html(comparison, _colors(labels)))
-    mod = _plots_module() if plots else None
+    parts.append(side_by_side_html(comparison, option_colors(labels)))
+    mod = plots_module() if plots else None
     if mod is not None:
         from bokeh.embed import components
         script, divs = components({k: p.figure for k, p in mod.comparison_plots(comparison, max_points=PLOT_POINTS).items()})

@@ -123,7 +123,7 @@ def _markdown(text: str) -> str:
     return mistune.create_markdown(escape=True, plugins=["table", "strikethrough"])(text)
 
 
-def _output(o: dict) -> str:
+def output_html(o: dict) -> str:
     kind = o.get("output_type")
     if kind == "stream":
         return f"<pre class='stream'>{_e(''.join(o.get('text', '')))}</pre>"
@@ -170,7 +170,7 @@ def _notebook(source) -> str:
         if c.get("cell_type") == "markdown":
             out.append(f"<div class='cell md'>{_markdown(src)}</div>")
         elif c.get("cell_type") == "code":
-            outs = "".join(_output(o) for o in c.get("outputs", []) if isinstance(o, dict))
+            outs = "".join(output_html(o) for o in c.get("outputs", []) if isinstance(o, dict))
             out.append(f"<div class='cell code'><pre class='src'>{_e(src)}</pre>{outs}</div>")
     return "".join(out)
 
