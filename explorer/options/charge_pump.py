@@ -76,7 +76,7 @@ from ..capacitors import capacitance, parse_dielectric
 from ..design import ChargePumpOption, Design
 from ..engines.elements import Cap, ISrc, Res, VSrc
 from ..engines.network import Network
-from ..engines.periodic import periodic_steady_state
+from ..engines.periodic import PeriodicSolution, periodic_steady_state
 from ..engines.transient import MAX_STARTUP_CYCLES, StartupTransient
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_on, load_power, required_rail
@@ -698,6 +698,232 @@ def _rail_bounds(sol, pump: _Pump, load: _Load, r_out, pump_extrema=None) -> dic
     return out
 
 
+@dataclass(frozen=True)
+class _PumpSteady:
+    """The pump's periodic steady state under the average load, and the figures read from it.
+
+    Voltages [V], currents [A]; ``t_w``/``v_out_w`` the plotted waveform; ``x_lo``/``x_hi`` the exact
+    extremes of x(c_fly), x(c_out) and v(out); ``ends`` the probes at the phase ends (switches,
+    i(c_fly), i(c_out), v(b)); ``i_peak_ss`` the peak of each switch and capacitor current.
+    """
+
+    r_out: float
+    m_engine: float
+    net: Network
+    sol: PeriodicSolution
+    t_w: np.ndarray
+    v_out_w: np.ndarray
+    x_lo: np.ndarray
+    x_hi: np.ndarray
+    v_mean: float
+    i_in: float
+    i_sw_rms: np.ndarray
+    i_fly_rms: float
+    i_out_rms: float
+    v_rms: float
+    ends: np.ndarray
+    i_peak_ss: np.ndarray
+
+
+def _steady_figures(pump: _Pump, option: ChargePumpOption, load: _Load) -> _PumpSteady:
+    """Steady state: output impedance (exact, from the engine) and the periodic orbit under the average load."""
+    r_out, m_engine, net, sol = _steady(pump, option, load)
+    t_w, y = sol.samples(["v(out)"], n=32)
+    x_lo, x_hi = sol.extrema(["x(c_fly)", "x(c_out)", "v(out)"])  # one batch; v(out) for the rail bounds
+    mean = sol.mean(["v(out)", "i(v_in)"])
+    rms = sol.rms(list(SWITCHES) + ["i(c_fly)", "i(c_out)", "v(out)"])
+    starts = sol.at_phase_starts(list(SWITCHES) + ["i(c_fly)", "i(c_out)"])
+    ends = sol.at_phase_ends(list(SWITCHES) + ["i(c_fly)", "i(c_out)", "v(b)"])
+    i_peak_ss = np.maximum(np.abs(starts).max(axis=1), np.abs(ends[:6]).max(axis=1))
+    # y[0] is the plotted waveform; extremes are exact (PeriodicSolution.extrema)
+    return _PumpSteady(r_out=r_out, m_engine=m_engine, net=net, sol=sol, t_w=t_w, v_out_w=y[0], x_lo=x_lo,
+                       x_hi=x_hi, v_mean=float(mean[0]), i_in=-float(mean[1]), i_sw_rms=rms[:4],
+                       i_fly_rms=float(rms[4]), i_out_rms=float(rms[5]), v_rms=float(rms[6]), ends=ends,
+                       i_peak_ss=i_peak_ss)
+
+
+@dataclass(frozen=True)
+class _PumpPower:
+    """Power and losses [W] of one pump (``d_high`` the share of time the switch node is high [-])."""
+
+    p_delivered: float
+    p_load_engine: float
+    p_in_direct: float
+    p_in: float
+    p_cross: float
+    p_cross_worst: float
+    p_drawn_aux: float
+    p_drawn: float
+    d_high: float
+    losses: dict
+    collapsed: bool
+    efficiency: float | None
+
+
+def _power(design: Design, option: ChargePumpOption, pump: _Pump, sched, load: _Load, ss: _PumpSteady) -> _PumpPower:
+    """Power drawn and delivered, losses by mechanism, efficiency (None when the rail collapses)."""
+    v_in, g_load, t_a = pump.v_in, load.g_load, load.t_a
+    p_delivered = float(load_power(design, sched, ss.v_mean))
+    p_load_engine = load.i0 * ss.v_mean + (ss.v_rms ** 2 * g_load)
+    p_sw = float(np.sum(ss.i_sw_rms ** 2) * pump.r_on)
+    p_esr = ss.i_fly_rms ** 2 * pump.esr_fly + ss.i_out_rms ** 2 * pump.esr_out
+    # Input power by conservation of energy over the periodic orbit (Tellegen: source power = load +
+    # dissipation), a sum of positive terms. The direct V_in·mean(i_in) equals it in exact arithmetic
+    # but is a small difference of phase integrals when the load is tiny (it came out 1.6e-6 below the
+    # delivered power for a 0.1 µA load); it is kept in ``details`` with the residual between the two.
+    p_in_direct = v_in * ss.i_in
+    p_in = p_load_engine + p_sw + p_esr
+    v_b_phase = ss.ends[6]
+    v_bp = float(abs(v_b_phase[PHI1] - v_b_phase[PHI2]))
+    p_bp = option.alpha_bp * pump.c_fly * v_bp ** 2 * pump.f_cp
+    v_g = option.v_g_sw if option.v_g_sw is not None else v_in
+    n_switches = len(pump.circ.switches)
+    p_gate = n_switches * option.q_g_sw * v_g * pump.f_cp
+    d_high = float(sched.dt[sched.sw_high].sum() / t_a)
+    n_edges = int(np.count_nonzero(sched.sw_rise) + np.count_nonzero(sched.sw_fall))
+    p_rail_domain = float(pump.durations[PHI2] * pump.f_cp)
+    v_bus = design.bridge.v_bus
+    p_cross = 0.5 * option.c_par * v_bus ** 2 * (2.0 * pump.f_cp * d_high + n_edges / t_a * p_rail_domain)
+    p_cross_worst = option.c_par * v_bus ** 2 * pump.f_cp + 0.5 * option.c_par * v_bus ** 2 * n_edges / t_a
+    p_drawn_aux = p_in + p_bp + p_gate
+    p_drawn = p_drawn_aux + p_cross
+    losses = {"conduction_switches": p_sw, "conduction_esr": p_esr, "bottom_plate": p_bp,
+              "pump_gate_drive": p_gate, "domain_crossing": p_cross}
+    collapsed = ss.v_mean <= 0.0
+    efficiency = p_delivered / p_drawn if (p_drawn > 0 and not collapsed) else None
+    return _PumpPower(p_delivered=p_delivered, p_load_engine=p_load_engine, p_in_direct=p_in_direct, p_in=p_in,
+                      p_cross=p_cross, p_cross_worst=p_cross_worst, p_drawn_aux=p_drawn_aux, p_drawn=p_drawn,
+                      d_high=d_high, losses=losses, collapsed=collapsed, efficiency=efficiency)
+
+
+def _capacitor_stress(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load, ss: _PumpSteady,
+                      rail: dict, st: dict) -> tuple[tuple, list]:
+    """Stress of C_fly and C_out over the steady state and the start-up, and their voltage checks."""
+    checks, caps = [], []
+    y_min, y_max = rail["y_min"], rail["y_max"]
+    for name, xw, i_rms, i_pk, cap, c_eff, extra_rip in (
+            ("c_fly", 0, ss.i_fly_rms, float(ss.i_peak_ss[4]), option.c_fly, pump.c_fly, 0.0),
+            ("c_out", 1, ss.i_out_rms, float(ss.i_peak_ss[5]), option.c_out, pump.c_out, y_max - y_min)):
+        v_hi = max(float(ss.x_hi[xw]) + (y_max if name == "c_out" else 0.0), st["x_max"][name])
+        ripple = float(ss.x_hi[xw] - ss.x_lo[xw]) + extra_rip
+        i_pk = max(i_pk, st["i_cap_peak"][name])
+        if name == "c_out" and load.n_on > 0:
+            # the gate pulse, taken as a rectangle of width t_edge (estimate)
+            t_e = design.bridge.t_edge
+            f_p = load.n_on / load.t_a
+            q_pulse = load.q_pulse
+            i_rms = math.sqrt(i_rms ** 2 + max(q_pulse ** 2 * f_p / t_e - (q_pulse * f_p) ** 2, 0.0))
+            i_pk = max(i_pk, q_pulse / t_e)
+        caps.append(CapacitorStress(name=name, c_eff=c_eff, v_max=v_hi, v_rating=cap.v_rating,
+                                    ripple=ripple, i_rms=i_rms, i_peak=i_pk))
+        cap_check = cap_voltage_check(design, name, v_hi, cap.v_rating, f"{name} voltage stays within its derated rating")
+        if cap_check is not None:
+            checks.append(cap_check)
+    return tuple(caps), checks
+
+
+def _switch_block(design: Design, option: ChargePumpOption, v_in: float) -> tuple[float, list, list]:
+    """The domain-crossing switches block V_bus + V_in (the module notes): (V_block [V], checks, warnings)."""
+    v_block = design.bridge.v_bus + v_in
+    checks, warn = [], []
+    if option.v_rating_sw is not None:
+        lim_sw = option.v_rating_sw * design.checks.switch_derating
+        checks.append(Check("switch_v_block", v_block, lim_sw, "max", "V",
+                            "pump switches block V_bus + V_in within their derated rating"))
+        if v_block > lim_sw:
+            warn.append(f"the pump switches must block V_bus + V_in = {v_block:g} V, above "
+                        f"{design.checks.switch_derating:g} \u00d7 their {option.v_rating_sw:g} V rating "
+                        f"= {lim_sw:g} V")
+    return v_block, checks, warn
+
+
+def _duty_limits(design: Design, pump: _Pump, load: _Load, ss: _PumpSteady, rail: dict) -> tuple[DutyLimits, dict]:
+    """Duty and load limits: any HS duty while the rail holds; the highest f_sw and Q_G (and those limits)."""
+    req = required_rail(design)
+    lim = _load_limits(design, pump, pump.circ, ss.r_out, rail["v_pump_min"], ss.v_mean, load.i0, load.g_load,
+                       load.q_pulse, load.n_on, load.t_a, req)
+    feasible_duty = rail["v_min"] >= req
+    duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
+                      t_ls_min=None,
+                      topology={"f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
+                                "note": "a pump needs no refresh: any HS duty 0..100 % while the load holds"})
+    return duty, lim
+
+
+def _rail_checks(design: Design, v_min: float, v_max: float, v_final: float) -> tuple[Check, list]:
+    """The checks every kind shares: (rail minimum, [rail maximum vs V_BS and V_GS, start-up to UVLO])."""
+    first = rail_min_check(design, v_min, "rail minimum stays above max(UVLO off, V_GS needed) + margin")
+    return first, [rail_max_v_bs_check(design, v_max, "rail stays below the driver's V_BS absolute maximum"),
+                   rail_max_v_gs_check(design, v_max, "rail stays below the gate's V_GS rating"),
+                   startup_uvlo_check(design, v_final, "the pump alone brings the rail up to the UVLO rising "
+                                      "threshold (highest rail during start-up)")]
+
+
+def _ratio_warnings(design: Design, pump: _Pump, collapsed: bool) -> list:
+    """Warnings of a rail that collapses or whose ideal ratio exceeds the gate's or the driver's rating."""
+    circ, v_in = pump.circ, pump.v_in
+    v_ideal = circ.m * v_in
+    warn = []
+    if collapsed:
+        warn.append("the pump cannot carry the gate-drive load: its mean rail would fall below 0 V "
+                    "(the driver would stay in UVLO); efficiency is not defined")
+    if v_ideal > design.gate.v_gs_max:
+        warn.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the gate's "
+                    f"V_GS rating of {design.gate.v_gs_max:g} V")
+    if v_ideal > design.driver.v_bs_max:
+        warn.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the driver's "
+                    f"V_BS maximum of {design.driver.v_bs_max:g} V")
+    return warn
+
+
+def _validity(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load, ss: _PumpSteady, sched,
+              ripple: float) -> tuple[list, float, float]:
+    """Where the model's assumptions stop holding (:func:`pump_validity`), each warned once per evaluation.
+
+    Returns (messages, slowest loop time constant τ_loop [s], Thévenin resistance of the rail [Ω]).
+    """
+    lam = ss.net.modes[0] if ss.net.modes is not None else np.zeros(1)
+    rate = float(np.max(-lam, initial=0.0))
+    tau_loop = 1.0 / rate if rate > 0.0 else math.inf
+    r_out, r_eq = ss.r_out, load.r_eq
+    r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
+    msgs = pump_validity(design, option, tau_loop=tau_loop, r_th=r_th, c_out=pump.c_out, v_mean=ss.v_mean,
+                         ripple=ripple, schedule=sched)
+    for msg in msgs:
+        warnings.warn(f"{option.label}: {msg}", ModelValidityWarning, stacklevel=3)
+    return list(msgs), tau_loop, r_th
+
+
+def _details(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load, sched, ss: _PumpSteady,
+             power: _PumpPower, rail: dict, st: dict, lim: dict, v_block: float, tau_loop: float,
+             r_th: float) -> ChargePumpDetails:
+    """The pump's own figures (:class:`~explorer.options.details.ChargePumpDetails`)."""
+    circ, v_in = pump.circ, pump.v_in
+    i0, g_load, v_mean = load.i0, load.g_load, ss.v_mean
+    duty_cp = float(phase_duty(pump.f_cp, option.dead_time_cp))
+    rs = float(r_ssl(pump.c_fly, pump.f_cp, ratio=circ.ratio))
+    rf = float(r_fsl(pump.r_on, ratio=circ.ratio, duty=duty_cp, esr_fly=pump.esr_fly))
+    return ChargePumpDetails(
+        ratio=circ.ratio, m=circ.m, m_engine=ss.m_engine, v_in=v_in, v_ideal=circ.m * v_in,
+        c_fly_eff=pump.c_fly, c_out_eff=pump.c_out, phase_duty=duty_cp,
+        r_ssl=rs, r_fsl=rf, r_out_coth=r_out_exact(rs, rf), r_out_sqrt=r_out_sqrt(rs, rf),
+        i_load_avg=i0 + v_mean * g_load, i_load_const=i0, g_load=g_load,
+        p_i2r=(i0 + v_mean * g_load) ** 2 * ss.r_out,
+        p_load_engine=power.p_load_engine, p_in_direct=power.p_in_direct,
+        energy_residual=power.p_in_direct - power.p_in,
+        q_pulse=load.q_pulse, pulse_dip=-rail["y_min"], pulse_rise=rail["y_max"],
+        v_pump_min=rail["v_pump_min"], v_pump_max=rail["v_pump_max"],
+        v_block_switch=v_block,
+        domain_crossing_worst=power.p_cross_worst, sw_high_fraction=power.d_high,
+        f_sw_max=lim["f_sw_max"], q_g_max=lim["q_g_max"],
+        switch_i_rms=tuple(float(v) for v in ss.i_sw_rms), switch_i_peak=tuple(float(v) for v in ss.i_peak_ss[:4]),
+        startup_i_peak_switch=st["i_peak"],
+        tau_loop=tau_loop, pump_cycles_per_turn_on=(pump.f_cp * load.t_a / load.n_on) if load.n_on else None,
+        pull_down_sag=pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=pump.c_out),
+        treatment_async="superposition: pump steady state under the average load plus the gate-charge "
+                        "pulse train through R_out and C_out, extremes aligned (worst-case phase)")
+
+
 def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "nominal") -> OptionResult:
     """Evaluate one charge-pump option of a design.
 
@@ -716,166 +942,41 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         from the engine), start-up by pump cycles, duty limits 0–100 % with the
         highest f_sw and Q_G in ``details`` and ``duty.topology``, capacitor
         stress and checks.
+
+    Notes
+    -----
+    One step per part of the result: the steady state (:func:`_steady_figures`), the rail with the
+    gate-charge pulse train (:func:`_rail_bounds`), power (:func:`_power`), start-up (:func:`_startup`),
+    stress (:func:`_capacitor_stress`, :func:`_switch_block`), duty limits (:func:`_duty_limits`), the
+    shared checks, the model's validity and the details.
     """
     if not isinstance(option, ChargePumpOption):
         raise DesignError("option", "expected a charge_pump option", type(option).__name__)
     pump = resolve_pump(design, option, corner)
-    circ = pump.circ
-    v_in = pump.v_in
-    v_ideal = circ.m * v_in
     sched = period_schedule(design)
     load = _rail_load(design, sched)
-    t_a, n_on, q_pulse, i0, g_load, r_eq = load.t_a, load.n_on, load.q_pulse, load.i0, load.g_load, load.r_eq
-
-    # --- output impedance (exact, from the engine) and steady state under the average load
-    r_out, m_engine, net, sol = _steady(pump, option, load)
-    duty_cp = float(phase_duty(pump.f_cp, option.dead_time_cp))
-    rs = float(r_ssl(pump.c_fly, pump.f_cp, ratio=circ.ratio))
-    rf = float(r_fsl(pump.r_on, ratio=circ.ratio, duty=duty_cp, esr_fly=pump.esr_fly))
-
-    t_w, y = sol.samples(["v(out)"], n=32)
-    v_out_w = y[0]  # the plotted waveform; extremes are exact (PeriodicSolution.extrema)
-    x_lo, x_hi = sol.extrema(["x(c_fly)", "x(c_out)", "v(out)"])  # one batch; v(out) for the rail bounds
-    mean = sol.mean(["v(out)", "i(v_in)"])
-    v_mean = float(mean[0])
-    i_in = -float(mean[1])
-    rms = sol.rms(list(SWITCHES) + ["i(c_fly)", "i(c_out)", "v(out)"])
-    i_sw_rms, i_fly_rms, i_out_rms, v_rms = rms[:4], float(rms[4]), float(rms[5]), float(rms[6])
-    starts = sol.at_phase_starts(list(SWITCHES) + ["i(c_fly)", "i(c_out)"])
-    ends = sol.at_phase_ends(list(SWITCHES) + ["i(c_fly)", "i(c_out)", "v(b)"])
-    i_peak_ss = np.maximum(np.abs(starts).max(axis=1), np.abs(ends[:6]).max(axis=1))
-
-    # --- the pulse train, worst-case relative phase
-    rail = _rail_bounds(sol, pump, load, r_out, pump_extrema=(x_lo[2], x_hi[2]))
-    y_min, y_max = rail["y_min"], rail["y_max"]
+    ss = _steady_figures(pump, option, load)
+    rail = _rail_bounds(ss.sol, pump, load, ss.r_out, pump_extrema=(ss.x_lo[2], ss.x_hi[2]))
     v_min, v_max = rail["v_min"], rail["v_max"]
-
-    # --- power and losses
-    p_delivered = float(load_power(design, sched, v_mean))
-    p_load_engine = i0 * v_mean + (v_rms ** 2 * g_load)
-    p_sw = float(np.sum(i_sw_rms ** 2) * pump.r_on)
-    p_esr = i_fly_rms ** 2 * pump.esr_fly + i_out_rms ** 2 * pump.esr_out
-    # Input power by conservation of energy over the periodic orbit (Tellegen: source power = load +
-    # dissipation), a sum of positive terms. The direct V_in·mean(i_in) equals it in exact arithmetic
-    # but is a small difference of phase integrals when the load is tiny (it came out 1.6e-6 below the
-    # delivered power for a 0.1 µA load); it is kept in ``details`` with the residual between the two.
-    p_in_direct = v_in * i_in
-    p_in = p_load_engine + p_sw + p_esr
-    v_b_phase = ends[6]
-    v_bp = float(abs(v_b_phase[PHI1] - v_b_phase[PHI2]))
-    p_bp = option.alpha_bp * pump.c_fly * v_bp ** 2 * pump.f_cp
-    v_g = option.v_g_sw if option.v_g_sw is not None else v_in
-    n_switches = len(circ.switches)
-    p_gate = n_switches * option.q_g_sw * v_g * pump.f_cp
-    d_high = float(sched.dt[sched.sw_high].sum() / t_a)
-    n_edges = int(np.count_nonzero(sched.sw_rise) + np.count_nonzero(sched.sw_fall))
-    p_rail_domain = float(pump.durations[PHI2] * pump.f_cp)
-    v_bus = design.bridge.v_bus
-    p_cross = 0.5 * option.c_par * v_bus ** 2 * (2.0 * pump.f_cp * d_high + n_edges / t_a * p_rail_domain)
-    p_cross_worst = option.c_par * v_bus ** 2 * pump.f_cp + 0.5 * option.c_par * v_bus ** 2 * n_edges / t_a
-    p_drawn_aux = p_in + p_bp + p_gate
-    p_drawn = p_drawn_aux + p_cross
-    losses = {"conduction_switches": p_sw, "conduction_esr": p_esr, "bottom_plate": p_bp,
-              "pump_gate_drive": p_gate, "domain_crossing": p_cross}
-    collapsed = v_mean <= 0.0
-    efficiency = p_delivered / p_drawn if (p_drawn > 0 and not collapsed) else None
-
-    # --- start-up from 0 V by pump cycles (HS pulses withheld, only I_Q drawn)
-    st = _startup(pump, v_in, design, from_aux=option.v_in is None, net=net if r_eq is None else None)
-
-    # --- capacitor stress (steady state and start-up)
-    warn = []
-    checks = []
-    caps = []
-    for name, xw, i_rms, i_pk, cap, c_eff, extra_rip in (
-            ("c_fly", 0, i_fly_rms, float(i_peak_ss[4]), option.c_fly, pump.c_fly, 0.0),
-            ("c_out", 1, i_out_rms, float(i_peak_ss[5]), option.c_out, pump.c_out, y_max - y_min)):
-        v_hi = max(float(x_hi[xw]) + (y_max if name == "c_out" else 0.0), st["x_max"][name])
-        ripple = float(x_hi[xw] - x_lo[xw]) + extra_rip
-        i_pk = max(i_pk, st["i_cap_peak"][name])
-        if name == "c_out" and n_on > 0:
-            # the gate pulse, taken as a rectangle of width t_edge (estimate)
-            t_e = design.bridge.t_edge
-            f_p = n_on / t_a
-            i_rms = math.sqrt(i_rms ** 2 + max(q_pulse ** 2 * f_p / t_e - (q_pulse * f_p) ** 2, 0.0))
-            i_pk = max(i_pk, q_pulse / t_e)
-        caps.append(CapacitorStress(name=name, c_eff=c_eff, v_max=v_hi, v_rating=cap.v_rating,
-                                    ripple=ripple, i_rms=i_rms, i_peak=i_pk))
-        cap_check = cap_voltage_check(design, name, v_hi, cap.v_rating, f"{name} voltage stays within its derated rating")
-        if cap_check is not None:
-            checks.append(cap_check)
-
-    # --- the domain-crossing switches block V_bus + V_in (the module notes)
-    v_block = v_bus + v_in
-    if option.v_rating_sw is not None:
-        lim_sw = option.v_rating_sw * design.checks.switch_derating
-        checks.append(Check("switch_v_block", v_block, lim_sw, "max", "V",
-                            "pump switches block V_bus + V_in within their derated rating"))
-        if v_block > lim_sw:
-            warn.append(f"the pump switches must block V_bus + V_in = {v_block:g} V, above "
-                            f"{design.checks.switch_derating:g} \u00d7 their {option.v_rating_sw:g} V rating "
-                            f"= {lim_sw:g} V")
-
-    # --- duty and load limits
-    req = required_rail(design)
-    lim = _load_limits(design, pump, circ, r_out, rail["v_pump_min"], v_mean, i0, g_load, q_pulse, n_on, t_a,
-                       req)
-    feasible_duty = v_min >= req
-    duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
-                      t_ls_min=None,
-                      topology={"f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
-                                "note": "a pump needs no refresh: any HS duty 0..100 % while the load holds"})
-
-    checks.insert(0, rail_min_check(design, v_min, "rail minimum stays above max(UVLO off, V_GS needed) + margin"))
-    checks.append(rail_max_v_bs_check(design, v_max, "rail stays below the driver's V_BS absolute maximum"))
-    checks.append(rail_max_v_gs_check(design, v_max, "rail stays below the gate's V_GS rating"))
-    checks.append(startup_uvlo_check(design, st["v_final"], "the pump alone brings the rail up to the UVLO rising "
-                                     "threshold (highest rail during start-up)"))
-    if collapsed:
-        warn.append("the pump cannot carry the gate-drive load: its mean rail would fall below 0 V "
-                        "(the driver would stay in UVLO); efficiency is not defined")
-    if v_ideal > design.gate.v_gs_max:
-        warn.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the gate's "
-                        f"V_GS rating of {design.gate.v_gs_max:g} V")
-    if v_ideal > design.driver.v_bs_max:
-        warn.append(f"ratio {circ.ratio} from {v_in:g} V gives about {v_ideal:g} V, above the driver's "
-                        f"V_BS maximum of {design.driver.v_bs_max:g} V")
-    # --- where the model's assumptions stop holding (pump_validity); warned once per evaluation
-    lam = net.modes[0] if net.modes is not None else np.zeros(1)
-    rate = float(np.max(-lam, initial=0.0))
-    tau_loop = 1.0 / rate if rate > 0.0 else math.inf
-    r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
-    for msg in pump_validity(design, option, tau_loop=tau_loop, r_th=r_th, c_out=pump.c_out, v_mean=v_mean,
-                             ripple=v_max - v_min, schedule=sched):
-        warnings.warn(f"{option.label}: {msg}", ModelValidityWarning, stacklevel=2)
-        warn.append(msg)
+    power = _power(design, option, pump, sched, load, ss)
+    # start-up from 0 V by pump cycles (HS pulses withheld, only I_Q drawn)
+    st = _startup(pump, pump.v_in, design, from_aux=option.v_in is None, net=ss.net if load.r_eq is None else None)
+    caps, cap_checks = _capacitor_stress(design, option, pump, load, ss, rail, st)
+    v_block, sw_checks, warn = _switch_block(design, option, pump.v_in)
+    duty, lim = _duty_limits(design, pump, load, ss, rail)
+    first, shared = _rail_checks(design, v_min, v_max, st["v_final"])
+    checks = [first] + cap_checks + sw_checks + shared
+    warn += _ratio_warnings(design, pump, power.collapsed)
+    msgs, tau_loop, r_th = _validity(design, option, pump, load, ss, sched, v_max - v_min)
+    warn += msgs
     feasible, verdict = verdict_from(checks, warn)
-
-    extra = {
-        "ratio": circ.ratio, "m": circ.m, "m_engine": m_engine, "v_in": v_in, "v_ideal": v_ideal,
-        "c_fly_eff": pump.c_fly, "c_out_eff": pump.c_out, "phase_duty": duty_cp,
-        "r_ssl": rs, "r_fsl": rf, "r_out_coth": r_out_exact(rs, rf), "r_out_sqrt": r_out_sqrt(rs, rf),
-        "i_load_avg": i0 + v_mean * g_load, "i_load_const": i0, "g_load": g_load,
-        "p_i2r": (i0 + v_mean * g_load) ** 2 * r_out,
-        "p_load_engine": p_load_engine, "p_in_direct": p_in_direct, "energy_residual": p_in_direct - p_in,
-        "q_pulse": q_pulse, "pulse_dip": -y_min, "pulse_rise": y_max,
-        "v_pump_min": rail["v_pump_min"], "v_pump_max": rail["v_pump_max"],
-        "v_block_switch": v_block,
-        "domain_crossing_worst": p_cross_worst, "sw_high_fraction": d_high,
-        "f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
-        "switch_i_rms": tuple(float(v) for v in i_sw_rms), "switch_i_peak": tuple(float(v) for v in i_peak_ss[:4]),
-        "startup_i_peak_switch": st["i_peak"],
-        "tau_loop": tau_loop, "pump_cycles_per_turn_on": (pump.f_cp * t_a / n_on) if n_on else None,
-        "pull_down_sag": pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=pump.c_out),
-        "treatment_async": "superposition: pump steady state under the average load plus the gate-charge "
-                           "pulse train through R_out and C_out, extremes aligned (worst-case phase)",
-    }
+    details = _details(design, option, pump, load, sched, ss, power, rail, st, lim, v_block, tau_loop, r_th)
     return OptionResult(
         label=option.label, kind="charge_pump", feasible=feasible, verdict=verdict, warnings=tuple(warn),
-        v_rail=RailStats(min=v_min, max=v_max, mean=v_mean), efficiency=efficiency,
-        p_delivered=p_delivered, p_drawn=p_drawn, startup=st["startup"], duty=duty, r_out=r_out,
-        capacitors=tuple(caps), p_drawn_aux=p_drawn_aux, p_drawn_bus=p_cross, losses=losses,
-        checks=tuple(checks), details=ChargePumpDetails(**extra), t=t_w, v=v_out_w)
+        v_rail=RailStats(min=v_min, max=v_max, mean=ss.v_mean), efficiency=power.efficiency,
+        p_delivered=power.p_delivered, p_drawn=power.p_drawn, startup=st["startup"], duty=duty, r_out=ss.r_out,
+        capacitors=caps, p_drawn_aux=power.p_drawn_aux, p_drawn_bus=power.p_cross, losses=power.losses,
+        checks=tuple(checks), details=details, t=ss.t_w, v=ss.v_out_w)
 
 
 def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Network | None = None) -> dict:
