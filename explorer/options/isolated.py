@@ -455,6 +455,173 @@ def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> d
             "q_g_max": budget / rate - design.driver.q_ls}
 
 
+@dataclass(frozen=True)
+class _OutputRail:
+    """The output capacitor and the steady rail it holds: ``rail`` (RailSolution, a collapse shown at 0 V),
+    the plotted waveform, ``v_pre`` the rail before the PWM starts [V] and ``v_max`` the highest rail [V]."""
+
+    cap: object
+    c_eff: float
+    v_src: float
+    q_on: float
+    rail: RailSolution
+    t_wave: np.ndarray
+    v_wave: np.ndarray
+    collapsed: bool
+    v_pre: float
+    v_max: float
+
+
+def _steady_rail(design: Design, option: IsolatedOption, sched: Schedule, path: str, corner: str,
+                 warn: list) -> _OutputRail:
+    """Steady state: effective C_out and the rail over the analysis period (a collapse is warned)."""
+    drv = design.driver
+    cap = option.c_out
+    diel = parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric")
+    v_src = module_output(design, option)
+    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=diel, v_applied=v_src,
+                              v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
+    q_on = charge_per_turn_on(design)
+    rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=v_src, r_out=option.r_out,
+                       c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=design.gate.r_gs)
+    t_wave, v_wave = rail.waveform(sched.dt, points=8 if len(sched) <= 2000 else 2)
+    collapsed = rail.min < 0.0
+    if collapsed:
+        # below 0 V the constant-charge load model no longer holds (the driver stops): shown as 0 V,
+        # as the other models do, and no efficiency is reported
+        warn.append(f"the rail collapses: each turn-on takes Q/C_out = {q_on / c_eff:.3g} V from c_out, more "
+                    "than the module refills; the minimum is shown as 0 V")
+        rail = dataclasses.replace(rail, min=0.0, max=max(rail.max, 0.0), mean=max(rail.mean, 0.0))
+        v_wave = np.maximum(v_wave, 0.0)
+    v_pre = v_src - option.r_out * drv.i_q              # rail before the PWM starts (load I_Q only)
+    return _OutputRail(cap=cap, c_eff=c_eff, v_src=v_src, q_on=q_on, rail=rail, t_wave=t_wave, v_wave=v_wave,
+                       collapsed=collapsed, v_pre=v_pre, v_max=max(rail.max, v_pre))
+
+
+@dataclass(frozen=True)
+class _IsolatedPower:
+    """Load, module losses and the common-mode figures [W, V/s, A, C]; ``k`` the loss coefficient [1/W]."""
+
+    p_load: float
+    k: float
+    p_in: float
+    eta_mod: float
+    dv_dt: float
+    i_cm: float
+    q_cm: float
+    p_cm: float
+    p_drawn: float
+    efficiency: float | None
+    losses: dict
+
+
+def _power(design: Design, option: IsolatedOption, sched: Schedule, out: _OutputRail, path: str) -> _IsolatedPower:
+    """Load, losses and power split; a load above p_rated is warned (the loss model is extrapolated)."""
+    b = design.bridge
+    p_load = float(load_power(design, sched, out.rail.mean))     # Q_G·V·f + I_Q·V + pull-down
+    k = float(loss_coefficient(option.p_rated, option.p_no_load, option.eta_full))
+    p_in = float(module_input_power(p_load, option.p_no_load, k))
+    eta_mod = float(module_efficiency(p_load, option.p_no_load, k))
+    dv_dt = float(cm.edge_dv_dt(b.v_bus, b.t_edge))
+    i_cm = float(cm.cm_current(option.c_iso, dv_dt))
+    q_cm = float(cm.edge_charge(option.c_iso, b.v_bus))
+    p_cm = float(cm.bus_power_per_edges(option.c_iso, b.v_bus, cm.rising_edge_swings(sched), sched.period))
+    p_drawn = p_in + p_cm
+    efficiency = p_load / p_drawn if (p_drawn > 0 and not out.collapsed) else None
+    losses = {"module_no_load": option.p_no_load, "module_load": k * p_load * p_load, "common_mode": p_cm}
+    if p_load > option.p_rated:
+        warnings.warn(f"{path}: the load {p_load:.4g} W exceeds p_rated = {option.p_rated:.4g} W; "
+                      "the loss model P_0 + k\u00b7P\u00b2 is extrapolated beyond its fitting range",
+                      ModelValidityWarning, stacklevel=3)
+    return _IsolatedPower(p_load=p_load, k=k, p_in=p_in, eta_mod=eta_mod, dv_dt=dv_dt, i_cm=i_cm, q_cm=q_cm,
+                          p_cm=p_cm, p_drawn=p_drawn, efficiency=efficiency, losses=losses)
+
+
+def _startup(design: Design, option: IsolatedOption, out: _OutputRail, warn: list) -> tuple[Startup, float]:
+    """Start-up of the module's output (independent of the PWM): (Startup, τ = r_out·C_out [s])."""
+    b, drv, v_pre = design.bridge, design.driver, out.v_pre
+    tau = option.r_out * out.c_eff
+    t_uvlo = time_to_level(drv.uvlo_on, v_final=v_pre, t_start=option.t_start, t_ramp=option.t_ramp, tau=tau)
+    cycles = None if t_uvlo is None else int(math.ceil(t_uvlo * b.f_sw - 1e-9))
+    i_inrush = ramp_inrush(c_out=out.c_eff, v_final=v_pre, t_ramp=option.t_ramp, r_out=option.r_out)
+    if i_inrush is None:
+        warn.append("start-up inrush into c_out is bounded only by the module's own current limit "
+                    "(t_ramp = 0 and r_out = 0), which the option does not give")
+    t_end = 1.2 * max(t_uvlo or 0.0, option.t_start + option.t_ramp + 5.0 * tau)
+    t_su = np.linspace(0.0, t_end if t_end > 0 else 1e-6, 400)
+    v_su = startup_voltage(t_su, v_final=v_pre, t_start=option.t_start, t_ramp=option.t_ramp, tau=tau)
+    return Startup(t_uvlo=t_uvlo, cycles_uvlo=cycles, i_peak=i_inrush, v_dd_dip=None, t=t_su, v=v_su), tau
+
+
+def _stress(design: Design, option: IsolatedOption, sched: Schedule, out: _OutputRail, i_inrush,
+            warn: list) -> tuple[CapacitorStress, float]:
+    """Stress of c_out: (CapacitorStress, the gate-charge pulse current [A]).
+
+    The gate charge is assumed to leave c_out within one switch-node edge time (t_edge): a
+    rectangular pulse of height Q/t_edge (assumption, stated in the details).
+    """
+    rail, q_on = out.rail, out.q_on
+    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    i_pulse = q_on / design.bridge.t_edge if n_on else 0.0
+    i_rms = math.sqrt(rail.i_rms_recharge ** 2 + n_on * q_on * i_pulse / sched.period)
+    i_peak = max(i_pulse, rail.i_peak_recharge, i_inrush or 0.0)
+    stress = CapacitorStress(name="c_out", c_eff=out.c_eff, v_max=out.v_max, v_rating=out.cap.v_rating,
+                             ripple=rail.max - rail.min, i_rms=i_rms, i_peak=i_peak)
+    if option.r_out == 0.0:
+        warn.append("r_out = 0: the module is taken as an ideal source that refills c_out at once; the dip "
+                    "Q/C_out at each turn-on is kept, the recharge current is not modelled")
+    return stress, i_pulse
+
+
+def _barrier(option: IsolatedOption, sched: Schedule, v_max: float, warn: list) -> float:
+    """Peak voltage across the isolation barrier [V]: the secondary's top rail against primary ground."""
+    v_barrier = float(np.max(sched.v_sw)) + v_max
+    if option.v_iso < ISO_HEADROOM * v_barrier:
+        warn.append(f"isolation working voltage {option.v_iso:.4g} V is below {ISO_HEADROOM:g} \u00d7 the "
+                    f"peak {v_barrier:.4g} V across the barrier (bus plus rail); edge overshoot is not modelled")
+    return v_barrier
+
+
+def _checks(design: Design, option: IsolatedOption, out: _OutputRail, power: _IsolatedPower, v_barrier: float,
+            warn: list) -> list:
+    """The shared checks (rail, start-up, capacitor) and the module's own (rating, CMTI, isolation)."""
+    drv, chk, v_max, dv_dt = design.driver, design.checks, out.v_max, power.dv_dt
+    checks = [
+        rail_min_check(design, out.rail.min),
+        startup_uvlo_check(design, out.v_pre, f"the module's output before the PWM starts reaches the UVLO "
+                                              f"rising threshold {drv.uvlo_on:.4g} V (else the driver never "
+                                              f"releases its pulses)"),
+        rail_max_v_gs_check(design, v_max),
+        rail_max_v_bs_check(design, v_max),
+        Check("load_rating", power.p_load, option.p_rated, "max", "W",
+              f"gate load stays within the module's rating p_rated = {option.p_rated:.4g} W (overload otherwise)"),
+        Check("cmti", option.cmti, float(cm.cmti_required(dv_dt, chk.cmti_margin)), "min", "V/s",
+              f"driver CMTI is at least {chk.cmti_margin:g} \u00d7 the switch-node dv/dt {dv_dt:.4g} V/s"),
+        Check("v_iso", option.v_iso, v_barrier, "min", "V",
+              f"isolation working voltage covers the peak {v_barrier:.4g} V across the barrier"),
+    ]
+    cap_check = cap_voltage_check(design, "c_out", v_max, out.cap.v_rating)
+    if cap_check is not None:
+        checks.append(cap_check)
+    else:
+        warn.append("c_out has no voltage rating; its voltage stress is not checked")
+    return checks
+
+
+def _details(design: Design, option: IsolatedOption, power: _IsolatedPower, out: _OutputRail, v_barrier: float,
+             tau: float, i_pulse: float, corner: str) -> IsolatedDetails:
+    """The module's own figures (:class:`~explorer.options.details.IsolatedDetails`)."""
+    k, p_load, p_in, dv_dt = power.k, power.p_load, power.p_in, power.dv_dt
+    v_in = option.v_in if option.v_in is not None else design.aux.v_dd
+    return IsolatedDetails(
+        loss_k=k, p_optimum=float(optimum_load(option.p_no_load, k)), eta_module=power.eta_mod,
+        load_fraction=p_load / option.p_rated, p_in_module=p_in, v_in=v_in, i_in=p_in / v_in,
+        dv_dt=dv_dt, i_cm_peak=power.i_cm, q_cm_edge=power.q_cm, p_cm=power.p_cm, v_barrier=v_barrier,
+        cmti_ratio=float(cm.cmti_ratio(option.cmti, dv_dt)), tau_out=tau, v_pre_pwm=out.v_pre,
+        i_gate_pulse=i_pulse, gate_pulse_width=design.bridge.t_edge, corner=corner,
+        insulation=INSULATION_STATEMENT)
+
+
 def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "nominal") -> OptionResult:
     """Evaluate an isolated-supply option of a design.
 
@@ -486,6 +653,12 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     ModelValidityWarning
         When the load exceeds ``p_rated`` (the loss model is extrapolated).
 
+    Notes
+    -----
+    One step per part of the result: the steady rail (:func:`_steady_rail`), power (:func:`_power`),
+    start-up (:func:`_startup`), stress (:func:`_stress`), the barrier (:func:`_barrier`), duty limits
+    (:func:`_rating_limits`), checks and details.
+
     Examples
     --------
     >>> from explorer import demo_design
@@ -499,118 +672,26 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
                           getattr(option, "kind", option))
     idx = next((i for i, o in enumerate(design.options) if o is option or o == option), None)
     path = f"options[{idx}]" if idx is not None else "option"
-    b, drv, gate, chk = design.bridge, design.driver, design.gate, design.checks
     warn: list[str] = []
-
-    # ---- output capacitor and rail -----------------------------------------------------------
-    cap = option.c_out
-    diel = parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric")
-    v_src = module_output(design, option)
-    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=diel, v_applied=v_src,
-                              v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
     sched = period_schedule(design)
-    q_on = charge_per_turn_on(design)
-    rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=v_src, r_out=option.r_out,
-                       c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=gate.r_gs)
-    t_wave, v_wave = rail.waveform(sched.dt, points=8 if len(sched) <= 2000 else 2)
-    collapsed = rail.min < 0.0
-    if collapsed:
-        # below 0 V the constant-charge load model no longer holds (the driver stops): shown as 0 V,
-        # as the other models do, and no efficiency is reported
-        warn.append(f"the rail collapses: each turn-on takes Q/C_out = {q_on / c_eff:.3g} V from c_out, more "
-                    "than the module refills; the minimum is shown as 0 V")
-        rail = dataclasses.replace(rail, min=0.0, max=max(rail.max, 0.0), mean=max(rail.mean, 0.0))
-        v_wave = np.maximum(v_wave, 0.0)
-    v_pre = v_src - option.r_out * drv.i_q              # rail before the PWM starts (load I_Q only)
-    v_max = max(rail.max, v_pre)
-
-    # ---- load, losses, power split -------------------------------------------------------------
-    p_load = float(load_power(design, sched, rail.mean))     # Q_G·V·f + I_Q·V + pull-down
-    k = float(loss_coefficient(option.p_rated, option.p_no_load, option.eta_full))
-    p_in = float(module_input_power(p_load, option.p_no_load, k))
-    eta_mod = float(module_efficiency(p_load, option.p_no_load, k))
-    dv_dt = float(cm.edge_dv_dt(b.v_bus, b.t_edge))
-    i_cm = float(cm.cm_current(option.c_iso, dv_dt))
-    q_cm = float(cm.edge_charge(option.c_iso, b.v_bus))
-    p_cm = float(cm.bus_power_per_edges(option.c_iso, b.v_bus, cm.rising_edge_swings(sched), sched.period))
-    p_drawn = p_in + p_cm
-    efficiency = p_load / p_drawn if (p_drawn > 0 and not collapsed) else None
-    losses = {"module_no_load": option.p_no_load, "module_load": k * p_load * p_load, "common_mode": p_cm}
-    if p_load > option.p_rated:
-        warnings.warn(f"{path}: the load {p_load:.4g} W exceeds p_rated = {option.p_rated:.4g} W; "
-                      "the loss model P_0 + k\u00b7P\u00b2 is extrapolated beyond its fitting range",
-                      ModelValidityWarning, stacklevel=2)
-
-    # ---- start-up (independent of the PWM) ----------------------------------------------------
-    tau = option.r_out * c_eff
-    t_uvlo = time_to_level(drv.uvlo_on, v_final=v_pre, t_start=option.t_start, t_ramp=option.t_ramp, tau=tau)
-    cycles = None if t_uvlo is None else int(math.ceil(t_uvlo * b.f_sw - 1e-9))
-    i_inrush = ramp_inrush(c_out=c_eff, v_final=v_pre, t_ramp=option.t_ramp, r_out=option.r_out)
-    if i_inrush is None:
-        warn.append("start-up inrush into c_out is bounded only by the module's own current limit "
-                    "(t_ramp = 0 and r_out = 0), which the option does not give")
-    t_end = 1.2 * max(t_uvlo or 0.0, option.t_start + option.t_ramp + 5.0 * tau)
-    t_su = np.linspace(0.0, t_end if t_end > 0 else 1e-6, 400)
-    v_su = startup_voltage(t_su, v_final=v_pre, t_start=option.t_start, t_ramp=option.t_ramp, tau=tau)
-    startup = Startup(t_uvlo=t_uvlo, cycles_uvlo=cycles, i_peak=i_inrush, v_dd_dip=None, t=t_su, v=v_su)
-
-    # ---- capacitor stress ---------------------------------------------------------------------
-    # The gate charge is assumed to leave c_out within one switch-node edge time (t_edge):
-    # a rectangular pulse of height Q/t_edge (assumption, stated in extra).
-    n_on = int(np.count_nonzero(sched.hs_turn_on))
-    i_pulse = q_on / b.t_edge if n_on else 0.0
-    i_rms = math.sqrt(rail.i_rms_recharge ** 2 + n_on * q_on * i_pulse / sched.period)
-    i_peak = max(i_pulse, rail.i_peak_recharge, i_inrush or 0.0)
-    stress = CapacitorStress(name="c_out", c_eff=c_eff, v_max=v_max, v_rating=cap.v_rating,
-                             ripple=rail.max - rail.min, i_rms=i_rms, i_peak=i_peak)
-    if option.r_out == 0.0:
-        warn.append("r_out = 0: the module is taken as an ideal source that refills c_out at once; the dip "
-                    "Q/C_out at each turn-on is kept, the recharge current is not modelled")
-
-    # ---- isolation ----------------------------------------------------------------------------
-    v_barrier = float(np.max(sched.v_sw)) + v_max       # secondary's top rail against primary ground
-    if option.v_iso < ISO_HEADROOM * v_barrier:
-        warn.append(f"isolation working voltage {option.v_iso:.4g} V is below {ISO_HEADROOM:g} \u00d7 the "
-                    f"peak {v_barrier:.4g} V across the barrier (bus plus rail); edge overshoot is not modelled")
-
-    # ---- checks -------------------------------------------------------------------------------
-    checks = [
-        rail_min_check(design, rail.min),
-        startup_uvlo_check(design, v_pre, f"the module's output before the PWM starts reaches the UVLO rising "
-                                          f"threshold {drv.uvlo_on:.4g} V (else the driver never releases its pulses)"),
-        rail_max_v_gs_check(design, v_max),
-        rail_max_v_bs_check(design, v_max),
-        Check("load_rating", p_load, option.p_rated, "max", "W",
-              f"gate load stays within the module's rating p_rated = {option.p_rated:.4g} W (overload otherwise)"),
-        Check("cmti", option.cmti, float(cm.cmti_required(dv_dt, chk.cmti_margin)), "min", "V/s",
-              f"driver CMTI is at least {chk.cmti_margin:g} \u00d7 the switch-node dv/dt {dv_dt:.4g} V/s"),
-        Check("v_iso", option.v_iso, v_barrier, "min", "V",
-              f"isolation working voltage covers the peak {v_barrier:.4g} V across the barrier"),
-    ]
-    cap_check = cap_voltage_check(design, "c_out", v_max, cap.v_rating)
-    if cap_check is not None:
-        checks.append(cap_check)
-    else:
-        warn.append("c_out has no voltage rating; its voltage stress is not checked")
+    out = _steady_rail(design, option, sched, path, corner, warn)
+    power = _power(design, option, sched, out, path)
+    startup, tau = _startup(design, option, out, warn)
+    stress, i_pulse = _stress(design, option, sched, out, startup.i_peak, warn)
+    v_barrier = _barrier(option, sched, out.v_max, warn)
+    checks = _checks(design, option, out, power, v_barrier, warn)
     feasible, verdict = verdict_from(checks, warn)
-
-    v_in = option.v_in if option.v_in is not None else design.aux.v_dd
-    extra = {
-        "loss_k": k, "p_optimum": float(optimum_load(option.p_no_load, k)), "eta_module": eta_mod,
-        "load_fraction": p_load / option.p_rated, "p_in_module": p_in, "v_in": v_in, "i_in": p_in / v_in,
-        "dv_dt": dv_dt, "i_cm_peak": i_cm, "q_cm_edge": q_cm, "p_cm": p_cm, "v_barrier": v_barrier,
-        "cmti_ratio": float(cm.cmti_ratio(option.cmti, dv_dt)), "tau_out": tau, "v_pre_pwm": v_pre,
-        "i_gate_pulse": i_pulse, "gate_pulse_width": b.t_edge, "corner": corner,
-        "insulation": INSULATION_STATEMENT,
-    }
+    rail = out.rail
     return OptionResult(
         label=option.label, kind=option.kind, feasible=feasible, verdict=verdict, warnings=tuple(warn),
-        v_rail=RailStats(min=rail.min, max=rail.max, mean=rail.mean), efficiency=efficiency,
-        p_delivered=p_load, p_drawn=p_drawn, startup=startup,
+        v_rail=RailStats(min=rail.min, max=rail.max, mean=rail.mean), efficiency=power.efficiency,
+        p_delivered=power.p_load, p_drawn=power.p_drawn, startup=startup,
         duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None,
                         topology=_rating_limits(design, sched, option)),
-        r_out=option.r_out, capacitors=(stress,), p_drawn_aux=p_in, p_drawn_bus=p_cm, losses=losses,
-        checks=tuple(checks), details=IsolatedDetails(**extra), cautions=(INSULATION_STATEMENT,), t=t_wave, v=v_wave)
+        r_out=option.r_out, capacitors=(stress,), p_drawn_aux=power.p_in, p_drawn_bus=power.p_cm,
+        losses=power.losses, checks=tuple(checks),
+        details=_details(design, option, power, out, v_barrier, tau, i_pulse, corner),
+        cautions=(INSULATION_STATEMENT,), t=out.t_wave, v=out.v_wave)
 
 
 #: Samples per block in :func:`rail_min_batch`.
