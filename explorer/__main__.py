@@ -34,6 +34,7 @@ def _parser() -> argparse.ArgumentParser:
     e.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
     e.add_argument("--json", action="store_true", help="print the comparison as explorer-result JSON")
     e.add_argument("--rank", default="overhead", choices=sorted(RANKINGS), help="ranking rule")
+    e.add_argument("--explain", action="store_true", help="add what each row of the table means")
     n = sub.add_parser("netlist", help="write the SPICE netlist of one option, driven by the design's schedule")
     n.add_argument("file", help="design file (explorer-design JSON); '-' reads standard input")
     n.add_argument("--label", required=True, help="label of the option to export")
@@ -115,7 +116,7 @@ def main(argv=None) -> int:
             if args.json:
                 sys.stdout.write(result.to_json(indent=2) + "\n")
             else:
-                sys.stdout.write(result.to_text() + "\n")
+                sys.stdout.write(result.to_text(explain=args.explain) + "\n")
         for w in caught:
             sys.stderr.write(f"warning: {w.message}\n")
         return 0
@@ -165,10 +166,11 @@ def _envelope(args, design, caught) -> int:
     if args.json:
         rows = [{"worst_case": w.to_dict(), "monte_carlo": mc.to_dict()} for w, mc in results]
         sys.stdout.write(json.dumps({"format": "explorer-envelope", "version": 1, "title": design.title,
-                                     "options": rows}, indent=2) + "\n")
+                                     "options": rows, "caution": CAUTION}, indent=2, ensure_ascii=False) + "\n")
     else:
         for w, mc in results:
             sys.stdout.write(envelope_text(w, mc) + "\n")
+        sys.stdout.write("\n" + CAUTION + "\n")
     for w in caught:
         sys.stderr.write(f"warning: {w.message}\n")
     failed = [w for w, _ in results if not w.holds]

@@ -18,15 +18,16 @@ __all__ = ["Comparison", "evaluate", "RANKINGS"]
 RESULT_FORMAT = "explorer-result"
 RESULT_VERSION = 1
 
-#: Ranking rules: name → (plain words, key function; lower ranks first).
+#: Ranking rules: name → (the criterion in plain words, key function; lower ranks first). Options that
+#: hold rank before those that do not; :attr:`Comparison.rank_words` says which is which.
 RANKINGS = {
-    "overhead": ("lowest overhead among the feasible",
+    "overhead": ("lowest losses, power drawn \u2212 delivered",
                  lambda r: (not r.feasible, r.overhead if r.overhead is not None else float("inf"))),
-    "efficiency": ("highest efficiency among the feasible",
+    "efficiency": ("highest efficiency",
                    lambda r: (not r.feasible, -(r.efficiency or 0.0))),
-    "margin": ("largest rail margin among the feasible",
+    "margin": ("highest rail minimum",
                lambda r: (not r.feasible, -(r.v_rail.min if r.v_rail else float("-inf")))),
-    "startup": ("fastest start-up among the feasible",
+    "startup": ("fastest start-up",
                 lambda r: (not r.feasible, r.startup.t_uvlo if r.startup and r.startup.t_uvlo is not None
                            else float("inf"))),
     "input": ("input order", lambda r: 0),
@@ -74,25 +75,38 @@ class Comparison:
     def to_dict(self, waveforms: bool = False) -> dict:
         """The ``explorer-result`` JSON contract (SI units, None where not applicable)."""
         return {"format": RESULT_FORMAT, "version": RESULT_VERSION, "title": self.title,
-                "rank": self.rank, "ranking": self.ranking(),
-                "options": [r.to_dict(waveforms) for r in self.options]}
+                "rank": self.rank, "ranking": self.ranking(), "rank_words": self.rank_words,
+                "holds": [r.label for r in self.options if r.feasible],
+                "options": [r.to_dict(waveforms) for r in self.options], "caution": CAUTION}
 
     def to_json(self, **kw) -> str:
         return json.dumps(self.to_dict(), allow_nan=False, **kw)
 
     @property
     def rank_words(self) -> str:
-        """The ranking rule in plain words (e.g. ``lowest overhead among the feasible``)."""
-        return RANKINGS[self.rank][0]
+        """The ranking rule in plain words, saying which options hold (e.g. ``lowest losses, power drawn −
+        delivered among the 3 options that hold; then the 2 that do not``, or ``no option holds; ...``)."""
+        crit = RANKINGS[self.rank][0]
+        n, k = len(self.options), sum(r.feasible for r in self.options)
+        if self.rank == "input":  # not sorted at all
+            return "input order; " + ("no option holds" if k == 0 else f"{k} of {n} hold")
+        if k == 0:
+            return f"no option holds; listed by {crit}"
+        if k == n:
+            return f"{crit}; {'all ' + str(n) + ' options hold' if n > 1 else 'the option holds'}"
+        return (f"{crit} among the {k} option{'s' if k > 1 else ''} that hold"
+                + ("s" if k == 1 else "") + "; then " + ("the one that does not" if n - k == 1
+                                                         else f"the {n - k} that do not"))
 
     # Views live in explorer.views; these thin methods keep ``print(result)``, notebooks and the CLI.
     def rows(self) -> list[tuple[str, list[str]]]:
         """Table rows (see :func:`explorer.views.table.comparison_rows`)."""
         return comparison_rows(self)
 
-    def to_text(self) -> str:
-        """The fixed-width text table (see :func:`explorer.views.table.comparison_text`)."""
-        return comparison_text(self)
+    def to_text(self, explain: bool = False) -> str:
+        """The fixed-width text table (see :func:`explorer.views.table.comparison_text`); ``explain`` adds
+        what each row means."""
+        return comparison_text(self, explain=explain)
 
     def __str__(self) -> str:
         return comparison_text(self)

@@ -57,6 +57,13 @@ def glossary_markdown() -> str:
             allowed = spec.allowed().replace("|", "\\|") + (" or null" if spec.nullable else "")
             out.append(f"| `{name}` | {spec.doc} | {spec.unit} | {allowed} | {_default(spec)} |")
         out.append("")
+    from .views.table import ROW_HELP
+    out += ["# Comparison table", "",
+            "What each row of the comparison table means (`python -m explorer evaluate FILE --explain` prints "
+            "the same; in the HTML table each row's name shows it on hover).", "",
+            "| row | meaning |", "|---|---|"]
+    out += [f"| {q} | {text.replace('|', chr(92) + '|')} |" for q, text in ROW_HELP.items()]
+    out.append("")
     return "\n".join(out)
 
 

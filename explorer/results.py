@@ -160,11 +160,31 @@ class Check(_Dict):
     def ok(self) -> bool:
         return bool(self.margin >= 0)
 
+    @property
+    def margin_rel(self) -> float | None:
+        """The margin as a share of the limit's size [-] (None for a zero limit); checks are ranked by it."""
+        return self.margin / abs(self.limit) if self.limit else None
+
+    def margin_words(self) -> str:
+        """The margin both ways in plain words: ``margin 19.4 V = 31 % of the 62.4 V limit``."""
+        from .units import format_eng
+        head = (f"margin {format_eng(self.margin, self.unit)}" if self.ok
+                else f"short by {format_eng(-self.margin, self.unit)}")
+        if self.margin_rel is None:
+            return head
+        return f"{head} = {100 * abs(self.margin_rel):.3g} % of the {format_eng(self.limit, self.unit)} limit"
+
     def to_dict(self, waveforms: bool = False) -> dict:
         d = super().to_dict(waveforms)
         d["margin"] = clean(self.margin)
+        d["margin_rel"] = clean(self.margin_rel)
         d["ok"] = self.ok
         return d
+
+
+def _rel_key(c: Check) -> float:
+    """Ranking key of a check: its margin relative to its limit (a zero limit counts as 1 in its unit)."""
+    return c.margin / (abs(c.limit) or 1.0)
 
 
 @dataclass(frozen=True)
@@ -247,14 +267,14 @@ def family_of(check_name: str) -> str:
 
 def verdict_from(checks, warnings=()) -> tuple[bool, str]:
     """Feasibility and a plain-words verdict from a list of checks."""
-    failed = [c for c in checks if not c.ok]
-    if failed:
-        return False, "does not hold: " + "; ".join(c.text for c in failed)
+    failed = sorted((c for c in checks if not c.ok), key=_rel_key)
+    if failed:  # the largest shortfall relative to its limit first
+        return False, "does not hold: " + "; ".join(f"{c.text} ({c.margin_words()})" for c in failed)
     text = "holds"
     if checks:
-        tight = min(checks, key=lambda c: c.margin / (abs(c.limit) or 1.0))
-        unit = "" if tight.unit in ("", "-") else f" {tight.unit}"
-        text += f"; tightest check: {tight.text} (margin {tight.margin:.3g}{unit})"
+        tight = min(checks, key=_rel_key)
+        text += (f"; tightest check (smallest margin relative to its limit): {tight.text} "
+                 f"({tight.margin_words()})")
     if warnings:
         text += f"; {len(warnings)} warning{'s' if len(warnings) > 1 else ''}"
     return True, text
@@ -337,13 +357,14 @@ class OptionResult(_Dict):
         """The check with the smallest margin relative to its limit."""
         if not self.checks:
             return None
-        return min(self.checks, key=lambda c: c.margin / (abs(c.limit) or 1.0))
+        return min(self.checks, key=_rel_key)
 
     def families(self) -> dict:
         """Verdict per family of figures (efficiency, stress, startup, duty, isolation).
 
-        Each entry: ``ok`` (every check of the family passes), ``margin`` and
-        ``unit`` of its tightest check, and ``verdict`` in plain words. Families
+        Each entry: ``ok`` (every check of the family passes), ``margin``, ``margin_rel`` and
+        ``unit`` of its tightest check (ranked by the margin relative to its limit), and
+        ``verdict`` in plain words. Families
         without checks are left out.
         """
         out: dict = {}
@@ -352,10 +373,12 @@ class OptionResult(_Dict):
         res = {}
         for fam in [f for f in (*FAMILIES, "other") if f in out]:
             cs = out[fam]
-            tight = min(cs, key=lambda c: c.margin / (abs(c.limit) or 1.0))
+            tight = min(cs, key=_rel_key)
             bad = [c for c in cs if not c.ok]
-            res[fam] = {"ok": not bad, "margin": clean(tight.margin), "unit": tight.unit, "check": tight.name,
-                        "verdict": ("fails: " + "; ".join(c.text for c in bad)) if bad else f"holds: {tight.text}"}
+            res[fam] = {"ok": not bad, "margin": clean(tight.margin), "margin_rel": clean(tight.margin_rel),
+                        "unit": tight.unit, "check": tight.name,
+                        "verdict": ("fails: " + "; ".join(f"{c.text} ({c.margin_words()})" for c in bad)) if bad
+                        else f"holds: {tight.text} ({tight.margin_words()})"}
         return res
 
     def to_dict(self, waveforms: bool = False) -> dict:

@@ -108,7 +108,7 @@ class RailMargin(_Rule):
         threshold = d.driver.uvlo_off if self.above == "uvlo_off" else d.gate.v_gs_on_min
         if self.at == "every_corner":
             w = ctx.worst_case(label)
-            rail, where = w.rail_min, f"at the worst corner ({w.corner})"
+            rail, where = w.rail_min, f"at the worst corner ({w.corner_text or w.corner})"
         else:
             r = ctx.result(label)
             rail, where = (r.v_rail.min if r.v_rail is not None else 0.0), "at nominal"  # never refreshed: 0 V

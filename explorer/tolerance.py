@@ -49,7 +49,7 @@ from .loads import required_rail
 from .options import supply_model
 from .options.base import SPREADS as _NAMES
 
-__all__ = ["Factors", "apply_factors", "corner_factors", "sample_factors", "worst_case", "WorstCase", "monte_carlo",
+__all__ = ["Factors", "apply_factors", "corner_factors", "corner_text", "sample_factors", "worst_case", "WorstCase", "monte_carlo",
            "MonteCarlo", "clopper_pearson"]
 
 
@@ -132,6 +132,41 @@ def corner_factors(design: Design, label: str) -> list[tuple[str, Factors]]:
     return out
 
 
+#: How each spread reads in a corner's plain-words name (capacitances are named by their part).
+_SPREAD_WORDS = {"q_g": "Q_G", "i_q": "I_Q", "v_dd": "V_DD", "v_f": "diode V_F"}
+
+
+def _cap_word(field_name: str) -> str:
+    """``c_boot`` → ``C_boot`` (the capacitor as a schematic names it)."""
+    return "C" + field_name[1:] if field_name.startswith("c_") else field_name
+
+
+def corner_text(design: Design, label: str, factors: Factors) -> str:
+    """A corner in plain words with its values, e.g. ``C_boot −23.5 %, Q_G +10 %, V_DD −5 %, 125 °C``.
+
+    Each spread that differs from nominal is given as its change in per cent (a capacitance: its
+    tolerance × temperature class × DC-bias factor; the temperature in °C); ``nominal`` when none does.
+    """
+    opt = design.option(label)
+    model = _model(opt)
+    caps = model.capacitor_names or tuple(_cap_word(f) for f in model.capacitor_fields)
+    parts = []
+    for n in _NAMES:
+        v = float(getattr(factors, n))
+        if n == "t":
+            if v != design.checks.t_amb:
+                parts.append(f"{v:g} \u00b0C")
+            continue
+        if v == 1.0:
+            continue
+        i = ("k_c", "k_out").index(n) if n in ("k_c", "k_out") else None
+        name = _SPREAD_WORDS[n] if i is None else caps[i] if i < len(caps) else "C"
+        pct = 100 * (v - 1)
+        sign = "+" if pct > 0 else "\u2212"
+        parts.append(f"{name} {sign}{abs(pct):.3g} %")
+    return ", ".join(parts) or "nominal"
+
+
 @dataclass(frozen=True)
 class WorstCase:
     """Result of the worst-case corner search for one option.
@@ -140,7 +175,10 @@ class WorstCase:
     ----------
     label : str
     corner : str
-        Plain-words name of the corner with the lowest rail minimum.
+        Short name of the corner with the lowest rail minimum (which spread is low or high, e.g.
+        ``k_c low, q_g high``; :func:`corner_factors`).
+    corner_text : str
+        The same corner in plain words with its values (:func:`corner_text`, e.g. ``C_boot −23.5 %``).
     factors : Factors
     rail_min : float [V]
         Steady-state rail minimum at that corner.
@@ -160,13 +198,15 @@ class WorstCase:
     v_max: float
     v_max_corner: str
     corners: list = field(repr=False, default_factory=list)
+    corner_text: str = ""
 
     @property
     def holds(self) -> bool:
         return bool(self.margin >= 0)
 
     def to_dict(self) -> dict:
-        return {"label": self.label, "corner": self.corner, "rail_min": self.rail_min, "margin": self.margin,
+        return {"label": self.label, "corner": self.corner, "corner_text": self.corner_text,
+                "rail_min": self.rail_min, "margin": self.margin,
                 "holds": self.holds, "v_max": self.v_max, "v_max_corner": self.v_max_corner}
 
 
@@ -190,7 +230,8 @@ def worst_case(design: Design, label: str) -> WorstCase:
     high = max(rows, key=lambda x: x[3])
     return WorstCase(label=label, corner=worst[0], factors=worst[1], rail_min=worst[2],
                      margin=worst[2] - required_rail(design), v_max=high[3], v_max_corner=high[0],
-                     corners=[(n, lo, hi) for n, _, lo, hi in rows])
+                     corners=[(n, lo, hi) for n, _, lo, hi in rows],
+                     corner_text=corner_text(design, label, worst[1]))
 
 
 # --------------------------------------------------------------------------- Monte Carlo

@@ -27,7 +27,8 @@ import numpy as np
 from .errors import DesignError
 
 __all__ = ["Topology", "TOPOLOGY", "topology_of", "hold_level", "analysis_frequency", "analysis_period", "light_load",
-           "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "modulation", "operating_share"]
+           "frequency_limit_key", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "modulation",
+           "operating_share"]
 
 
 #: Above this many switching periods per fundamental a three-phase leg is analysed as standstill.
@@ -330,6 +331,16 @@ def analysis_frequency(bridge) -> float:
 def analysis_period(bridge) -> float:
     """The leg's own switching period [s]: ``1/analysis_frequency(bridge)``."""
     return 1.0 / analysis_frequency(bridge)
+
+
+def frequency_limit_key(bridge) -> str:
+    """Key of ``DutyLimits.topology`` for the highest leg frequency a supply carries, in the leg's terms.
+
+    ``"f_line_max"`` for a leg that switches at line frequency (its HS turns on once per line period),
+    ``"f_sw_max"`` otherwise. The value is the analysis frequency (:func:`analysis_frequency`) scaled
+    until the rail meets its requirement: None where any frequency holds, 0 where none does.
+    """
+    return "f_line_max" if TOPOLOGY[bridge.topology].line_frequency else "f_sw_max"
 
 
 def light_load(bridge) -> bool:

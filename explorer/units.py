@@ -174,9 +174,16 @@ def format_eng(x: float | None, unit: str = "", digits: int = 3) -> str:
     '2.2 µF'
     >>> format_eng(150e3, "Hz")
     '150 kHz'
+    >>> format_eng(5e10, "V/s")  # a dv/dt reads in V/ns
+    '50 V/ns'
     """
     if x is None or not math.isfinite(x):
         return "\u2014"
+    if unit in ("", "-"):
+        return f"{x:.{digits}g}"
+    if unit in _DISPLAY_UNITS:
+        unit, shift = _DISPLAY_UNITS[unit]
+        x = x / 10.0 ** shift
     if x == 0:
         return f"0 {unit}".rstrip()
     ax = abs(x)

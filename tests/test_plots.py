@@ -188,7 +188,7 @@ def test_duty_sources_are_the_duty_limits(comparisons, name):
     for r, lo, hi, terms in zip(c.options, data["lo"], data["hi"], data["terms"]):
         assert lo == (0.0 if r.duty.min is None else r.duty.min)
         assert hi == (1.0 if r.duty.max is None else r.duty.max)
-        assert terms == topology_text(r.duty.topology)
+        assert terms == topology_text(r.duty.topology, c.design.bridge)
     assert list(p.sources["operating"].data["x"]) == [operating_share(c.design.bridge)]
     assert list(p.figure.y_range.factors) == [r.label for r in reversed(c.options)]
     top = p.figure.extra_x_ranges["topology"]
@@ -335,7 +335,8 @@ def test_monte_carlo_sources_are_the_histogram(comparisons):
     assert b["count"].sum() == mc.n
     lim = dict(zip(p.sources["limits"].data["name"], p.sources["limits"].data["x"]))
     assert lim == {"UVLO off (trip)": d.driver.uvlo_off, "required rail": explorer.loads.required_rail(d)}
-    assert f"P(trip) = {mc.p_trip:.3g}" in p.figure.title.text and "n = 2000" in p.figure.title.text
+    assert f"P(UVLO trip) = {mc.p_trip:.3g}" in p.figure.title.text
+    assert f"P(margin lost) = {mc.p_margin:.3g}" in p.figure.title.text and "n = 2000" in p.figure.title.text
     mc2 = monte_carlo(d, "bootstrap 220n", 500, seed=4)
     p.update(mc2)
     assert p.sources["bins"].data["count"].sum() == 500 and "n = 500" in p.figure.title.text

@@ -66,6 +66,9 @@ class SupplyModel:
     capacitor_fields : tuple of str
         Option attributes holding a :class:`~explorer.design.Capacitor`, in spread order: the
         first takes the factor ``k_c``, the second ``k_out`` (at most two).
+    capacitor_names : tuple of str
+        The capacitors of :meth:`capacitors` as a schematic names them, in the same order (for corner
+        names in words); empty: made from :attr:`capacitor_fields` (``c_fly`` → ``C_fly``).
     sized_capacitor : str or None
         Option field path that :func:`explorer.sizing.size_capacitor` chooses (e.g. ``"c"``,
         ``"c_fly.c"``); None: the family has no capacitor to size that way.
@@ -81,6 +84,7 @@ class SupplyModel:
     kind: str = ""
     option_class: type = type(None)
     capacitor_fields: tuple = ()
+    capacitor_names: tuple = ()
     sized_capacitor: str | None = None
     glossary_parts: tuple = ()
     netlist_probes: dict = {"cap": "v(vb)-v(co)"}

@@ -1362,6 +1362,7 @@ class BootstrapModel(SupplyModel):
 
     kind = "bootstrap"
     option_class = BootstrapOption
+    capacitor_names = ("C_boot",)
     sized_capacitor = "c"
     glossary_parts = (("bootstrap diode, straight line", LinearDiode),
                       ("bootstrap diode, exponential junction", JunctionDiode))

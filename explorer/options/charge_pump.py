@@ -83,6 +83,7 @@ from ..loads import charge_per_turn_on, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import period_schedule
+from ..topology import analysis_frequency, frequency_limit_key
 from .details import ChargePumpDetails
 from .base import SupplyModel
 
@@ -845,7 +846,7 @@ def _duty_limits(design: Design, pump: _Pump, load: _Load, ss: _PumpSteady, rail
     feasible_duty = rail["v_min"] >= req
     duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
                       t_ls_min=None,
-                      topology={"f_sw_max": lim["f_sw_max"], "q_g_max": lim["q_g_max"],
+                      topology={frequency_limit_key(design.bridge): lim["f_sw_max"], "q_g_max": lim["q_g_max"],
                                 "note": "a pump needs no refresh: any HS duty 0..100 % while the load holds"})
     return duty, lim
 
@@ -1026,7 +1027,11 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
 
 
 def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pulse, n_on, t_a, req) -> dict:
-    """Highest f_sw and highest Q_G at which the rail minimum stays at the requirement.
+    """Highest leg frequency and highest Q_G at which the rail minimum stays at the requirement.
+
+    The frequency is f_sw, or f_line on a leg that switches at line frequency (the analysis
+    frequency, scaled). Each is None where any value holds (no HS turn-on, or unbounded) and 0 where
+    none does (the static load alone, or Q_G = 0, already takes the rail below the requirement).
 
     Averaged model (:func:`rail_from_r_out`) with the pump ripple below the mean
     scaled with the load current (it is proportional to it in the linear
@@ -1061,10 +1066,11 @@ def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pu
                 return None
         return brentq(fn, 0.0, hi, xtol=1e-9 * hi, rtol=1e-10)
 
-    if n_on == 0:
-        return {"f_sw_max": None, "q_g_max": None}
+    if n_on == 0:  # no HS turn-on: the gate charge never loads the rail
+        return ({"f_sw_max": None, "q_g_max": None} if v_min(q_pulse, 0.0) >= req
+                else {"f_sw_max": 0.0, "q_g_max": 0.0})
     s = solve(lambda sc: v_min(q_pulse, sc) - req)
-    f_sw_max = None if s is None else s * design.bridge.f_sw
+    f_sw_max = None if s is None else s * analysis_frequency(design.bridge)
     qm = solve(lambda x: v_min(design.driver.q_ls + x * design.gate.q_g, 1.0) - req)
     q_g_max = None if qm is None else qm * design.gate.q_g
     return {"f_sw_max": f_sw_max, "q_g_max": q_g_max}

@@ -131,9 +131,11 @@ class ChargePumpDetails(Details):
     sw_high_fraction : float [-]
         Share of the analysis period the switch node is high.
     f_sw_max : float or None [Hz]
-        Highest switching frequency the pump carries (None: unbounded).
+        Highest leg switching frequency the pump carries: f_sw, or f_line on a line-frequency leg
+        (``DutyLimits.topology`` names it ``f_sw_max`` or ``f_line_max``); None: unbounded, 0: the
+        static load alone already takes the rail below its requirement.
     q_g_max : float or None [C]
-        Highest gate charge the pump carries (None: unbounded).
+        Highest gate charge the pump carries (None: unbounded; 0: not even Q_G = 0 holds).
     switch_i_rms : tuple of float [A]
         RMS current of each pump switch.
     switch_i_peak : tuple of float [A]

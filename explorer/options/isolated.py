@@ -61,10 +61,11 @@ from ..capacitors import capacitance, parse_dielectric
 from ..design import Design, IsolatedOption
 from ..engines.affine import affine_scan
 from ..errors import DesignError, ModelValidityWarning
-from ..loads import charge_per_turn_on, load_charge, load_power
+from ..loads import charge_per_turn_on, load_charge, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import Schedule, period_schedule
+from ..topology import analysis_frequency, frequency_limit_key
 from .details import IsolatedDetails
 from .base import SupplyModel
 
@@ -431,7 +432,10 @@ def module_output(design: Design, option: IsolatedOption) -> float:
 
 
 def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> dict:
-    """Highest f_sw and Q_G whose gate load stays within p_rated (any duty works) [Hz], [C].
+    """Highest leg frequency and Q_G whose gate load stays within p_rated (any duty works) [Hz], [C].
+
+    Keyed in the leg's terms (:func:`explorer.topology.frequency_limit_key`: ``f_sw_max``, or
+    ``f_line_max`` on a line-frequency leg); None where any value fits, 0 where none does.
 
     The load P = V·(r_on·(Q_G + Q_LS) + I_Q + V·D_on/R_GS) with r_on the HS turn-ons
     per second, which scales with f_sw, and D_on the HS on-time share (gate-drive
@@ -446,13 +450,16 @@ def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> d
     if design.gate.r_gs is not None:
         budget -= v * float(sched.dt[sched.hs_on].sum()) / sched.period / design.gate.r_gs
     rate = np.count_nonzero(sched.hs_turn_on) / sched.period
-    if rate == 0 or budget <= 0:
-        # None both where no f_sw/Q_G fits the rating and where any does (no HS turn-ons): the
-        # result contract has no infinities (explorer.results: None where unbounded)
-        return {"f_sw_max": None, "q_g_max": None}
+    key = frequency_limit_key(design.bridge)
+    if budget <= 0:  # the static load alone (quiescent, pull-down) exceeds the rating: nothing fits
+        return {key: 0.0, "q_g_max": 0.0}
+    if rate == 0:
+        # no HS turn-on: any f_sw/Q_G fits, which the result contract writes as None (no infinities,
+        # explorer.results: None where unbounded)
+        return {key: None, "q_g_max": None}
     q = charge_per_turn_on(design)
-    return {"f_sw_max": design.bridge.f_sw * budget / (rate * q),
-            "q_g_max": budget / rate - design.driver.q_ls}
+    return {key: float(analysis_frequency(design.bridge) * budget / (rate * q)),
+            "q_g_max": float(max(0.0, budget / rate - design.driver.q_ls))}
 
 
 @dataclass(frozen=True)
@@ -542,7 +549,7 @@ def _startup(design: Design, option: IsolatedOption, out: _OutputRail, warn: lis
     b, drv, v_pre = design.bridge, design.driver, out.v_pre
     tau = option.r_out * out.c_eff
     t_uvlo = time_to_level(drv.uvlo_on, v_final=v_pre, t_start=option.t_start, t_ramp=option.t_ramp, tau=tau)
-    cycles = None if t_uvlo is None else int(math.ceil(t_uvlo * b.f_sw - 1e-9))
+    cycles = None if t_uvlo is None else int(math.ceil(t_uvlo * analysis_frequency(b) - 1e-9))  # leg periods
     i_inrush = ramp_inrush(c_out=out.c_eff, v_final=v_pre, t_ramp=option.t_ramp, r_out=option.r_out)
     if i_inrush is None:
         warn.append("start-up inrush into c_out is bounded only by the module's own current limit "
@@ -686,7 +693,9 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         label=option.label, kind=option.kind, feasible=feasible, verdict=verdict, warnings=tuple(warn),
         v_rail=RailStats(min=rail.min, max=rail.max, mean=rail.mean), efficiency=power.efficiency,
         p_delivered=power.p_load, p_drawn=power.p_drawn, startup=startup,
-        duty=DutyLimits(min=0.0, max=1.0, hold_up=None, t_ls_min=None,
+        # any HS duty while the module's rail meets the requirement (it needs no refresh); none when not
+        duty=DutyLimits(min=0.0 if rail.min >= required_rail(design) else None,
+                        max=1.0 if rail.min >= required_rail(design) else None, hold_up=None, t_ls_min=None,
                         topology=_rating_limits(design, sched, option)),
         r_out=option.r_out, capacitors=(stress,), p_drawn_aux=power.p_in, p_drawn_bus=power.p_cm,
         losses=power.losses, checks=tuple(checks),

@@ -373,8 +373,8 @@ def duty_plot(comparison) -> Plot:
         colors = option_colors([r.label for r in c.options])
         labs = [r.label for r in c.options]
         lo, hi = zip(*[_duty_range(r) for r in c.options]) if labs else ((), ())
-        terms = [topology_text(r.duty.topology) if r.duty is not None else "\u2014" for r in c.options]
-        words = [("none feasible" if math.isnan(a) else f"{100 * a:.1f} \u2026 {100 * z:.1f} %") + f"; {t}"
+        terms = [topology_text(r.duty.topology, b) if r.duty is not None else "\u2014" for r in c.options]
+        words = [("none holds" if math.isnan(a) else f"{100 * a:.1f} \u2026 {100 * z:.1f} %") + f"; {t}"
                  for a, z, t in zip(lo, hi, terms)]
         _set(src["ranges"], {"label": labs, "color": [colors[x] for x in labs], "lo": np.array(lo, dtype=float),
                              "hi": np.array(hi, dtype=float), "terms": terms, "text": words,
@@ -637,7 +637,8 @@ def margin_map_plot(margin_map_result, design=None) -> Plot:
 # --------------------------------------------------------------------------- Monte Carlo
 
 def monte_carlo_plot(mc_result, design=None) -> Plot:
-    """Histogram of a :class:`~explorer.tolerance.MonteCarlo`'s rail minima, its limits, P(trip) in the title.
+    """Histogram of a :class:`~explorer.tolerance.MonteCarlo`'s rail minima, its limits, P(margin lost) and
+    P(UVLO trip) in the title.
 
     ``update`` takes a new result or a ``(result, design)`` pair.
 
@@ -669,7 +670,8 @@ def monte_carlo_plot(mc_result, design=None) -> Plot:
         xa.set(np.concatenate([fin, [v for _, v in lim]]) if fin.size or lim else [1.0])
         lo, hi = mc.ci
         bad = x.size - fin.size
-        p.title.text = (f"{mc.label}: P(trip) = {mc.p_trip:.3g} ({100 * mc.confidence:g} % interval "
+        p.title.text = (f"{mc.label}: P(margin lost) = {mc.p_margin:.3g}, "
+                        f"P(UVLO trip) = {mc.p_trip:.3g} ({100 * mc.confidence:g} % interval "
                         f"{lo:.3g} \u2026 {hi:.3g}), n = {mc.n}" + (f", {bad} not evaluated" if bad else ""))
 
     fill((mc_result, design))

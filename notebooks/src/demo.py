@@ -26,7 +26,7 @@ result
 # %%
 for r in result.options:
     print(f"{r.label:20s} {'holds' if r.feasible else 'FAILS':6s} rail min {format_eng(r.v_rail.min, 'V'):>8s}  "
-          f"efficiency {100 * r.efficiency:5.1f} %  overhead {format_eng(r.overhead, 'W'):>8s}")
+          f"efficiency {100 * r.efficiency:5.1f} %  losses {format_eng(r.overhead, 'W'):>8s}")
 
 # %% [markdown]
 # ## Plots
@@ -80,11 +80,12 @@ from explorer.tolerance import monte_carlo, worst_case
 d = explorer.load_design(design.to_dict() | {"spread": {"q_g": 0.1, "v_f": 0.1}})
 for o in d.options:
     w = worst_case(d, o.label)
-    print(f"{o.label:20s} worst rail min {format_eng(w.rail_min, 'V'):>8s} (margin {w.margin:+.2f} V) at {w.corner}")
+    print(f"{o.label:20s} worst rail min {format_eng(w.rail_min, 'V'):>8s} (margin {w.margin:+.2f} V) at {w.corner_text}")
 
 # %%
 mc = monte_carlo(d, "bootstrap 220n", 10_000, seed=1)
-print(f"P(rail < UVLO off) = {mc.p_trip:.4f}, 95 % interval {mc.ci[0]:.4f} .. {mc.ci[1]:.5f}")
+print(f"P(margin lost) = {mc.p_margin:.4f}")
+print(f"P(UVLO trip: rail < UVLO off) = {mc.p_trip:.4f}, 95 % interval {mc.ci[0]:.4f} .. {mc.ci[1]:.5f}")
 print(f"lowest sampled rail minimum {format_eng(mc.rail_min.min(), 'V')}")
 
 # %%

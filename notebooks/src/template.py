@@ -107,7 +107,7 @@ for o in design.options:
     w = worst_case(design, o.label)
     mc = monte_carlo(design, o.label, 10_000, seed=1)
     print(f"{o.label:16s} worst corner rail min {format_eng(w.rail_min, 'V')} (margin {w.margin:+.2f} V); "
-          f"P(trip) {mc.p_trip:.3g}, 95 % interval up to {mc.ci[1]:.2g}")
+          f"P(margin lost) {mc.p_margin:.3g}; P(UVLO trip) {mc.p_trip:.3g}, 95 % interval up to {mc.ci[1]:.2g}")
 
 # %% [markdown]
 # ## 4. Verdict
