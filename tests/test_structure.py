@@ -84,6 +84,11 @@ def test_the_checks_can_fail(tmp_path):
     assert long_functions(bad, MAX_LINES) and not long_functions(bad, MAX_LINES + 1)
 
 
+@pytest.mark.parametrize("path", list(_sources(PACKAGE / "options")), ids=lambda p: p.name)
+def test_options_are_composed_of_small_functions(path):
+    assert long_functions(path, MAX_LINES) == []
+
+
 @pytest.mark.parametrize("path", list(_sources(PACKAGE, ROOT / "tests", ROOT / "bench", ROOT / "notebooks")),
                          ids=lambda p: str(p.relative_to(ROOT)))
 def test_no_module_takes_a_private_name_of_another(path):

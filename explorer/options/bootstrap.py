@@ -417,49 +417,79 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
             prev_h = bool(hs[live[-1]])
         v = float(orb.v_end[stop - 1])
         if t_uvlo is None:
-            up = np.flatnonzero(~pred[:stop] & nxt[:stop])
-            if up.size:
-                j = int(up[0])
-                kk = p + j
-                sub = schedule_loop(circ, s.dt[kk:kk + 1], vsw[j:j + 1], hs[j:j + 1], periodic=False)
-                dtc = crossing_time(orb.v_start[j:j + 1], drv.uvlo_on, sub)[0]
-                t_uvlo = float(s.t_start[kk] + (dtc if np.isfinite(dtc) else s.dt[kk]))
-                k_uvlo = int(kk)
+            hit = _uvlo_crossing(circ, s, drv.uvlo_on, orb, ~pred[:stop] & nxt[:stop], p, vsw, hs)
+            if hit is not None:
+                t_uvlo, k_uvlo = hit
         enabled = bool(nxt[stop - 1])
         p_new = p + stop
         if check is not None and p_new >= check:
-            j1, L = tail
-            p_b = j1 + ((p_new - j1) // L) * L  # last pattern boundary reached
             if enabled not in tail_orbits:
-                tail_orbits[enabled] = _tail_orbit(circ, s, j1, L, enabled, drv, steady)
-            orb_t = tail_orbits[enabled]
-            u0 = orb_t.v_pre[0] if orb_t is not None else np.nan
-            v_b = v_end[p_b - 1]
-            if (orb_t is not None and np.all(state[p_b - L:p_new] == enabled)
-                    and abs(v_b - u0) <= STARTUP_TOL * (1.0 + abs(u0))):
-                reps = -(-(n - p_b) // L)
-                k = slice(p_b, n)
-                v_pre[k] = np.tile(orb_t.v_pre, reps)[:n - p_b]
-                v_start[k] = np.tile(orb_t.v_start, reps)[:n - p_b]
-                v_end[k] = np.tile(orb_t.v_end, reps)[:n - p_b]
-                delivered[k] = s.hs_on[k] & enabled
-                state[k] = enabled
-                k_settled = p_b
+                tail_orbits[enabled] = _tail_orbit(circ, s, tail[0], tail[1], enabled, drv, steady)
+            k_settled = _settle(s, tail, tail_orbits[enabled], enabled, p_new,
+                                (v_pre, v_start, v_end, delivered, state))
+            if k_settled is not None:
                 break
-            check = j1 + 2 * (check - j1)
-        # a wrong guess costs the rest of the window: restart short, grow while the guesses hold
+            check = tail[0] + 2 * (check - tail[0])
         if bad.size:
             restarts += 1
-            # after the first restart with a held state the rest usually goes in one piece
-            window = n if (enabled and t_uvlo is not None and restarts == 1) else max(256, 2 * stop)
-        elif window == 1:  # the sequential head: on to the rest in one piece once UVLO-on is reached
-            window = n if enabled else (1 if p_new < _HEAD else 256)
-        else:
-            window *= 4
+        window = _next_window(window, bool(bad.size), restarts, stop, enabled, t_uvlo is not None, p_new, n)
         p += stop
     loop_all = schedule_loop(circ, s.dt, s.sw_levels(delivered), delivered, periodic=False, v_prev0=s.v_rest)
     i_start = _diode_current(v_start, loop_all, circ)
     return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments, k_settled)
+
+
+def _uvlo_crossing(circ: BootstrapCircuit, s: Schedule, uvlo_on: float, orb: OrbitSolution, up: np.ndarray,
+                   p: int, vsw: np.ndarray, hs: np.ndarray) -> tuple[float, int] | None:
+    """(t_uvlo [s], interval) of the first interval of a solved piece (starting at interval ``p``) in which a
+    driver held in UVLO sees the rail reach UVLO-on (``up`` marks them), exact within the interval; or None."""
+    up = np.flatnonzero(up)
+    if not up.size:
+        return None
+    j = int(up[0])
+    kk = p + j
+    sub = schedule_loop(circ, s.dt[kk:kk + 1], vsw[j:j + 1], hs[j:j + 1], periodic=False)
+    dtc = crossing_time(orb.v_start[j:j + 1], uvlo_on, sub)[0]
+    return float(s.t_start[kk] + (dtc if np.isfinite(dtc) else s.dt[kk])), int(kk)
+
+
+def _settle(s: Schedule, tail: tuple, orb_t: OrbitSolution | None, enabled: bool, p_new: int,
+            arrays: tuple) -> int | None:
+    """The settled tail: where the trajectory (``arrays`` v_pre, v_start, v_end, delivered, state, solved up to
+    ``p_new``) has reached the tail pattern's orbit at its last pattern boundary, with the UVLO state held,
+    fill the rest with that orbit repeated and return the boundary; else None (see :func:`startup`)."""
+    v_pre, v_start, v_end, delivered, state = arrays
+    n = len(v_pre)
+    j1, L = tail
+    p_b = j1 + ((p_new - j1) // L) * L  # last pattern boundary reached
+    u0 = orb_t.v_pre[0] if orb_t is not None else np.nan
+    v_b = v_end[p_b - 1]
+    if not (orb_t is not None and np.all(state[p_b - L:p_new] == enabled)
+            and abs(v_b - u0) <= STARTUP_TOL * (1.0 + abs(u0))):
+        return None
+    reps = -(-(n - p_b) // L)
+    k = slice(p_b, n)
+    v_pre[k] = np.tile(orb_t.v_pre, reps)[:n - p_b]
+    v_start[k] = np.tile(orb_t.v_start, reps)[:n - p_b]
+    v_end[k] = np.tile(orb_t.v_end, reps)[:n - p_b]
+    delivered[k] = s.hs_on[k] & enabled
+    state[k] = enabled
+    return p_b
+
+
+def _next_window(window: int, guessed_wrong: bool, restarts: int, stop: int, enabled: bool, reached: bool,
+                 p_new: int, n: int) -> int:
+    """Intervals of the next piece of the start-up solve.
+
+    A wrong guess of the UVLO state costs the rest of the window: restart short, grow while the
+    guesses hold; after the first restart with a held state the rest usually goes in one piece. The
+    sequential head (one interval at a time) goes on to the rest in one piece once UVLO-on is reached.
+    """
+    if guessed_wrong:
+        return n if (enabled and reached and restarts == 1) else max(256, 2 * stop)
+    if window == 1:
+        return n if enabled else (1 if p_new < _HEAD else 256)
+    return window * 4
 
 
 #: Intervals stepped one at a time at the start while the driver waits for UVLO-on (a pre-charge
@@ -1020,6 +1050,206 @@ def _validity_messages(design: Design, circ: BootstrapCircuit) -> list[str]:
     return out
 
 
+@dataclass(frozen=True)
+class _SteadyPart:
+    """The steady state's part of a bootstrap result: rail statistics [V] (None when never refreshed),
+    the interval integrals, the plotted waveform and the details it gives."""
+
+    refreshed: bool
+    rail: RailStats
+    v_min: float | None
+    v_max: float | None
+    ints: dict
+    t_wave: np.ndarray
+    v_wave: np.ndarray
+    details: dict
+
+
+def _steady_part(ss: SteadyState, warn: list) -> _SteadyPart:
+    """Steady state: rail statistics over the analysis period (a collapse shown at 0 V) and the waveform."""
+    orb, sched = ss.orbit, ss.schedule
+    T = sched.period
+    details: dict = {"newton_passes_steady": orb.passes}
+    if not _is_refreshed(ss):
+        warn.append("the rail is never refreshed in steady state (the high side is on for the whole "
+                    "analysis period): it only holds up for the time given under hold-up")
+        return _SteadyPart(refreshed=False, rail=RailStats(0.0, 0.0, 0.0), v_min=None, v_max=None, ints={},
+                           t_wave=np.zeros(0), v_wave=np.zeros(0), details=details)
+    ints = ss.integrals
+    v_min, v_max = float(orb.v_min), float(orb.v_max)
+    v_mean = float(np.sum(ints["int_v"]) / T)
+    if v_min < 0.0:
+        warn.append("the rail collapses to 0 V in steady state (below 0 V the model's constant load "
+                    "current no longer holds; the minimum is shown as 0 V)")
+        details["v_min_model"] = v_min
+        v_min = 0.0
+        v_max, v_mean = max(v_max, 0.0), max(v_mean, 0.0)
+    t_wave = np.repeat(sched.t_start, 2)
+    v_wave = np.column_stack((orb.v_pre, orb.v_start)).ravel()
+    t_wave = np.append(t_wave, T)
+    v_wave = np.append(v_wave, orb.v_end[-1])
+    return _SteadyPart(refreshed=True, rail=RailStats(v_min, v_max, v_mean), v_min=v_min, v_max=v_max, ints=ints,
+                       t_wave=t_wave, v_wave=v_wave, details=details)
+
+
+def _startup_part(design: Design, option: BootstrapOption, circ: BootstrapCircuit, su: StartupSolution,
+                  warn: list) -> tuple[Startup, dict]:
+    """Start-up from 0 V: the Startup part (UVLO time and cycles, peak current, V_DD dip) and its details."""
+    drv, aux = design.driver, design.aux
+    s2 = su.schedule
+    i_peak_su = float(su.i_start.max(initial=0.0))
+    first_live = np.flatnonzero(su.i_start > 0)
+    i_first = float(su.i_start[first_live[0]]) if first_live.size else 0.0
+    on_idx = np.flatnonzero(su.delivered)
+    k_w = int(on_idx[0]) if on_idx.size else len(s2) - 1
+    t_w = float(s2.t_start[k_w]) if on_idx.size else s2.period
+    v_w = float(su.v_pre[k_w]) if on_idx.size else float(su.v_end[-1])
+    q_w = circ.c * v_w + circ.i_q * t_w  # charge drawn from the aux rail until the first delivered pulse
+    v_dd_dip = q_w / (aux.c_dd + circ.c)  # charge sharing with the aux decoupling (no regulator help)
+    cycles = None
+    if su.k_uvlo is not None:
+        cycles = int(max(s2.cycle[su.k_uvlo], -1) + 1)
+    t_su = np.append(np.repeat(s2.t_start, 2), s2.period)
+    v_su = np.append(np.column_stack((su.v_pre, su.v_start)).ravel(), su.v_end[-1])
+    start = Startup(t_uvlo=su.t_uvlo, cycles_uvlo=cycles, i_peak=i_peak_su, v_dd_dip=v_dd_dip, t=t_su, v=v_su)
+    details = {"i_first_pulse": i_first, "startup_segments": su.segments,
+               "startup_v_max": float(np.max(su.v_start, initial=0.0)),
+               "startup_v_sw_hold": _first_hold(s2), "startup_sw_hold": s2.hold_words}
+    if su.t_uvlo is None:
+        warn.append(f"the rail does not reach UVLO-on ({_fmt(drv.uvlo_on, 'V')}) within the "
+                    f"{s2.n_cycles} start-up cycles analysed")
+    if aux.c_dd < C_DD_RATIO * option.c:
+        warn.append(f"the aux decoupling ({_fmt(aux.c_dd, 'F')}) is less than {C_DD_RATIO:g}× the bootstrap "
+                    f"capacitor (common practice): V_DD dips by about {_fmt(v_dd_dip, 'V')} while it fills")
+    return start, details
+
+
+def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sched: Schedule, need: float,
+               warn: list) -> tuple[DutyLimits, dict]:
+    """Duty limits: the HS duty range that keeps the rail, the hold-up at 100 % and the topology's terms."""
+    b, drv = design.bridge, design.driver
+    refreshed, v_min, v_max = steady.refreshed, steady.v_min, steady.v_max
+    h_need, h_uvlo = duty_limit(design, circ, [need, drv.uvlo_off])
+    h_min = min(1.0, drv.t_on_min / _period(design))
+    # hold-up at 100 % duty from the steady-state maximum (the full charge target if never refreshed)
+    v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
+    q_edge = circ.q_on + circ.q_rr + circ.c_j * (b.v_bus - circ.v_sw_low)
+    hold, hold_uvlo = (hold_up_time(v_top, q_edge, th, i_load=circ.i_q + circ.i_leak, g_load=circ.g_gs, c=circ.c)
+                       for th in (need, drv.uvlo_off))
+    T_sw = _period(design)
+    t_ls_min = None if h_need is None else max(0.0, (1.0 - h_need) * T_sw - 2 * b.dead_time)
+    if light_load(b) and h_need is not None:
+        t_ls_min = _ls_pulse_min(design, circ, need)
+    topo = topology_terms(design, circ, h_need, need, v_min)
+    duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
+                      t_ls_min=t_ls_min, topology=topo, hold_up_threshold=need, hold_up_to=HOLD_UP_TO)
+    op_duty = float(np.max(sched.duty))
+    f_txt = _fmt(analysis_frequency(b), "Hz")
+    if refreshed and v_min < drv.uvlo_off:
+        where = (f"at HS duty above {h_uvlo:.3g}" if h_uvlo is not None else "at every HS duty")
+        warn.append(f"the rail falls below UVLO-off ({_fmt(drv.uvlo_off, 'V')}) {where} at {f_txt}; "
+                    f"this operating point reaches HS duty {op_duty:.3g}")
+    elif refreshed and v_min < need:
+        where = (f"at HS duty above {h_need:.3g}" if h_need is not None else "at every HS duty")
+        warn.append(f"the rail falls below the required {_fmt(need, 'V')} {where} at {f_txt}; "
+                    f"this operating point reaches HS duty {op_duty:.3g}")
+    return duty, {"hold_up_uvlo_off": hold_uvlo, "duty_max_uvlo_off": h_uvlo}
+
+
+def _stress_part(design: Design, option: BootstrapOption, circ: BootstrapCircuit, steady: _SteadyPart,
+                 ss: SteadyState, start: Startup, startup_v_max: float) -> tuple[tuple, dict]:
+    """Capacitor and diode stress over the steady state and the start-up: (capacitors, details)."""
+    b, aux = design.bridge, design.aux
+    refreshed, v_min, v_max, ints = steady.refreshed, steady.v_min, steady.v_max, steady.ints
+    low_levels = [circ.v_sw_low, -b.v_undershoot]
+    v_ceiling = aux.v_dd * (1 + aux.v_dd_tol) - min(low_levels) - float(circ.drop(circ.i_q))
+    v_cap_max = max(v_ceiling, v_max or 0.0, startup_v_max)
+    if refreshed:
+        turn_on = ss.loop.q_step  # charge per interval start
+        q2 = np.sum(np.asarray(turn_on) ** 2) / b.t_edge
+        i_rms = math.sqrt((float(np.sum(ints["i2_c"])) + q2) / ss.schedule.period)
+        i_pk_ss = float(np.max(ints["i_d0"], initial=0.0))
+    else:
+        i_rms, i_pk_ss = 0.0, 0.0
+    i_peak_su = start.i_peak
+    i_pk = max(i_pk_ss, i_peak_su, circ.q_on / b.t_edge)
+    caps = (CapacitorStress(name="C_boot", c_eff=circ.c, v_max=v_cap_max, v_rating=option.v_rating,
+                            ripple=(v_max - v_min) if refreshed else 0.0, i_rms=i_rms, i_peak=i_pk),)
+    v_rev = b.v_bus + aux.v_dd * (1 + aux.v_dd_tol)
+    return caps, {"v_max_nominal": v_max, "v_max_ceiling": v_ceiling, "diode_v_reverse": v_rev,
+                  "diode_i_peak": max(i_pk_ss, i_peak_su)}
+
+
+@dataclass(frozen=True)
+class _PowerPart:
+    """Power split of a refreshed rail [W] (all None, no losses, for a rail never refreshed)."""
+
+    p_aux: float | None = None
+    p_bus: float | None = None
+    p_del: float | None = None
+    efficiency: float | None = None
+    losses: dict = dataclasses.field(default_factory=dict)
+    details: dict = dataclasses.field(default_factory=dict)
+
+
+def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady: _SteadyPart,
+                collapsed: bool) -> _PowerPart:
+    """Power drawn from the aux rail and the bus, delivered to the gate side, losses by mechanism."""
+    if not steady.refreshed:
+        return _PowerPart()
+    b, sched, orb, loop, ints = design.bridge, ss.schedule, ss.orbit, ss.loop, steady.ints
+    T = sched.period
+    lev, prev_l, _ = ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
+    high = lev > 0.5 * b.v_bus
+    rise = (sched.dt > 0) & high & (prev_l <= 0.5 * b.v_bus)
+    n_rise = int(np.count_nonzero(rise))
+    t_high = float(np.sum(sched.dt[high]))
+    up = np.clip(lev - prev_l, 0.0, None)
+    q_d = float(np.sum(ints["q_d"]))
+    q_ret = circ.q_rr * n_rise + circ.i_leak * t_high
+    p_aux = circ.v_dd * (q_d - q_ret) / T
+    e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
+    e_rr = circ.q_rr * b.v_bus * n_rise
+    e_cj = circ.c_j * b.v_bus * float(np.sum(up))
+    e_lk = circ.i_leak * b.v_bus * t_high
+    p_bus = (e_rr + e_cj + e_lk + e_sw) / T
+    e_gate = float(np.sum(circ.q_on * sched.hs_turn_on * 0.5 * (orb.v_pre + orb.v_start)))
+    e_q = circ.i_q * float(np.sum(ints["int_v"]))
+    e_g = float(np.sum(ints["e_load"] - loop.i_load * ints["int_v"]))
+    p_del = (e_gate + e_q + e_g) / T
+    losses = {"resistor": float(np.sum(ints["e_r"])) / T, "diode": float(np.sum(ints["e_d"])) / T,
+              "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T}
+    eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
+    if collapsed:  # a collapsed rail: the power figures of the model do not hold
+        eff = None
+    return _PowerPart(p_aux=p_aux, p_bus=p_bus, p_del=p_del, efficiency=eff, losses=losses,
+                      details={"q_diode_per_period": q_d, "energy_switch_node": e_sw / T})
+
+
+def _checks_part(design: Design, option: BootstrapOption, steady: _SteadyPart, need: float, v_cap_max: float,
+                 v_rev: float, su: StartupSolution) -> list:
+    """The shared checks (rail, start-up, capacitor) and the diode's reverse voltage."""
+    checks = []
+    if steady.refreshed:
+        checks.append(rail_min_check(design, steady.v_min, f"steady-state rail stays above max(UVLO-off, V_GS "
+                                                           f"needed) + margin = {_fmt(need, 'V')}"))
+    else:
+        checks.append(rail_min_check(design, 0.0, "the rail is refreshed in steady state"))
+    checks.append(rail_max_v_bs_check(design, v_cap_max, "rail maximum (V_DD at its tolerance, SW undershoot) "
+                                                         "stays below the driver's V_BS(max)"))
+    checks.append(rail_max_v_gs_check(design, v_cap_max, "rail maximum stays below the gate's V_GS(max)"))
+    cap_check = cap_voltage_check(design, "C_boot", v_cap_max, option.v_rating,
+                                  "bootstrap capacitor voltage within its derated rating")
+    if cap_check is not None:
+        checks.append(cap_check)
+    if option.v_rrm is not None:
+        checks.append(Check("diode_v_rrm", v_rev, option.v_rrm * design.checks.diode_derating, "max", "V",
+                            "diode V_RRM covers V_bus + V_DD after derating"))
+    checks.append(startup_uvlo_check(design, float(np.max(su.v_end, initial=0.0)),
+                                     "the rail reaches UVLO-on during start-up"))
+    return checks
+
+
 def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "nominal") -> OptionResult:
     """Evaluate one bootstrap option of a design.
 
@@ -1039,176 +1269,38 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
         the figures without a slot of their own (nominal steady-state maximum,
         duty at which the rail reaches UVLO-off, the first-pulse inrush,
         start-up segments, Newton passes).
+
+    Notes
+    -----
+    One step per part of the result: steady state (:func:`_steady_part`), start-up
+    (:func:`_startup_part`), duty limits (:func:`_duty_part`), stress (:func:`_stress_part`), power
+    (:func:`_power_part`) and checks (:func:`_checks_part`); each also gives its share of the details.
     """
     circ = bootstrap_circuit(design, option, corner)
-    b, drv, aux, chk = design.bridge, design.driver, design.aux, design.checks
     need = required_rail(design)
     warn: list[str] = []
-    extra: dict = {"c_eff": circ.c, "required_rail": need}
-
-    # ---- steady state
     ss = steady_state(design, option, corner, circ)
-    orb, sched, loop = ss.orbit, ss.schedule, ss.loop
-    T = sched.period
     for msg in _validity_messages(design, circ):
         warnings.warn(msg, ModelValidityWarning, stacklevel=2)
         warn.append(msg)
-    refreshed = _is_refreshed(ss)
-    if refreshed:
-        ints = ss.integrals
-        v_min, v_max = float(orb.v_min), float(orb.v_max)
-        v_mean = float(np.sum(ints["int_v"]) / T)
-        if v_min < 0.0:
-            warn.append("the rail collapses to 0 V in steady state (below 0 V the model's constant load "
-                        "current no longer holds; the minimum is shown as 0 V)")
-            extra["v_min_model"] = v_min
-            v_min = 0.0
-            v_max, v_mean = max(v_max, 0.0), max(v_mean, 0.0)
-        rail = RailStats(v_min, v_max, v_mean)
-        t_wave = np.repeat(sched.t_start, 2)
-        v_wave = np.column_stack((orb.v_pre, orb.v_start)).ravel()
-        t_wave = np.append(t_wave, T)
-        v_wave = np.append(v_wave, orb.v_end[-1])
-    else:
-        ints = {}
-        v_min = v_max = v_mean = None
-        rail = RailStats(0.0, 0.0, 0.0)
-        t_wave = v_wave = np.zeros(0)
-        warn.append("the rail is never refreshed in steady state (the high side is on for the whole "
-                    "analysis period): it only holds up for the time given under hold-up")
-    extra["newton_passes_steady"] = orb.passes
-
-    # ---- start-up
+    steady = _steady_part(ss, warn)
     su = startup(design, option, corner, circ, steady=ss)
-    s2 = su.schedule
-    i_peak_su = float(su.i_start.max(initial=0.0))
-    first_live = np.flatnonzero(su.i_start > 0)
-    i_first = float(su.i_start[first_live[0]]) if first_live.size else 0.0
-    on_idx = np.flatnonzero(su.delivered)
-    k_w = int(on_idx[0]) if on_idx.size else len(s2) - 1
-    t_w = float(s2.t_start[k_w]) if on_idx.size else s2.period
-    v_w = float(su.v_pre[k_w]) if on_idx.size else float(su.v_end[-1])
-    q_w = circ.c * v_w + circ.i_q * t_w  # charge drawn from the aux rail until the first delivered pulse
-    v_dd_dip = q_w / (aux.c_dd + circ.c)  # charge sharing with the aux decoupling (no regulator help)
-    cycles = None
-    if su.k_uvlo is not None:
-        cycles = int(max(s2.cycle[su.k_uvlo], -1) + 1)
-    t_su = np.append(np.repeat(s2.t_start, 2), s2.period)
-    v_su = np.append(np.column_stack((su.v_pre, su.v_start)).ravel(), su.v_end[-1])
-    start = Startup(t_uvlo=su.t_uvlo, cycles_uvlo=cycles, i_peak=i_peak_su, v_dd_dip=v_dd_dip, t=t_su, v=v_su)
-    extra.update({"i_first_pulse": i_first, "startup_segments": su.segments,
-                  "startup_v_max": float(np.max(su.v_start, initial=0.0)),
-                  "startup_v_sw_hold": _first_hold(s2), "startup_sw_hold": s2.hold_words})
-    assumptions = [s2.hold_words] if s2.hold_words else []
-    if su.t_uvlo is None:
-        warn.append(f"the rail does not reach UVLO-on ({_fmt(drv.uvlo_on, 'V')}) within the "
-                    f"{s2.n_cycles} start-up cycles analysed")
-    if aux.c_dd < C_DD_RATIO * option.c:
-        warn.append(f"the aux decoupling ({_fmt(aux.c_dd, 'F')}) is less than {C_DD_RATIO:g}× the bootstrap "
-                    f"capacitor (common practice): V_DD dips by about {_fmt(v_dd_dip, 'V')} while it fills")
-
-    # ---- duty limits
-    h_need, h_uvlo = duty_limit(design, circ, [need, drv.uvlo_off])
-    h_min = min(1.0, drv.t_on_min / _period(design))
-    # hold-up at 100 % duty from the steady-state maximum (the full charge target if never refreshed)
-    v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
-    q_edge = circ.q_on + circ.q_rr + circ.c_j * (b.v_bus - circ.v_sw_low)
-    hold, hold_uvlo = (hold_up_time(v_top, q_edge, th, i_load=circ.i_q + circ.i_leak, g_load=circ.g_gs, c=circ.c)
-                       for th in (need, drv.uvlo_off))
-    extra["hold_up_uvlo_off"] = hold_uvlo
-    T_sw = _period(design)
-    t_ls_min = None if h_need is None else max(0.0, (1.0 - h_need) * T_sw - 2 * b.dead_time)
-    if light_load(b) and h_need is not None:
-        t_ls_min = _ls_pulse_min(design, circ, need)
-    topo = topology_terms(design, circ, h_need, need, v_min)
-    duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
-                      t_ls_min=t_ls_min, topology=topo, hold_up_threshold=need, hold_up_to=HOLD_UP_TO)
-    extra["duty_max_uvlo_off"] = h_uvlo
-    op_duty = float(np.max(sched.duty))
-    f_txt = _fmt(analysis_frequency(b), "Hz")
-    if refreshed and v_min < drv.uvlo_off:
-        where = (f"at HS duty above {h_uvlo:.3g}" if h_uvlo is not None else "at every HS duty")
-        warn.append(f"the rail falls below UVLO-off ({_fmt(drv.uvlo_off, 'V')}) {where} at {f_txt}; "
-                    f"this operating point reaches HS duty {op_duty:.3g}")
-    elif refreshed and v_min < need:
-        where = (f"at HS duty above {h_need:.3g}" if h_need is not None else "at every HS duty")
-        warn.append(f"the rail falls below the required {_fmt(need, 'V')} {where} at {f_txt}; "
-                    f"this operating point reaches HS duty {op_duty:.3g}")
-
-    # ---- stress
-    low_levels = [circ.v_sw_low, -b.v_undershoot]
-    v_ceiling = aux.v_dd * (1 + aux.v_dd_tol) - min(low_levels) - float(circ.drop(circ.i_q))
-    v_cap_max = max(v_ceiling, v_max or 0.0, extra["startup_v_max"])
-    extra["v_max_nominal"] = v_max
-    extra["v_max_ceiling"] = v_ceiling
-    if refreshed:
-        turn_on = loop.q_step  # charge per interval start
-        q2 = np.sum(np.asarray(turn_on) ** 2) / b.t_edge
-        i_rms = math.sqrt((float(np.sum(ints["i2_c"])) + q2) / T)
-        i_pk_ss = float(np.max(ints["i_d0"], initial=0.0))
-    else:
-        i_rms, i_pk_ss = 0.0, 0.0
-    i_pk = max(i_pk_ss, i_peak_su, circ.q_on / b.t_edge)
-    caps = (CapacitorStress(name="C_boot", c_eff=circ.c, v_max=v_cap_max, v_rating=option.v_rating,
-                            ripple=(v_max - v_min) if refreshed else 0.0, i_rms=i_rms, i_peak=i_pk),)
-    v_rev = b.v_bus + aux.v_dd * (1 + aux.v_dd_tol)
-    extra.update({"diode_v_reverse": v_rev, "diode_i_peak": max(i_pk_ss, i_peak_su)})
-
-    # ---- power
-    p_aux = p_bus = p_del = eff = None
-    losses: dict = {}
-    if refreshed:
-        lev, prev_l, _ = ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
-        high = lev > 0.5 * b.v_bus
-        rise = (sched.dt > 0) & high & (prev_l <= 0.5 * b.v_bus)
-        n_rise = int(np.count_nonzero(rise))
-        t_high = float(np.sum(sched.dt[high]))
-        up = np.clip(lev - prev_l, 0.0, None)
-        q_d = float(np.sum(ints["q_d"]))
-        q_ret = circ.q_rr * n_rise + circ.i_leak * t_high
-        p_aux = circ.v_dd * (q_d - q_ret) / T
-        e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
-        e_rr = circ.q_rr * b.v_bus * n_rise
-        e_cj = circ.c_j * b.v_bus * float(np.sum(up))
-        e_lk = circ.i_leak * b.v_bus * t_high
-        p_bus = (e_rr + e_cj + e_lk + e_sw) / T
-        e_gate = float(np.sum(circ.q_on * sched.hs_turn_on * 0.5 * (orb.v_pre + orb.v_start)))
-        e_q = circ.i_q * float(np.sum(ints["int_v"]))
-        e_g = float(np.sum(ints["e_load"] - loop.i_load * ints["int_v"]))
-        p_del = (e_gate + e_q + e_g) / T
-        losses = {"resistor": float(np.sum(ints["e_r"])) / T, "diode": float(np.sum(ints["e_d"])) / T,
-                  "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T}
-        eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
-        if "v_min_model" in extra:  # a collapsed rail: the power figures of the model do not hold
-            eff = None
-        extra.update({"q_diode_per_period": q_d, "energy_switch_node": e_sw / T})
-
-    # ---- checks
-    checks = []
-    if refreshed:
-        checks.append(rail_min_check(design, v_min, f"steady-state rail stays above max(UVLO-off, V_GS needed) "
-                                                    f"+ margin = {_fmt(need, 'V')}"))
-    else:
-        checks.append(rail_min_check(design, 0.0, "the rail is refreshed in steady state"))
-    checks.append(rail_max_v_bs_check(design, v_cap_max, "rail maximum (V_DD at its tolerance, SW undershoot) "
-                                                         "stays below the driver's V_BS(max)"))
-    checks.append(rail_max_v_gs_check(design, v_cap_max, "rail maximum stays below the gate's V_GS(max)"))
-    cap_check = cap_voltage_check(design, "C_boot", v_cap_max, option.v_rating,
-                                  "bootstrap capacitor voltage within its derated rating")
-    if cap_check is not None:
-        checks.append(cap_check)
-    if option.v_rrm is not None:
-        checks.append(Check("diode_v_rrm", v_rev, option.v_rrm * chk.diode_derating, "max", "V",
-                            "diode V_RRM covers V_bus + V_DD after derating"))
-    checks.append(startup_uvlo_check(design, float(np.max(su.v_end, initial=0.0)),
-                                     "the rail reaches UVLO-on during start-up"))
+    start, su_details = _startup_part(design, option, circ, su, warn)
+    duty, duty_details = _duty_part(design, circ, steady, ss.schedule, need, warn)
+    caps, stress_details = _stress_part(design, option, circ, steady, ss, start, su_details["startup_v_max"])
+    power = _power_part(design, circ, ss, steady, "v_min_model" in steady.details)
+    checks = _checks_part(design, option, steady, need, caps[0].v_max, stress_details["diode_v_reverse"], su)
     feasible, verdict = verdict_from(checks, warn)
+    details = BootstrapDetails(c_eff=circ.c, required_rail=need, **steady.details, **su_details, **duty_details,
+                               **stress_details, **power.details)
+    hold_words = su.schedule.hold_words
+    p_drawn = None if power.p_aux is None else power.p_aux + power.p_bus
     return OptionResult(label=option.label, kind=option.kind, feasible=feasible, verdict=verdict,
-                        warnings=tuple(warn), v_rail=rail if refreshed else None, efficiency=eff,
-                        p_delivered=p_del, p_drawn=None if p_aux is None else p_aux + p_bus,
-                        startup=start, duty=duty, r_out=None, capacitors=caps, p_drawn_aux=p_aux,
-                        p_drawn_bus=p_bus, losses=losses, checks=tuple(checks), details=BootstrapDetails(**extra),
-                        assumptions=tuple(assumptions), t=t_wave, v=v_wave)
+                        warnings=tuple(warn), v_rail=steady.rail if steady.refreshed else None,
+                        efficiency=power.efficiency, p_delivered=power.p_del, p_drawn=p_drawn, startup=start,
+                        duty=duty, r_out=None, capacitors=caps, p_drawn_aux=power.p_aux, p_drawn_bus=power.p_bus,
+                        losses=power.losses, checks=tuple(checks), details=details,
+                        assumptions=(hold_words,) if hold_words else (), t=steady.t_wave, v=steady.v_wave)
 
 
 #: What ``DutyLimits.hold_up`` of a bootstrap counts down to (``hold_up_threshold`` gives the value;
