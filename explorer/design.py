@@ -197,6 +197,12 @@ class Bridge:
                                  "(null = the topology's rule: buck v_out_start, boost v_in, line leg v_bus, "
                                  "others the dead-time level before HS turn-on)", None, nullable=True,
                                  lo=-100.0, hi=1e5)
+    edge_rise: str = _f("-", "how the switch node's rising edges are driven, for the capacitive energy: 'auto' = "
+                        "from the schedule (an edge into a switch's on-time is hard-switched, ½C·ΔV²; "
+                        "one into a dead time is moved by the load current, zero-voltage, ~0), 'hard' or 'soft'",
+                        "auto", kind="choice", choices=("auto", "hard", "soft"))
+    edge_fall: str = _f("-", "how the switch node's falling edges are driven (as edge_rise)", "auto",
+                        kind="choice", choices=("auto", "hard", "soft"))
     startup_cycles: int = _f("-", "switching periods analysed in start-up (line periods for line_leg)",
                              2000, kind="int", lo=1, hi=1_000_000)
 

@@ -56,7 +56,7 @@ from .errors import DesignError
 from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_standstill, light_load,
                        periods_per_fundamental, topology_of)
 
-__all__ = ["Schedule", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
+__all__ = ["Schedule", "edge_kinds", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
            "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill"]
 
 
@@ -96,6 +96,13 @@ class Schedule:
         The assumption behind ``v_hold`` in plain words ("" for a periodic schedule).
     v_rest : float [V]
         Switch-node level before the first interval of a start-up schedule.
+    edge_hard : ndarray of bool or None
+        The switch-node edge at the start of each interval (where the level changes) is
+        hard-switched: a switch turning on forces the node, and a capacitance across it dissipates
+        ½·C·ΔV² (False: the load current moves the node in a dead time, zero-voltage, ~0). The
+        rule: an edge into an HS or LS on-time (or the pre-charge pulse) is hard, one into a dead
+        time or a light-load rest is not; ``bridge.edge_rise`` / ``edge_fall`` override it. None:
+        every edge hard.
     """
 
     dt: np.ndarray
@@ -112,6 +119,7 @@ class Schedule:
     v_hold: np.ndarray | None = None
     hold_words: str = ""
     v_rest: float = 0.0
+    edge_hard: np.ndarray | None = None
 
     def sw_levels(self, delivered) -> np.ndarray:
         """Switch-node level per interval with the HS pulses not in ``delivered`` withheld [V]."""
@@ -218,27 +226,49 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     vh = v.copy()
     if hold is not None:
         vh[:, 0] = hold
-    dt, v, vh, hs, cyc = dt.ravel(), v.ravel(), vh.ravel(), hs.ravel(), cyc.ravel()
+    on_slot = np.tile([True, False, True, False], (K, 1))  # an edge into HS or LS on-time is forced
+    dt, v, vh, hs, cyc, on_slot = dt.ravel(), v.ravel(), vh.ravel(), hs.ravel(), cyc.ravel(), on_slot.ravel()
     if pre > 0.0:  # low-side pre-charge pulse before the first period
         dt = np.concatenate(([pre], dt))
         v = np.concatenate(([bridge.v_sw_low], v))
         vh = np.concatenate(([bridge.v_sw_low], vh))
         hs = np.concatenate(([False], hs))
         cyc = np.concatenate(([-1], cyc))
+        on_slot = np.concatenate(([True], on_slot))
     keep = dt > 0.0
-    dt, v, vh, hs, cyc = dt[keep], v[keep], vh[keep], hs[keep], cyc[keep]
+    dt, v, vh, hs, cyc, on_slot = dt[keep], v[keep], vh[keep], hs[keep], cyc[keep], on_slot[keep]
     high = v > 0.5 * bridge.v_bus
     if periodic:
         prev_high, prev_hs = np.roll(high, 1), np.roll(hs, 1)
     else:
         prev_high = np.concatenate(([False], high[:-1]))
         prev_hs = np.concatenate(([False], hs[:-1]))
+    prev_v = np.roll(v, 1) if periodic else np.concatenate(([bridge.v_sw_low if hold is None else
+                                                            float(np.ravel(hold)[0]) if np.size(hold) else 0.0],
+                                                           v[:-1]))
+    edge_hard = edge_kinds(bridge, on_slot, v > prev_v)
     return Schedule(dt=dt, v_sw=v, hs_on=hs, hs_turn_on=hs & ~prev_hs, sw_rise=high & ~prev_high,
                     sw_fall=~high & prev_high, cycle=cyc, duty=duty,
                     t_switch=T * (1 + (bridge.skip_cycles if skipping else 0)),
                     v_bus=bridge.v_bus, periodic=periodic, v_hold=None if hold is None else vh,
-                    hold_words=hold_words,
+                    hold_words=hold_words, edge_hard=edge_hard,
                     v_rest=bridge.v_sw_low if hold is None else float(np.ravel(hold)[0]) if np.size(hold) else 0.0)
+
+
+def edge_kinds(bridge: Bridge, on_slot, rising) -> np.ndarray:
+    """Whether the edge into each interval is hard-switched (see :attr:`Schedule.edge_hard`).
+
+    ``on_slot``: the interval is a switch's on-time (HS, LS or the pre-charge pulse); ``rising``:
+    the level rises into it. ``bridge.edge_rise`` / ``edge_fall`` = "hard" or "soft" override the
+    schedule's rule for that direction.
+    """
+    on_slot = np.asarray(on_slot, dtype=bool)
+    rising = np.asarray(rising, dtype=bool)
+    out = on_slot.copy()
+    for mode, mask in ((bridge.edge_rise, rising), (bridge.edge_fall, ~rising)):
+        if mode != "auto":
+            out = np.where(mask, mode == "hard", out)
+    return out
 
 
 def period_schedule(design: Design, bridge: Bridge | None = None) -> Schedule:

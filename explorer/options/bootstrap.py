@@ -52,6 +52,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..capacitors import capacitance, parse_dielectric
+from ..common_mode import capacitive_edge_power, edge_words
 from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..engines.rail_integrals import crossing_time, interval_integrals
 from ..engines.rail_junction import junction_current
@@ -1190,6 +1191,7 @@ class _PowerPart:
     efficiency: float | None = None
     losses: dict = dataclasses.field(default_factory=dict)
     details: dict = dataclasses.field(default_factory=dict)
+    assumptions: tuple = ()
 
 
 def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady: _SteadyPart,
@@ -1204,13 +1206,13 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     rise = (sched.dt > 0) & high & (prev_l <= 0.5 * b.v_bus)
     n_rise = int(np.count_nonzero(rise))
     t_high = float(np.sum(sched.dt[high]))
-    up = np.clip(lev - prev_l, 0.0, None)
     q_d = float(np.sum(ints["q_d"]))
     q_ret = circ.q_rr * n_rise + circ.i_leak * t_high
     p_aux = circ.v_dd * (q_d - q_ret) / T
     e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
     e_rr = circ.q_rr * b.v_bus * n_rise
-    e_cj = circ.c_j * b.v_bus * float(np.sum(up))
+    cj_edges = capacitive_edge_power(circ.c_j, sched)  # ½·C_j·ΔV² per hard edge, ~0 per ZVS edge
+    e_cj = cj_edges.dissipated * T
     e_lk = circ.i_leak * b.v_bus * t_high
     p_bus = (e_rr + e_cj + e_lk + e_sw) / T
     e_gate = float(np.sum(circ.q_on * sched.hs_turn_on * 0.5 * (orb.v_pre + orb.v_start)))
@@ -1223,7 +1225,9 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     if collapsed:  # a collapsed rail: the power figures of the model do not hold
         eff = None
     return _PowerPart(p_aux=p_aux, p_bus=p_bus, p_del=p_del, efficiency=eff, losses=losses,
-                      details={"q_diode_per_period": q_d, "energy_switch_node": e_sw / T})
+                      details={"q_diode_per_period": q_d, "energy_switch_node": e_sw / T,
+                               "p_junction_gross": cj_edges.gross},
+                      assumptions=(edge_words("diode junction capacitance c_j", cj_edges),) if circ.c_j > 0 else ())
 
 
 def _checks_part(design: Design, option: BootstrapOption, steady: _SteadyPart, need: float, v_cap_max: float,
@@ -1300,7 +1304,8 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
                         efficiency=power.efficiency, p_delivered=power.p_del, p_drawn=p_drawn, startup=start,
                         duty=duty, r_out=None, capacitors=caps, p_drawn_aux=power.p_aux, p_drawn_bus=power.p_bus,
                         losses=power.losses, checks=tuple(checks), details=details,
-                        assumptions=(hold_words,) if hold_words else (), t=steady.t_wave, v=steady.v_wave)
+                        assumptions=((hold_words,) if hold_words else ()) + power.assumptions,
+                        t=steady.t_wave, v=steady.v_wave)
 
 
 #: What ``DutyLimits.hold_up`` of a bootstrap counts down to (``hold_up_threshold`` gives the value;

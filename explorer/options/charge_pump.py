@@ -72,6 +72,7 @@ from dataclasses import dataclass
 import numpy as np
 from ..roots import brentq
 
+from .. import common_mode as cm
 from ..capacitors import capacitance, parse_dielectric
 from ..design import ChargePumpOption, Design
 from ..engines.elements import Cap, ISrc, Res, VSrc
@@ -753,6 +754,8 @@ class _PumpPower:
     p_in: float
     p_cross: float
     p_cross_worst: float
+    p_cross_gross: float
+    edges: object
     p_drawn_aux: float
     p_drawn: float
     d_high: float
@@ -781,11 +784,16 @@ def _power(design: Design, option: ChargePumpOption, pump: _Pump, sched, load: _
     n_switches = len(pump.circ.switches)
     p_gate = n_switches * option.q_g_sw * v_g * pump.f_cp
     d_high = float(sched.dt[sched.sw_high].sum() / t_a)
-    n_edges = int(np.count_nonzero(sched.sw_rise) + np.count_nonzero(sched.sw_fall))
     p_rail_domain = float(pump.durations[PHI2] * pump.f_cp)
     v_bus = design.bridge.v_bus
-    p_cross = 0.5 * option.c_par * v_bus ** 2 * (2.0 * pump.f_cp * d_high + n_edges / t_a * p_rail_domain)
-    p_cross_worst = option.c_par * v_bus ** 2 * pump.f_cp + 0.5 * option.c_par * v_bus ** 2 * n_edges / t_a
+    # the pump's own switches move c_par across the domains (hard, ½·C·V² each way while SW is high);
+    # the switch-node edges swing it while c_fly sits in the SW domain, by edge type (½·C·ΔV² per hard
+    # edge, none per edge the load current moves; common_mode.capacitive_edge_power)
+    edges = cm.capacitive_edge_power(option.c_par, sched)
+    p_clock = 0.5 * option.c_par * v_bus ** 2 * 2.0 * pump.f_cp * d_high
+    p_cross = p_clock + edges.dissipated * p_rail_domain
+    p_cross_gross = p_clock + edges.gross * p_rail_domain
+    p_cross_worst = option.c_par * v_bus ** 2 * pump.f_cp + edges.dissipated
     p_drawn_aux = p_in + p_bp + p_gate
     p_drawn = p_drawn_aux + p_cross
     losses = {"conduction_switches": p_sw, "conduction_esr": p_esr, "bottom_plate": p_bp,
@@ -793,7 +801,8 @@ def _power(design: Design, option: ChargePumpOption, pump: _Pump, sched, load: _
     collapsed = ss.v_mean <= 0.0
     efficiency = p_delivered / p_drawn if (p_drawn > 0 and not collapsed) else None
     return _PumpPower(p_delivered=p_delivered, p_load_engine=p_load_engine, p_in_direct=p_in_direct, p_in=p_in,
-                      p_cross=p_cross, p_cross_worst=p_cross_worst, p_drawn_aux=p_drawn_aux, p_drawn=p_drawn,
+                      p_cross=p_cross, p_cross_worst=p_cross_worst, p_cross_gross=p_cross_gross, edges=edges,
+                      p_drawn_aux=p_drawn_aux, p_drawn=p_drawn,
                       d_high=d_high, losses=losses, collapsed=collapsed, efficiency=efficiency)
 
 
@@ -915,7 +924,8 @@ def _details(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load,
         q_pulse=load.q_pulse, pulse_dip=-rail["y_min"], pulse_rise=rail["y_max"],
         v_pump_min=rail["v_pump_min"], v_pump_max=rail["v_pump_max"],
         v_block_switch=v_block,
-        domain_crossing_worst=power.p_cross_worst, sw_high_fraction=power.d_high,
+        domain_crossing_worst=power.p_cross_worst, domain_crossing_gross=power.p_cross_gross,
+        sw_high_fraction=power.d_high,
         f_sw_max=lim["f_sw_max"], q_g_max=lim["q_g_max"],
         switch_i_rms=tuple(float(v) for v in ss.i_sw_rms), switch_i_peak=tuple(float(v) for v in ss.i_peak_ss[:4]),
         startup_i_peak_switch=st["i_peak"],
@@ -977,7 +987,9 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         v_rail=RailStats(min=v_min, max=v_max, mean=ss.v_mean), efficiency=power.efficiency,
         p_delivered=power.p_delivered, p_drawn=power.p_drawn, startup=st["startup"], duty=duty, r_out=ss.r_out,
         capacitors=caps, p_drawn_aux=power.p_drawn_aux, p_drawn_bus=power.p_cross, losses=power.losses,
-        checks=tuple(checks), details=details, t=ss.t_w, v=ss.v_out_w)
+        checks=tuple(checks), details=details,
+        assumptions=(cm.edge_words("domain-crossing capacitance c_par (while c_fly is in the switch-node domain)",
+                                   power.edges),), t=ss.t_w, v=ss.v_out_w)
 
 
 def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Network | None = None) -> dict:

@@ -51,6 +51,9 @@ class BootstrapDetails(Details):
     v_min_model : float or None [V]
         The model's steady-state rail minimum when it falls below 0 V (the reported minimum then
         reads 0 V); None otherwise.
+    p_junction_gross : float or None [W]
+        Power the diode's junction capacitance would cost with every switch-node edge hard-switched
+        (½·C_j·ΔV² per edge; ``losses["junction"]`` charges the hard edges only). None: never refreshed.
     hold_up_uvlo_off : float or None [s]
         Hold-up at 100 % duty down to UVLO-off (where the driver stops), from the same start as
         ``duty.hold_up`` (which counts down to the required rail); None: indefinitely.
@@ -75,6 +78,7 @@ class BootstrapDetails(Details):
     q_diode_per_period: float | None = None
     energy_switch_node: float | None = None
     v_min_model: float | None = None
+    p_junction_gross: float | None = None
     hold_up_uvlo_off: float | None = None
     startup_v_sw_hold: float | None = None
     startup_sw_hold: str = ""
@@ -128,6 +132,8 @@ class ChargePumpDetails(Details):
         Voltage the domain-crossing switches block, V_bus + V_in.
     domain_crossing_worst : float [W]
         Domain-crossing power at the worst relative phase of the PWM and the pump clock.
+    domain_crossing_gross : float [W]
+        Domain-crossing power with every switch-node edge taken as hard-switched (½·C·ΔV² each).
     sw_high_fraction : float [-]
         Share of the analysis period the switch node is high.
     f_sw_max : float or None [Hz]
@@ -188,6 +194,7 @@ class ChargePumpDetails(Details):
     pump_cycles_per_turn_on: float | None
     pull_down_sag: float
     treatment_async: str
+    domain_crossing_gross: float | None = None
 
 
 @dataclass(frozen=True, kw_only=True)
@@ -215,7 +222,10 @@ class IsolatedDetails(Details):
     q_cm_edge : float [C]
         Common-mode charge per edge, C_iso · V_bus.
     p_cm : float [W]
-        Power the bus supplies to charge C_iso.
+        Power lost charging C_iso at the switch-node edges: ½·C_iso·ΔV² per hard-switched edge,
+        none per edge the load current moves (zero-voltage).
+    p_cm_gross : float [W]
+        The same with every edge hard: C_iso·V²·f for a plain swing.
     v_barrier : float [V]
         Peak voltage across the isolation barrier.
     cmti_ratio : float [-]
@@ -253,3 +263,4 @@ class IsolatedDetails(Details):
     gate_pulse_width: float
     corner: str
     insulation: str
+    p_cm_gross: float | None = None

@@ -28,10 +28,10 @@ voltage ``v_iso``. The model is:
   pull-down power over the analysis period (:mod:`explorer.loads`) at the
   mean rail voltage.
 * **Common mode** (:mod:`explorer.common_mode`): dv/dt = V_bus/t_edge, peak
-  current C_iso·dv/dt, charge C_iso·V_bus per edge, and the power the bus
-  supplies for it (C_iso·V_bus²·f_sw for a plain 0 → V_bus swing; from the
-  actual rising-edge steps of the schedule in general), counted in
-  ``p_drawn_bus``. The driver's CMTI must exceed ``cmti_margin``·dv/dt.
+  current C_iso·dv/dt, charge C_iso·V_bus per edge, and the power lost charging
+  it by edge type (½·C_iso·ΔV² per hard-switched edge, none per edge the load
+  current moves, :func:`~explorer.common_mode.capacitive_edge_power`), counted in
+  ``p_drawn_bus``; the gross C_iso·V²·f (every edge hard) is ``p_cm_gross``. The driver's CMTI must exceed ``cmti_margin``·dv/dt.
 * **Start-up** is independent of the PWM: after ``t_start`` the module's
   source ramps linearly to its output over ``t_ramp``; ``c_out`` follows it
   through ``r_out`` (first-order lag tau). Until the rail reaches the UVLO
@@ -520,6 +520,7 @@ class _IsolatedPower:
     p_drawn: float
     efficiency: float | None
     losses: dict
+    edges: cm.EdgePower | None = None
 
 
 def _power(design: Design, option: IsolatedOption, sched: Schedule, out: _OutputRail, path: str) -> _IsolatedPower:
@@ -532,7 +533,8 @@ def _power(design: Design, option: IsolatedOption, sched: Schedule, out: _Output
     dv_dt = float(cm.edge_dv_dt(b.v_bus, b.t_edge))
     i_cm = float(cm.cm_current(option.c_iso, dv_dt))
     q_cm = float(cm.edge_charge(option.c_iso, b.v_bus))
-    p_cm = float(cm.bus_power_per_edges(option.c_iso, b.v_bus, cm.rising_edge_swings(sched), sched.period))
+    edges = cm.capacitive_edge_power(option.c_iso, sched)     # ½·C·ΔV² per hard edge, ~0 per ZVS edge
+    p_cm = edges.dissipated
     p_drawn = p_in + p_cm
     efficiency = p_load / p_drawn if (p_drawn > 0 and not out.collapsed) else None
     losses = {"module_no_load": option.p_no_load, "module_load": k * p_load * p_load, "common_mode": p_cm}
@@ -541,7 +543,7 @@ def _power(design: Design, option: IsolatedOption, sched: Schedule, out: _Output
                       "the loss model P_0 + k\u00b7P\u00b2 is extrapolated beyond its fitting range",
                       ModelValidityWarning, stacklevel=3)
     return _IsolatedPower(p_load=p_load, k=k, p_in=p_in, eta_mod=eta_mod, dv_dt=dv_dt, i_cm=i_cm, q_cm=q_cm,
-                          p_cm=p_cm, p_drawn=p_drawn, efficiency=efficiency, losses=losses)
+                          p_cm=p_cm, p_drawn=p_drawn, efficiency=efficiency, losses=losses, edges=edges)
 
 
 def _startup(design: Design, option: IsolatedOption, out: _OutputRail, warn: list) -> tuple[Startup, float]:
@@ -623,7 +625,7 @@ def _details(design: Design, option: IsolatedOption, power: _IsolatedPower, out:
     return IsolatedDetails(
         loss_k=k, p_optimum=float(optimum_load(option.p_no_load, k)), eta_module=power.eta_mod,
         load_fraction=p_load / option.p_rated, p_in_module=p_in, v_in=v_in, i_in=p_in / v_in,
-        dv_dt=dv_dt, i_cm_peak=power.i_cm, q_cm_edge=power.q_cm, p_cm=power.p_cm, v_barrier=v_barrier,
+        dv_dt=dv_dt, i_cm_peak=power.i_cm, q_cm_edge=power.q_cm, p_cm=power.p_cm, p_cm_gross=power.edges.gross, v_barrier=v_barrier,
         cmti_ratio=float(cm.cmti_ratio(option.cmti, dv_dt)), tau_out=tau, v_pre_pwm=out.v_pre,
         i_gate_pulse=i_pulse, gate_pulse_width=design.bridge.t_edge, corner=corner,
         insulation=INSULATION_STATEMENT)
@@ -700,7 +702,8 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
         r_out=option.r_out, capacitors=(stress,), p_drawn_aux=power.p_in, p_drawn_bus=power.p_cm,
         losses=power.losses, checks=tuple(checks),
         details=_details(design, option, power, out, v_barrier, tau, i_pulse, corner),
-        cautions=(INSULATION_STATEMENT,), t=out.t_wave, v=out.v_wave)
+        cautions=(INSULATION_STATEMENT,), assumptions=(cm.edge_words("isolation capacitance c_iso", power.edges),),
+        t=out.t_wave, v=out.v_wave)
 
 
 #: Samples per block in :func:`rail_min_batch`.
