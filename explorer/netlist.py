@@ -388,18 +388,22 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
 
 
 def pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> list[str]:
-    """SPICE lines of a charge pump (its model's netlist writer)."""
-    from .options.charge_pump import CIRCUITS, pump_durations
-    from .engines.spice_text import spice_t0
+    """SPICE lines of a charge pump (its model's netlist writer), written from the model's own network.
+
+    The network is :func:`explorer.options.charge_pump.pump_network` with the effective capacitances
+    of the result, its lines :func:`explorer.engines.spice_text.network_lines`: the pump's nodes are
+    the rail's (its output ``out`` is ``vb``, its reference the switch node ``vs``), its load is left
+    out (the gate side of this netlist loads the rail), and a 1:1 pump's input side (the input source
+    and the switches of the charging phase) is referred to ground. Resistances below R_MIN are
+    raised to it; the switches are open with R_OFF.
+    """
+    from .engines.spice_text import network_lines
+    from .options.charge_pump import CIRCUITS, pump_durations, pump_network
     circ = CIRCUITS[option.ratio]
     r = plan.result
     v_in = option.v_in if option.v_in is not None else design.aux.v_dd
     d = pump_durations(option.f_cp, option.dead_time_cp)
-    t_cp = float(d.sum())
-    t0 = plan.t_pump0
-    tr = spice_t0(d)  # control edges: 1e-2 of the shortest phase, as explorer.engines.spice_text.to_spice
     domain_crossing = circ.ratio == "1:1"
-    ref_in = "0" if domain_crossing else "vs"
     lines = [f"* --- charge pump {circ.ratio} clocked at {_n(option.f_cp)} Hz "
              f"(phases: charge, dead, transfer, dead)"]
     if domain_crossing:
@@ -408,27 +412,22 @@ def pump_lines(design: Design, option: ChargePumpOption, plan: NetlistPlan) -> l
     else:
         lines.append("* the input rail is referred to the switch node, as the model assumes "
                      "(explorer.options.charge_pump)")
-    lines.append(f"VIN in {ref_in} DC {_n(v_in)}")
-    starts = (0.0, float(d[:2].sum()))
-    for p, st in zip((1, 2), starts):
-        lines.append(f"VPH{p} ph{p} 0 PULSE(0 1 {_n(t0 + st - tr / 2)} {_n(tr)} {_n(tr)} "
-                     f"{_n(float(d[2 * (p - 1)]) - tr)} {_n(t_cp)})")
-    lines.append(f".model SWCP SW(VT=0.5 VH=0 RON={_n(max(option.r_on, R_MIN))} ROFF={_n(R_OFF)})")
-    node = {"in": "in", "t": "t", "b": "fb", "out": "vb"}
-    for name, a, b_, phase in circ.switches:
-        p = 1 if phase == 0 else 2
-        gnd = "0" if (domain_crossing and p == 1) else "vs"
-        na, nb = (node.get(x, gnd) for x in (a, b_))
-        lines.append(f"S{name.upper()} {na} {nb} ph{p} 0 SWCP")
     c_fly = float(r.details.c_fly_eff)
     c_out = float(r.details.c_out_eff)
     lines += [f"* C_fly: {_n(option.c_fly.c)} F nominal, {_n(c_fly)} F effective",
-              f"CFLY t cf {_n(c_fly)} IC=0",
-              f"RFLY cf fb {_n(max(option.c_fly.esr, R_MIN))}",
-              f"* C_out: {_n(option.c_out.c)} F nominal, {_n(c_out)} F effective",
-              f"COUT vb co {_n(c_out)} IC=0",
-              f"RCOUT co vs {_n(max(option.c_out.esr, R_MIN))}"]
-    return lines
+              f"* C_out: {_n(option.c_out.c)} F nominal, {_n(c_out)} F effective"]
+    net = pump_network(circ.ratio, c_fly=c_fly, r_on=max(option.r_on, R_MIN),
+                       esr_fly=max(option.c_fly.esr, R_MIN), output="load", c_out=c_out,
+                       esr_out=max(option.c_out.esr, R_MIN))
+    rename = {"b": "fb", "out": "vb"}
+
+    def node(element, name: str, phase) -> str:
+        if name != "0":
+            return rename.get(name, name)
+        grounded = domain_crossing and (element.name == "v_in" or phase == 0)
+        return "0" if grounded else "vs"
+
+    return lines + network_lines(net, d, [v_in, 0.0], t0=plan.t_pump0, node=node, skip=("i_load",), r_off=R_OFF)
 
 
 def isolated_lines(design: Design, option: IsolatedOption, plan: NetlistPlan) -> list[str]:

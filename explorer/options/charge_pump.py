@@ -1123,7 +1123,7 @@ class ChargePumpModel(SupplyModel):
     option_class = ChargePumpOption
     capacitor_fields = ("c_fly", "c_out")
     sized_capacitor = "c_fly.c"
-    netlist_probes = {"cap": "v(vb)-v(co)", "fly": "v(t)-v(cf)"}
+    netlist_probes = {"cap": "v(vb)-v(c_out_esr)", "fly": "v(t)-v(c_fly_esr)"}
     netlist_notes = ("* (the model's pump rail extremes are a bound over every relative phase of the PWM and "
                      "the pump clock; this circuit runs one phase)",)
 
