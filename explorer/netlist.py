@@ -546,9 +546,13 @@ def export_netlist(design: Design, label: str, *, n_cycles: int | None = None, c
         head.append("* Note: this span ends before the start-up does (soft-start or UVLO-on), so its last "
                     "periods are not yet the steady state.")
     if r.v_rail is not None:
+        t_su = r.startup.t_uvlo if r.startup is not None else None
+        when = f"time to UVLO-on {_fmt_opt(t_su, 's')}"
+        if plan.t_pump0 > 0.0 and t_su is not None:  # the same figure, counted from the pump clock's start
+            when += (f" from the start of the pump clock, which this netlist starts at t = {_n(plan.t_pump0)} s "
+                     f"(so at t = {_fmt_opt(plan.t_uvlo_model, 's')} on its time axis)")
         head.append(f"* Model figures for comparison: rail min {_fmt_opt(r.v_rail.min, 'V')}, max "
-                    f"{_fmt_opt(r.v_rail.max, 'V')}, mean {_fmt_opt(r.v_rail.mean, 'V')}; time to UVLO-on "
-                    f"{_fmt_opt(plan.t_uvlo_model, 's')}.")
+                    f"{_fmt_opt(r.v_rail.max, 'V')}, mean {_fmt_opt(r.v_rail.mean, 'V')}; {when}.")
     model = _model(option)
     head += model.netlist_notes
     lines = head
