@@ -65,6 +65,18 @@ def renumber_ids(text: str) -> str:
     return text
 
 
+def _join_streams(outputs: list) -> list:
+    """Consecutive stream outputs of the same stream as one (the text is the same)."""
+    out: list = []
+    for o in outputs:
+        if (o.get("output_type") == "stream" and out and out[-1].get("output_type") == "stream"
+                and out[-1].get("name") == o.get("name")):
+            out[-1]["text"] = "".join(out[-1]["text"]) + "".join(o["text"])
+        else:
+            out.append(o)
+    return out
+
+
 def build(name: str) -> pathlib.Path:
     """Execute ``src/<name>.py`` and write ``<name>.ipynb`` with its outputs."""
     cells = parse_source((SOURCES / f"{name}.py").read_text(encoding="utf-8"))
@@ -76,8 +88,12 @@ def build(name: str) -> pathlib.Path:
         nb, {"metadata": {"path": str(HERE)}})
     for i, c in enumerate(nb.cells):  # stable ids keep diffs small
         c["id"] = f"cell-{i:02d}"
+        if c.get("outputs"):  # how print output is cut into chunks depends on timing: join them
+            c["outputs"] = _join_streams(c["outputs"])
     nbformat.validate(nb)
-    text = renumber_ids(json.dumps(nb, indent=1, sort_keys=True, ensure_ascii=False) + "\n")
+    # renumber in the order the kernel made the ids (stored widget state is keyed by them), then sort
+    numbered = json.loads(renumber_ids(json.dumps(nb, ensure_ascii=False)))
+    text = json.dumps(numbered, indent=1, sort_keys=True, ensure_ascii=False) + "\n"
     path = HERE / f"{name}.ipynb"
     size = len(text.encode("utf-8"))
     if size > MAX_BYTES:

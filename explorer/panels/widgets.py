@@ -31,7 +31,7 @@ from .form import SECTIONS, SLIDER_FIELDS, TOPOLOGY_FIELDS, DesignForm, Field, o
 from .guard import guarded, one_line, raising
 from .runner import Evaluator
 
-__all__ = ["ELV_DC_LIMIT", "DesignPanel", "OptionEditor", "ComparisonPanel", "Explorer", "explore",
+__all__ = ["ELV_DC_LIMIT", "PLOT_POINTS", "option_colors", "plots_module", "DesignPanel", "OptionEditor", "ComparisonPanel", "Explorer", "explore",
            "cautions_for", "summary_html"]
 
 #: Bus voltage above which the panels show the high-voltage caution [V]. 60 V DC is a commonly used
@@ -726,8 +726,7 @@ class Explorer(W.VBox):
         self._show_cautions(result.design, result)
         if self.error is None:
             warn = f"; {len(caught)} model warning{'s' if len(caught) > 1 else ''} (see the table)" if caught else ""
-            self._status(f"<span style='color:{_OK}'>\u2714 up to date</span> (evaluated in "
-                         f"{format_eng(seconds, 's')}){warn}")
+            self._status(f"<span style='color:{_OK}'>\u2714 up to date</span>{warn}")
 
     # ------------------------------------------------------------------ tools
     @guarded(_show_status)

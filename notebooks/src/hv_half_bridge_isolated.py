@@ -79,6 +79,17 @@ figures["loss"]
 figures["stress"]
 
 # %% [markdown]
+# ## Explore it interactively
+#
+# The same design in explorer's panels: change a field (numbers as engineers type them: `2.2u`, `200k`, `12V`; the unit, meaning and allowed range of each field show when the pointer rests on it), switch the topology, add, duplicate, relabel or remove an option, and the side-by-side table and the plots follow. The panels need a running kernel: run the notebook in JupyterLab and they come alive; a stored copy shows them as they were saved. A rejected entry is marked at its field with the reason, and the numbers on screen stay those of the last valid entry. *save design* writes the design file; *static summary* writes the table, the plots and the design into the output, readable without a kernel.
+
+# %%
+from explorer.panels import explore
+
+panel = explore(design, plots=("loss", "stress"))
+panel
+
+# %% [markdown]
 # ## Where the power goes
 #
 # Each option's overhead (power drawn minus power delivered to the gate load) split by mechanism:

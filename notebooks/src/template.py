@@ -100,6 +100,17 @@ figures["stress"]
 figures["loss"]
 
 # %% [markdown]
+# ## Explore it interactively
+#
+# The same design in explorer's panels: change a field (numbers as engineers type them: `2.2u`, `200k`, `12V`; the unit, meaning and allowed range of each field show when the pointer rests on it), switch the topology, add, duplicate, relabel or remove an option, and the side-by-side table and the plots follow. The panels need a running kernel: run the notebook in JupyterLab and they come alive; a stored copy shows them as they were saved. A rejected entry is marked at its field with the reason, and the numbers on screen stay those of the last valid entry. *save design* writes the design file; *static summary* writes the table, the plots and the design into the output, readable without a kernel. Start from here when you replace the design above with your own.
+
+# %%
+from explorer.panels import explore
+
+panel = explore(design)
+panel
+
+# %% [markdown]
 # ## 3. The whole envelope: worst corner and Monte Carlo
 
 # %%
