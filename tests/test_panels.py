@@ -239,6 +239,21 @@ def test_catalogue_case_typed_into_its_field(shared, name, path, typed):
     assert ex.error is None and ex.result is before  # back to the valid design: nothing re-evaluated
 
 
+@pytest.mark.parametrize("typed", ["nan", "inf", "-inf", "Infinity"])
+def test_non_finite_text_is_refused_as_non_numeric(shared, typed):
+    """docs/bad-input.md rows NaN/infinity (number): a float cannot be typed; the text is refused."""
+    ex = shared
+    before = ex.result
+    ex.control("aux.v_dd").value = typed
+    ex.wait()
+    assert str(ex.error) == (f"aux.v_dd: expected a number such as 2.2e-6 or '2.2u' (suffixes f p n u/\u00b5 m k M G T) "
+                             f"(got {typed!r})")
+    assert ex.result is before
+    ex.control("aux.v_dd").value = "12 V"
+    ex.wait()
+    assert ex.error is None
+
+
 @pytest.mark.parametrize("case", [c for c in CASES if file_text(c[1]) is not None], ids=lambda c: c[0])
 def test_catalogue_case_loaded_from_a_file(shared, case, tmp_path):
     """docs/bad-input.md, panel column "load": the status line shows the exact text load_design
