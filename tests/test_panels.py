@@ -16,6 +16,7 @@ import threading
 import time
 import warnings
 
+import numpy as np
 import pytest
 
 import explorer
@@ -390,3 +391,34 @@ def test_panels_usable_alone():
     assert seen[-1] == "options" and len(f.options) == 4
     cp = panels.ComparisonPanel(evaluate(f.build()))
     assert cp.comparison.design == f.build() and "<table" in cp.table.value
+
+
+def test_margin_map_and_monte_carlo_on_request(ex):
+    from explorer.sweep import margin_map
+    from explorer.tolerance import monte_carlo
+    a = ex.analysis
+    a.option.value = "bootstrap 220n"
+    a.map_button.click()
+    a.wait()
+    d = ex.design
+    f = d.bridge.f_sw * np.geomspace(0.1, 10.0, a.MAP_POINTS)
+    u = np.linspace(0.05, 0.98, a.MAP_POINTS)
+    direct = margin_map(d, "bootstrap 220n", f, u)
+    np.testing.assert_array_equal(a.result.margin, direct.margin)
+    mod = widgets.plots_module()
+    if mod is not None:
+        fresh = mod.margin_map_plot(direct, d)
+        for key, src in fresh.sources.items():
+            assert json.dumps(dict(a.plot.sources[key].data), default=repr, sort_keys=True) == \
+                json.dumps(dict(src.data), default=repr, sort_keys=True), key
+    a.option.value = "pump 1:1"
+    a.mc_button.click()
+    a.wait()
+    with warnings.catch_warnings(record=True):
+        warnings.simplefilter("always")
+        mc = monte_carlo(d, "pump 1:1", a.MC_SAMPLES, seed=1)
+    np.testing.assert_array_equal(a.result.rail_min, mc.rail_min)
+    assert a.progress.bar.value == a.MC_SAMPLES and "P(trip)" in a.message.value
+    ex.option_editor.card_buttons(1)["remove"].click()  # the chooser follows the options
+    ex.wait()
+    assert "pump 1:1" not in a.option.options

@@ -15,12 +15,17 @@ traceback ever reaches a panel (:mod:`explorer.panels.guard`).
 
 from __future__ import annotations
 
+import asyncio
+import functools
 import html
 import json
 import math
 import os
+import threading
+import warnings
 
 import ipywidgets as W
+import numpy as np
 
 from ..design import Design, load_design, save_design, specs
 from ..errors import DesignError
@@ -29,9 +34,10 @@ from ..units import format_eng, format_exact, parse_eng
 from ..views.table import CAUTION, side_by_side_html
 from .form import SECTIONS, SLIDER_FIELDS, TOPOLOGY_FIELDS, DesignForm, Field, option_fields, section_fields
 from .guard import guarded, one_line, raising
+from .progress import ProgressBar
 from .runner import Evaluator
 
-__all__ = ["ELV_DC_LIMIT", "PLOT_POINTS", "option_colors", "plots_module", "DesignPanel", "OptionEditor", "ComparisonPanel", "Explorer", "explore",
+__all__ = ["ELV_DC_LIMIT", "PLOT_POINTS", "AnalysisPanel", "option_colors", "plots_module", "DesignPanel", "OptionEditor", "ComparisonPanel", "Explorer", "explore",
            "cautions_for", "summary_html"]
 
 #: Bus voltage above which the panels show the high-voltage caution [V]. 60 V DC is a commonly used
@@ -536,6 +542,117 @@ class ComparisonPanel(W.VBox):
         return {name: {k: dict(s.data) for k, s in p.sources.items()} for name, p in self.plots.items()}
 
 
+# --------------------------------------------------------------------------- analyses on request
+
+class AnalysisPanel(W.VBox):
+    """A margin map or a Monte Carlo of one option, on request, computed off the widget callback.
+
+    ``design`` is a callable giving the design to analyse (the explorer's last valid one). The margin
+    map spans a decade each side of the design's f_sw (:data:`MAP_POINTS` × :data:`MAP_POINTS`, HS share
+    0.05 to 0.98); the Monte Carlo draws :data:`MC_SAMPLES` samples over the design's spreads (seed 1).
+    """
+
+    MAP_POINTS = 15
+    MC_SAMPLES = 2000
+
+    def __init__(self, design):
+        self._design = design
+        labels = [o.label for o in design().options]
+        self.option = W.Dropdown(options=labels, value=labels[0], description="option",
+                                 layout=_lay(width="260px"), style={"description_width": "55px"})
+        self.map_button = _button("margin map", "th", "rail margin over f_sw and HS duty for this option")
+        self.mc_button = _button("Monte Carlo", "random", f"{self.MC_SAMPLES} samples of the rail minimum over "
+                                 "the design's spreads")
+        self.progress = ProgressBar("samples")
+        self.progress.layout.display = "none"
+        self.message = _html()
+        self.area = _vbox()
+        self.plot = None
+        self._thread = None
+        self._error = None
+        self.map_button.on_click(lambda _: self._start(self._margin_map))
+        self.mc_button.on_click(lambda _: self._start(self._monte_carlo))
+        super().__init__([_html("<b>On request</b>"), _hbox([self.option, self.map_button, self.mc_button]),
+                          self.progress, self.message, self.area])
+
+    def refresh_labels(self, design) -> None:
+        labels = [o.label for o in design.options]
+        if list(self.option.options) != labels:
+            keep = self.option.value if self.option.value in labels else labels[0]
+            self.option.options = labels
+            self.option.value = keep
+
+    def _start(self, job) -> None:
+        if self._thread is not None and self._thread.is_alive():
+            self.message.value = "still computing the previous request\u2026"
+            return
+        design, label = self._design(), self.option.value
+        self.message.value = f"\u23f3 computing for {_e(label)}\u2026"
+        try:
+            loop = asyncio.get_running_loop()
+        except RuntimeError:
+            loop = None
+
+        def run():
+            try:
+                with warnings.catch_warnings(record=True):
+                    warnings.simplefilter("always")
+                    make = job(design, label)
+                deliver = make
+            except DesignError as err:
+                deliver = functools.partial(self._say, f"\u26a0 {_e(err)}")
+            except Exception as exc:  # the panel boundary
+                if raising():
+                    self._error = exc
+                    return
+                deliver = functools.partial(self._say, _e(one_line(exc)))
+            if loop is not None and loop.is_running():
+                loop.call_soon_threadsafe(deliver)
+            else:
+                deliver()
+        self._thread = threading.Thread(target=run, name="explorer-panel-analysis", daemon=True)
+        self._thread.start()
+
+    def _say(self, text: str) -> None:
+        self.message.value = text
+
+    def _margin_map(self, design, label):
+        from ..sweep import margin_map
+        f = design.bridge.f_sw * np.geomspace(0.1, 10.0, self.MAP_POINTS)
+        f = f[f <= specs(type(design.bridge))["f_sw"].hi]
+        u = np.linspace(0.05, 0.98, self.MAP_POINTS)
+        result = margin_map(design, label, f, u)
+        return functools.partial(self._show, "margin_map_plot", result, design,
+                                 f"margin map of {label}: {len(f)} \u00d7 {len(u)} points")
+
+    def _monte_carlo(self, design, label):
+        from ..tolerance import monte_carlo
+        self.progress.layout.display = ""
+        result = monte_carlo(design, label, self.MC_SAMPLES, seed=1, progress=self.progress)
+        return functools.partial(self._show, "monte_carlo_plot", result, design,
+                                 f"Monte Carlo of {label}: P(trip) {result.p_trip:.3g}, 95 % interval "
+                                 f"{result.ci[0]:.3g} \u2026 {result.ci[1]:.3g}")
+
+    def _show(self, kind: str, result, design, words: str) -> None:
+        mod = plots_module()
+        self.result = result
+        self.message.value = _e(words)
+        if mod is None:
+            return
+        from jupyter_bokeh import BokehModel
+        self.plot = getattr(mod, kind)(result, design)
+        self.area.children = [BokehModel(self.plot.figure)]
+
+    def wait(self, timeout: float = 120.0) -> "AnalysisPanel":
+        """Block until the running request is done (tests, scripts); re-raise its error with RAISE_ERRORS."""
+        if self._thread is not None:
+            self._thread.join(timeout)
+        if self._error is not None:
+            err, self._error = self._error, None
+            raise err
+        return self
+
+
 # --------------------------------------------------------------------------- summary
 
 def summary_html(comparison, *, plots: bool = True) -> str:
@@ -611,6 +728,7 @@ class Explorer(W.VBox):
         self.design_panel = DesignPanel(self.form, self._changed)
         self.option_editor = OptionEditor(self.form, self._changed)
         self.comparison = ComparisonPanel(plots=plots)
+        self.analysis = AnalysisPanel(lambda: self.form.last_valid)
         self.path = W.Text(value="design.json", description="file", tooltip="design file to load or save",
                            layout=W.Layout(width="320px"), style={"description_width": "40px"})
         self.load_button = _button("load", "folder-open", "load the design file")
@@ -623,7 +741,7 @@ class Explorer(W.VBox):
         self.output = W.Output()
         self.title = _html()
         tools = _hbox([self.path, self.load_button, self.save_button, self.summary_button])
-        right = W.VBox([self.option_editor, self.comparison],
+        right = W.VBox([self.option_editor, self.comparison, self.analysis],
                        layout=W.Layout(flex="1 1 auto", min_width="500px", overflow="auto"))
         super().__init__([self.css, self.title, self.caution, self.status,
                           _hbox([self.design_panel, right]), tools, self.output])
@@ -723,6 +841,7 @@ class Explorer(W.VBox):
             return
         self.warnings = caught
         self.comparison.show(result)
+        self.analysis.refresh_labels(result.design)
         self._show_cautions(result.design, result)
         if self.error is None:
             warn = f"; {len(caught)} model warning{'s' if len(caught) > 1 else ''} (see the table)" if caught else ""
