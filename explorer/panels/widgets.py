@@ -48,7 +48,7 @@ ELV_DC_LIMIT = 60.0
 
 #: Most points per waveform a panel's plot carries (peaks and dips kept, see ``plots.thin``): keeps the
 #: updates quick and a stored notebook small.
-PLOT_POINTS = 1000
+PLOT_POINTS = 500
 
 #: Option kinds the editor offers, with the words on the add button's chooser.
 KIND_WORDS = {"bootstrap": "bootstrap", "charge_pump": "charge pump", "isolated": "isolated module"}
