@@ -13,12 +13,22 @@ import numpy as np
 from .design import Design
 from .schedule import Schedule
 
-__all__ = ["charge_per_turn_on", "load_charge", "load_power", "required_rail"]
+__all__ = ["charge_per_turn_on", "charge_per_turn_off", "load_charge", "load_power", "required_rail"]
 
 
 def charge_per_turn_on(design: Design) -> float:
     """Charge taken from the rail at each HS turn-on: Q_G + Q_LS [C]."""
     return design.gate.q_g + design.driver.q_ls
+
+
+def charge_per_turn_off(design: Design) -> float:
+    """Charge taken from the rail at each HS turn-off: Q_LS [C].
+
+    A pulsed level shifter sends a set pulse at the turn-on command and a reset pulse at the
+    turn-off command; each draws its charge from the floating rail (through the floating side's
+    latch load), so Q_LS is taken per transition, twice per switching period.
+    """
+    return design.driver.q_ls
 
 
 def required_rail(design: Design) -> float:
@@ -29,10 +39,11 @@ def required_rail(design: Design) -> float:
 def load_charge(design: Design, schedule: Schedule, v_rail) -> float:
     """Charge the load draws from the rail over the schedule at a constant rail voltage [C].
 
-    Q = n_on·(Q_G + Q_LS) + I_Q·T + (V/R_GS)·t_on, with n_on the HS turn-ons
-    and t_on the total HS on-time.
+    Q = n_on·(Q_G + Q_LS) + n_off·Q_LS + I_Q·T + (V/R_GS)·t_on, with n_on and n_off the HS
+    turn-ons and turn-offs and t_on the total HS on-time.
     """
     q = np.count_nonzero(schedule.hs_turn_on) * charge_per_turn_on(design)
+    q = q + np.count_nonzero(schedule.hs_turn_off) * charge_per_turn_off(design)
     q = q + design.driver.i_q * schedule.period
     if design.gate.r_gs is not None:
         q = q + np.asarray(v_rail) / design.gate.r_gs * float(schedule.dt[schedule.hs_on].sum())

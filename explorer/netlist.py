@@ -22,7 +22,7 @@ to UVLO-on) and leave ``vs`` where the topology holds it (the schedule's
 the dead-time level), as in the model.
 
 *The gate load* between the rail ``vb`` and ``vs``: a current pulse carrying
-Q_G + Q_LS over ``t_edge`` at each delivered HS turn-on, the driver's
+Q_G + Q_LS over ``t_edge`` at each delivered HS turn-on and Q_LS at each turn-off, the driver's
 quiescent current I_Q as a DC source, and R_GS switched in while the HS is on
 (a voltage-controlled switch driven by the 0/1 node ``hs``).
 
@@ -69,7 +69,7 @@ import numpy as np
 from .design import BootstrapOption, ChargePumpOption, Design, IsolatedOption, JunctionDiode
 from .engines.rail_loop import thermal_voltage
 from .errors import DesignError
-from .loads import charge_per_turn_on
+from .loads import charge_per_turn_off, charge_per_turn_on
 from .schedule import Schedule, period_schedule, startup_schedule
 from .spice import spice_number as _n
 from .topology import topology_of
@@ -323,6 +323,11 @@ def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
     if on.size and q > 0:
         lines.append("* gate charge Q_G + Q_LS drawn over the SW edge at each delivered HS turn-on")
         lines += _charge_pulses("IG", "vb", "vs", s, on, q, edge, plan.t_stop)
+    off = np.flatnonzero(~plan.delivered & prev & live)
+    q_off = charge_per_turn_off(design)
+    if off.size and q_off > 0:
+        lines.append("* level-shift charge Q_LS drawn over the SW edge at each HS turn-off (reset pulse)")
+        lines += _charge_pulses("ILS", "vb", "vs", s, off, q_off, edge, plan.t_stop)
     lines.append(f"IQ vb vs DC {_n(design.driver.i_q)}")
     if design.gate.r_gs is not None:
         lines += ["* gate pull-down R_GS, connected while the HS is on",
@@ -359,7 +364,8 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
         # the sharp junction adds n·V_T·ln(1 + i/IS) to the drop; V_F is reduced by that at the
         # average diode current, so the drop matches v_f + r_d·i to about 1 mV over the conduction range
         s_avg = period_schedule(design)
-        i_avg = design.driver.i_q + charge_per_turn_on(design) * np.count_nonzero(s_avg.hs_turn_on) / s_avg.period
+        i_avg = design.driver.i_q + (charge_per_turn_on(design) * np.count_nonzero(s_avg.hs_turn_on)
+                                     + charge_per_turn_off(design) * np.count_nonzero(s_avg.hs_turn_off)) / s_avg.period
         v_j = SHARP_N * thermal_voltage(design.checks.t_amb) * math.log1p(i_avg / SHARP_IS)
         lines += ["* straight-line diode (v_f + r_d*i): a sharp ideal junction in series with a source and r_d;",
                   f"* the source is V_F less the junction's own drop at the average diode current ({_n(v_j)} V);"

@@ -121,6 +121,15 @@ class Schedule:
     v_rest: float = 0.0
     edge_hard: np.ndarray | None = None
 
+    @property
+    def hs_turn_off(self) -> np.ndarray:
+        """The HS turns off at the start of the interval (it was on in the interval before)."""
+        if self.periodic:
+            prev = np.roll(self.hs_on, 1)
+        else:
+            prev = np.concatenate(([False], self.hs_on[:-1]))
+        return prev & ~self.hs_on
+
     def sw_levels(self, delivered) -> np.ndarray:
         """Switch-node level per interval with the HS pulses not in ``delivered`` withheld [V]."""
         if self.v_hold is None:

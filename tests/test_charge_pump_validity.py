@@ -238,8 +238,8 @@ def _pulse_scenario(f_cp):
 def _ngspice_rail_min(d, phase):
     """Lowest rail over the last two pulse periods of an ngspice transient of the pump with the gate-charge
     pulse train: the model's own netlist (explorer.engines.spice_text.to_spice, from its parameters) plus a current pulse of
-    charge Q_G + Q_LS (10 ns) at each HS turn-on, ``phase`` [s] after the start of a pump cycle; started from the
-    model's periodic state under the average load and run for 12 time constants R_out·C_out."""
+    charge Q_G + Q_LS (10 ns) at each HS turn-on, ``phase`` [s] after the start of a pump cycle, and Q_LS at each
+    turn-off; started from the model's periodic state under the average load and run for 12 time constants R_out·C_out."""
     from explorer.loads import charge_per_turn_on
     from explorer.options.charge_pump import resolve_pump, pump_network
     from explorer.engines.periodic import periodic_steady_state
@@ -254,12 +254,20 @@ def _ngspice_rail_min(d, phase):
     net = pump_network(o.ratio, c_fly=p.c_fly, r_on=p.r_on, esr_fly=p.esr_fly, output="load", c_out=p.c_out,
                        esr_out=p.esr_out)
     T, t_p, q = float(p.durations.sum()), 1.0 / d.bridge.f_sw, charge_per_turn_on(d)
-    x0 = periodic_steady_state(net, p.durations, [p.v_in, d.driver.i_q + q / t_p]).x0
+    x0 = periodic_steady_state(net, p.durations, [p.v_in, d.driver.i_q + (q + d.driver.q_ls) / t_p]).x0
     cycles = int(math.ceil(12.0 * r.r_out * p.c_out / T)) + 4
     lines = to_spice(net, p.durations, [p.v_in, d.driver.i_q], cycles=cycles, x0=x0).splitlines()
     t0, tr, pw = spice_t0(p.durations), 1e-9, 9e-9  # trapezoid of charge amp·(pw + tr) = q
     lines.insert(len(lines) - 1, f"Igate out 0 PULSE(0 {spice_number(q / (pw + tr))} {spice_number(t0 + phase)} "
                                  f"{spice_number(tr)} {spice_number(tr)} {spice_number(pw)} {spice_number(t_p)})")
+    # the level shifter's reset pulse, Q_LS, at each HS turn-off (the HS on-time after the turn-on)
+    from explorer.schedule import period_schedule
+    s = period_schedule(d)
+    t_hs, q_ls = float(s.dt[s.hs_on].sum()), d.driver.q_ls
+    if q_ls > 0:
+        lines.insert(len(lines) - 1, f"Ireset out 0 PULSE(0 {spice_number(q_ls / (pw + tr))} "
+                                     f"{spice_number(t0 + phase + t_hs)} {spice_number(tr)} {spice_number(tr)} "
+                                     f"{spice_number(pw)} {spice_number(t_p)})")
     res = run_transient("\n".join(lines) + "\n", ["v(out)"])
     keep = res["time"] > t0 + cycles * T - 2.0 * max(T, t_p)
     return float(res["v(out)"][keep].min()), r

@@ -4,7 +4,7 @@ While the switch node (SW) is low the capacitor charges through the resistor
 and the diode toward ``V_DD − V_F − v_sw``; the diode cuts off when the
 capacitor reaches that level (handled exactly, also after a negative SW
 undershoot has lifted the rail above it). While SW is high the capacitor
-feeds the high-side driver: Q_G + Q_LS at each HS turn-on, the driver's
+feeds the high-side driver: Q_G + Q_LS at each HS turn-on and Q_LS at each turn-off, the driver's
 quiescent current and the diode's reverse leakage continuously, V/R_GS while
 the HS is on, the diode's recovery charge at each SW rising edge and the
 junction-capacitance charge C_j·Δv_sw at every SW level change (it returns at
@@ -60,7 +60,7 @@ from ..engines.rail_linear import off_time_to
 from ..engines.rail_loop import Loop, thermal_voltage
 from ..engines.rail_orbit import OrbitSolution, propagate, solve_orbit, steady_rail
 from ..errors import DesignError, ModelValidityWarning
-from ..loads import charge_per_turn_on, required_rail
+from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, hs_duty_per_period, is_standstill, nominal_duty,
@@ -100,6 +100,7 @@ class BootstrapCircuit:
     i_leak : float [A]   diode reverse leakage while SW is high
     g_gs : float [S]     1/R_GS while the HS is on (0 without a pull-down)
     q_on : float [C]     Q_G + Q_LS at each HS turn-on
+    q_off : float [C]    Q_LS at each HS turn-off (the level shifter's reset pulse)
     q_rr : float [C]     recovery charge at each SW rising edge
     c_j : float [F]      diode junction capacitance
     v_bus : float [V]
@@ -124,6 +125,7 @@ class BootstrapCircuit:
     v_bus: float
     v_sw_low: float
     v_bias: float
+    q_off: float = 0.0
 
     def drop(self, i):
         """Diode forward voltage at current ``i`` [V] (straight line or junction)."""
@@ -169,7 +171,8 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
     g_gs = 0.0 if design.gate.r_gs is None else 1.0 / design.gate.r_gs
     return BootstrapCircuit(c=float(c_eff), r_ext=r_ext, r_tot=r_tot, diode=kind, v_f=v_f, i_s=i_s,
                             n_vt=n_vt, v_dd=v_dd, i_q=design.driver.i_q, i_leak=option.i_leak, g_gs=g_gs,
-                            q_on=charge_per_turn_on(design), q_rr=option.q_rr, c_j=option.c_j,
+                            q_on=charge_per_turn_on(design), q_off=charge_per_turn_off(design),
+                            q_rr=option.q_rr, c_j=option.c_j,
                             v_bus=b.v_bus, v_sw_low=b.v_sw_low, v_bias=v_bias)
 
 
@@ -244,7 +247,8 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     high = lev > 0.5 * circ.v_bus
     rise = live & high & (prev_l <= 0.5 * circ.v_bus)
     turn_on = live & hs_on & ~prev_h
-    q = (circ.q_on * turn_on + circ.q_rr * rise + circ.c_j * (lev - prev_l))
+    turn_off = live & ~hs_on & prev_h
+    q = (circ.q_on * turn_on + circ.q_off * turn_off + circ.q_rr * rise + circ.c_j * (lev - prev_l))
     i_load = circ.i_q + circ.i_leak * high
     g_load = circ.g_gs * hs_on
     return Loop(dt=dt, v_src=circ.v_dd - v_sw, c=circ.c, r=circ.r_tot, i_load=i_load, g_load=g_load,
@@ -831,7 +835,7 @@ def _worst_period(design, circ, t_hs_max):
     loop = Loop(dt=dt, v_src=circ.v_dd - np.array([b.v_bus, b.v_bus, circ.v_sw_low, b.v_bus]), c=circ.c,
                 r=circ.r_tot, i_load=circ.i_q + np.array([hi_leak, hi_leak, ls_leak, hi_leak]),
                 g_load=np.array([circ.g_gs, 0.0, 0.0, 0.0]),
-                q_step=np.array([circ.q_on + q_edge, 0.0, 0.0, q_edge]), v_f=circ.v_f, i_s=circ.i_s,
+                q_step=np.array([circ.q_on + q_edge, circ.q_off, 0.0, q_edge]), v_f=circ.v_f, i_s=circ.i_s,
                 n_vt=circ.n_vt, diode=circ.diode)
     return _bc(loop)
 
@@ -1215,7 +1219,8 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     e_cj = cj_edges.dissipated * T
     e_lk = circ.i_leak * b.v_bus * t_high
     p_bus = (e_rr + e_cj + e_lk + e_sw) / T
-    e_gate = float(np.sum(circ.q_on * sched.hs_turn_on * 0.5 * (orb.v_pre + orb.v_start)))
+    e_gate = float(np.sum((circ.q_on * sched.hs_turn_on + circ.q_off * sched.hs_turn_off)
+                          * 0.5 * (orb.v_pre + orb.v_start)))  # gate and both level-shift pulses
     e_q = circ.i_q * float(np.sum(ints["int_v"]))
     e_g = float(np.sum(ints["e_load"] - loop.i_load * ints["int_v"]))
     p_del = (e_gate + e_q + e_g) / T

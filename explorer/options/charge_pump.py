@@ -80,7 +80,7 @@ from ..engines.network import Network
 from ..engines.periodic import PeriodicSolution, periodic_steady_state
 from ..engines.transient import MAX_STARTUP_CYCLES, StartupTransient
 from ..errors import DesignError, ModelValidityWarning
-from ..loads import charge_per_turn_on, load_power, required_rail
+from ..loads import charge_per_turn_off, charge_per_turn_on, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import period_schedule
@@ -644,6 +644,8 @@ class _Load:
     i0: float | np.ndarray
     g_load: float
     r_eq: float | None
+    n_off: int = 0
+    q_off: float = 0.0
 
 
 def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
@@ -654,11 +656,13 @@ def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
     i_q = design.driver.i_q if k_i is None else design.driver.i_q * k_i
     q_pulse = q_g + design.driver.q_ls if k_q is not None else charge_per_turn_on(design)
     t_on = float(sched.dt[sched.hs_on].sum())
-    i0 = i_q + n_on * q_pulse / t_a
+    n_off = int(np.count_nonzero(sched.hs_turn_off))
+    q_off = charge_per_turn_off(design)  # the level shifter's reset pulse at each turn-off
+    i0 = i_q + (n_on * q_pulse + n_off * q_off) / t_a
     r_gs = design.gate.r_gs
     g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
     return _Load(t_a=t_a, n_on=n_on, q_pulse=q_pulse, i0=i0, g_load=g_load,
-                 r_eq=1.0 / g_load if g_load > 0 else None)
+                 r_eq=1.0 / g_load if g_load > 0 else None, n_off=n_off, q_off=q_off)
 
 
 def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
@@ -851,7 +855,7 @@ def _duty_limits(design: Design, pump: _Pump, load: _Load, ss: _PumpSteady, rail
     """Duty and load limits: any HS duty while the rail holds; the highest f_sw and Q_G (and those limits)."""
     req = required_rail(design)
     lim = _load_limits(design, pump, pump.circ, ss.r_out, rail["v_pump_min"], ss.v_mean, load.i0, load.g_load,
-                       load.q_pulse, load.n_on, load.t_a, req)
+                       load.q_pulse, load.n_on, load.t_a, req, n_off=load.n_off, q_off=load.q_off)
     feasible_duty = rail["v_min"] >= req
     duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
                       t_ls_min=None,
@@ -1038,7 +1042,8 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
     return {"startup": stp, "x_max": x_max, "i_peak": i_peak, "i_cap_peak": i_cap, "v_final": float(hi[8])}
 
 
-def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pulse, n_on, t_a, req) -> dict:
+def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pulse, n_on, t_a, req, *,
+                 n_off=0, q_off=0.0) -> dict:
     """Highest leg frequency and highest Q_G at which the rail minimum stays at the requirement.
 
     The frequency is f_sw, or f_line on a leg that switches at line frequency (the analysis
@@ -1058,7 +1063,7 @@ def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pu
 
     def v_min(q, scale):
         """Rail minimum with charge q per turn-on and the bridge frequency scaled by `scale`."""
-        ia = i_q + n_on * q * scale / t_a
+        ia = i_q + (n_on * q + n_off * q_off) * scale / t_a
         vm = float(rail_from_r_out(pump.v_in, r_out, ia, ratio=circ.ratio, g_load=g_load))
         it = ia + vm * g_load
         dip = 0.0

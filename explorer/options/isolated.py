@@ -61,7 +61,7 @@ from ..capacitors import capacitance, parse_dielectric
 from ..design import Design, IsolatedOption
 from ..engines.affine import affine_scan
 from ..errors import DesignError, ModelValidityWarning
-from ..loads import charge_per_turn_on, load_charge, load_power, required_rail
+from ..loads import charge_per_turn_off, charge_per_turn_on, load_charge, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import Schedule, period_schedule
@@ -208,7 +208,7 @@ class RailSolution:
 
 
 def _rail_boundaries(dt, hs_on, hs_turn_on, *, v_src, r_out: float, c_out, q_pulse, i_q=0.0,
-                     r_gs: float | None = None):
+                     r_gs: float | None = None, q_off: float = 0.0):
     """Boundary values of :func:`output_rail`'s periodic orbit, for a batch of element values.
 
     ``v_src``, ``c_out``, ``q_pulse`` and ``i_q`` may be arrays of shape ``(m,)``
@@ -222,6 +222,9 @@ def _rail_boundaries(dt, hs_on, hs_turn_on, *, v_src, r_out: float, c_out, q_pul
     v_src, c_out, q_pulse, i_q = ((np.asarray(x, dtype=float)[..., None] if batch else float(x))
                                   for x in (v_src, c_out, q_pulse, i_q))
     jump = np.where(np.asarray(hs_turn_on, dtype=bool), q_pulse / c_out, 0.0)
+    if q_off:  # the level shifter's reset pulse at each HS turn-off (the schedule is periodic)
+        on = np.asarray(hs_on, dtype=bool)
+        jump = jump + np.where(np.roll(on, 1) & ~on, q_off / c_out, 0.0)
     g = hs_on / r_gs if r_gs is not None else np.zeros(dt.shape)
     # written without 1/r_out so that a vanishing r_out tends smoothly to the ideal source
     tau = c_out * r_out / (1.0 + g * r_out)
@@ -249,15 +252,15 @@ def _rail_boundaries(dt, hs_on, hs_turn_on, *, v_src, r_out: float, c_out, q_pul
 
 
 def output_rail_min(dt, hs_on, hs_turn_on, *, v_src, r_out: float, c_out, q_pulse, i_q=0.0,
-                    r_gs: float | None = None) -> np.ndarray:
+                    r_gs: float | None = None, q_off: float = 0.0) -> np.ndarray:
     """:func:`output_rail`'s ``min`` for a batch of element values (arrays of shape ``(m,)``) [V]."""
     _, v_after, v_end, _, _, _ = _rail_boundaries(dt, hs_on, hs_turn_on, v_src=v_src, r_out=r_out, c_out=c_out,
-                                                   q_pulse=q_pulse, i_q=i_q, r_gs=r_gs)
+                                                   q_pulse=q_pulse, i_q=i_q, r_gs=r_gs, q_off=q_off)
     return np.minimum(v_after.min(axis=-1), v_end.min(axis=-1))
 
 
 def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: float,
-                q_pulse: float, i_q: float = 0.0, r_gs: float | None = None) -> RailSolution:
+                q_pulse: float, i_q: float = 0.0, r_gs: float | None = None, q_off: float = 0.0) -> RailSolution:
     """Periodic steady state of a source behind a resistance charging a capacitor that feeds a gate driver.
 
     Per interval (constant coefficients), with G = 1/r_out and g = 1/R_GS while
@@ -298,7 +301,8 @@ def output_rail(dt, hs_on, hs_turn_on, *, v_src: float, r_out: float, c_out: flo
     """
     dt = np.asarray(dt, dtype=float)
     v_start, v_after, v_end, v_inf, tau, alpha = _rail_boundaries(
-        dt, hs_on, hs_turn_on, v_src=v_src, r_out=r_out, c_out=c_out, q_pulse=q_pulse, i_q=i_q, r_gs=r_gs)
+        dt, hs_on, hs_turn_on, v_src=v_src, r_out=r_out, c_out=c_out, q_pulse=q_pulse, i_q=i_q, r_gs=r_gs,
+        q_off=q_off)
     period = float(dt.sum())
     # time average: ∫V = V_inf·dt + (V_after − V_inf)·tau·(1 − alpha)
     area = v_inf * dt + (v_after - v_inf) * tau * (1.0 - alpha)
@@ -458,8 +462,9 @@ def _rating_limits(design: Design, sched: Schedule, option: IsolatedOption) -> d
         # explorer.results: None where unbounded)
         return {key: None, "q_g_max": None}
     q = charge_per_turn_on(design)
-    return {key: float(analysis_frequency(design.bridge) * budget / (rate * q)),
-            "q_g_max": float(max(0.0, budget / rate - design.driver.q_ls))}
+    q_ls_off = charge_per_turn_off(design) * np.count_nonzero(sched.hs_turn_off) / sched.period  # per second
+    return {key: float(analysis_frequency(design.bridge) * budget / (rate * q + q_ls_off)),
+            "q_g_max": float(max(0.0, (budget - q_ls_off) / rate - design.driver.q_ls))}
 
 
 @dataclass(frozen=True)
@@ -490,7 +495,8 @@ def _steady_rail(design: Design, option: IsolatedOption, sched: Schedule, path: 
                               v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
     q_on = charge_per_turn_on(design)
     rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=v_src, r_out=option.r_out,
-                       c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=design.gate.r_gs)
+                       c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=design.gate.r_gs,
+                       q_off=charge_per_turn_off(design))
     t_wave, v_wave = rail.waveform(sched.dt, points=8 if len(sched) <= 2000 else 2)
     collapsed = rail.min < 0.0
     if collapsed:
@@ -736,7 +742,8 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
         j = slice(a, a + _BATCH)
         out[j] = output_rail_min(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=v_src[j], r_out=option.r_out,
                                  c_out=np.asarray(c_eff, dtype=float)[j], q_pulse=q_on[j],
-                                 i_q=design.driver.i_q * i_q[j], r_gs=design.gate.r_gs)
+                                 i_q=design.driver.i_q * i_q[j], r_gs=design.gate.r_gs,
+                                 q_off=charge_per_turn_off(design))
     return out
 
 
