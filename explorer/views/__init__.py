@@ -2,7 +2,7 @@
 
 The data objects (:class:`~explorer.compare.Comparison`, the envelope results of
 :mod:`explorer.tolerance`) hold numbers only; this package turns them into words,
-tables and, later, plots. This ``__init__`` imports no plotting library: a plot
+tables and plots. This ``__init__`` imports no plotting library: the plot
 module that needs Bokeh is imported by its own name (``explorer.views.plots``), so
 ``import explorer`` stays light.
 """
