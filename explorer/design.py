@@ -251,6 +251,9 @@ class Driver:
     uvlo_off: float = _f("V", "UVLO falling threshold", **POS)
     v_bs_max: float = _f("V", "absolute maximum of V_B \u2212 V_S", **POS)
     t_on_min: float = _f("s", "minimum high-side pulse width", 0.0, **NONNEG)
+    t_on_min_ls: float = _f("s", "minimum low-side pulse width: a shorter low-side pulse is not given (the low "
+                            "side stays off and the switch node stays where the load current holds it in the "
+                            "dead time)", 0.0, **NONNEG)
 
     def _check(self, path: str) -> None:
         if self.uvlo_off >= self.uvlo_on:

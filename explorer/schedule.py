@@ -56,7 +56,7 @@ from .errors import DesignError
 from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_standstill, light_load,
                        periods_per_fundamental, topology_of)
 
-__all__ = ["Schedule", "edge_kinds", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
+__all__ = ["Schedule", "edge_kinds", "ls_dropped", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
            "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill"]
 
 
@@ -225,6 +225,8 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
         dt[:, 3] = span - dt[:, 0] - dt[:, 1] - dt[:, 2]
         v[:, 3] = bridge.v_out
         full_on = np.zeros(K, dtype=bool)
+    ls_off = ls_dropped(dt[:, 2], driver.t_on_min_ls) & ~full_on & ~dropped
+    v[:, 2] = np.where(ls_off, lvl_a, v[:, 2])
     # whole-period HS on (LS slot vanished) or HS pulse dropped (too short)
     dt[full_on] = (T, 0.0, 0.0, 0.0)
     dt[dropped & ~full_on] = (0.0, 0.0, T, 0.0)
@@ -236,6 +238,7 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     if hold is not None:
         vh[:, 0] = hold
     on_slot = np.tile([True, False, True, False], (K, 1))  # an edge into HS or LS on-time is forced
+    on_slot[:, 2] = ~ls_off
     dt, v, vh, hs, cyc, on_slot = dt.ravel(), v.ravel(), vh.ravel(), hs.ravel(), cyc.ravel(), on_slot.ravel()
     if pre > 0.0:  # low-side pre-charge pulse before the first period
         dt = np.concatenate(([pre], dt))
@@ -262,6 +265,17 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
                     v_bus=bridge.v_bus, periodic=periodic, v_hold=None if hold is None else vh,
                     hold_words=hold_words, edge_hard=edge_hard,
                     v_rest=bridge.v_sw_low if hold is None else float(np.ravel(hold)[0]) if np.size(hold) else 0.0)
+
+
+def ls_dropped(t_ls, t_on_min_ls: float) -> np.ndarray:
+    """LS pulses the driver does not give: shorter than its minimum low-side on-time (and not zero).
+
+    The low side then stays off for that slot and the switch node stays where the load current
+    holds it in the dead time before (a buck's freewheeling body diode keeps it low and still
+    refreshes a bootstrap; a boost's HS body diode keeps it at the bus and does not).
+    """
+    t_ls = np.asarray(t_ls, dtype=float)
+    return (t_ls > 0.0) & (t_ls < t_on_min_ls)
 
 
 def edge_kinds(bridge: Bridge, on_slot, rising) -> np.ndarray:

@@ -270,3 +270,32 @@ def _evaluate_all(design):
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", explorer.ModelValidityWarning)
         return explorer.evaluate(design)
+
+
+@pytest.mark.parametrize("t_min", [100e-9, 200e-9])
+def test_boost_ratio_limit_from_the_low_side_minimum_on_time(t_min):
+    """A boost's lowest step-up ratio with a minimum low-side (main switch) on-time t_min.
+
+    Volt-second balance of the boost, V_out/V_in = 1/(1 − D) with D ≥ t_min·f_sw (Erickson &
+    Maksimović 2020, ch. 2): the LS pulse carries the bootstrap's only refresh (the HS body diode
+    holds SW at the bus in the dead times), so a pulse the driver does not give cannot refresh it.
+    """
+    d = replace_fields(explorer.demo_design(), {"bridge.topology": "sync_boost", "bridge.v_in": 36.0,
+                                               "bridge.v_out": None, "driver.t_on_min_ls": t_min})
+    r = _evaluate(d)
+    ratio = r.duty.topology["v_out_over_v_in_min"]
+    assert ratio == pytest.approx(1.0 / (1.0 - t_min * 200e3), rel=2e-4)
+    assert r.duty.t_ls_min == pytest.approx(t_min, rel=5e-3)  # the search brackets the limit in duty
+
+
+def test_buck_without_its_short_low_side_pulse_still_refreshes_in_the_dead_times():
+    """A buck's dropped LS pulse leaves the freewheeling body diode conducting: the rail still refreshes.
+
+    The limit is unchanged (the HS share where the LS slot vanishes, 1 − 2·t_dead/T); no LS pulse is needed
+    there (t_ls_min None), and the refresh window is the two dead times.
+    """
+    d = replace_fields(explorer.demo_design(), {"driver.t_on_min_ls": 100e-9})
+    r = _evaluate(d)
+    r0 = _evaluate(explorer.demo_design())
+    assert r.duty.max == r0.duty.max and r.duty.t_ls_min is None
+    assert r.details.t_refresh_at_limit == pytest.approx(2 * 40e-9, rel=0.02)

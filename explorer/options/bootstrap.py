@@ -63,7 +63,7 @@ from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import (QUASI_STATIC_PERIODS, Schedule, hs_duty_per_period, is_standstill, nominal_duty,
+from ..schedule import (QUASI_STATIC_PERIODS, Schedule, ls_dropped, hs_duty_per_period, is_standstill, nominal_duty,
                         period_schedule, periods_per_fundamental, startup_schedule)
 from ..topology import analysis_frequency, light_load, topology_of
 from .details import BootstrapDetails
@@ -634,6 +634,8 @@ def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period):
     else:
         full_on = t_ls <= 0.0
     dropped = ((t_hs <= 0.0) | (t_hs < design.driver.t_on_min)) & ~full_on
+    ls_off = ls_dropped(dt[..., 2], design.driver.t_on_min_ls) & ~full_on & ~dropped
+    v[..., 2] = np.where(ls_off, lvl_a, v[..., 2])
     dt = np.where(full_on[..., None], np.stack([period, 0 * td, 0 * td, 0 * td], axis=-1), dt)
     dt = np.where(dropped[..., None], np.stack([0 * td, 0 * td, period, 0 * td], axis=-1), dt)
     dt = np.maximum(dt, 0.0)
@@ -832,7 +834,10 @@ def _worst_period(design, circ, t_hs_max):
     q_edge = circ.q_rr + circ.c_j * (b.v_bus - low)
     hi_leak = circ.i_leak
     ls_leak = circ.i_leak if circ.v_sw_low > 0.5 * b.v_bus else 0.0
-    loop = Loop(dt=dt, v_src=circ.v_dd - np.array([b.v_bus, b.v_bus, circ.v_sw_low, b.v_bus]), c=circ.c,
+    # a low-side pulse shorter than the driver's minimum is not given: at worst SW stays at the bus
+    v_ls = np.where(ls_dropped(np.where(full, 0.0, t_ls), design.driver.t_on_min_ls), b.v_bus, circ.v_sw_low)
+    levels = np.stack(np.broadcast_arrays(b.v_bus, b.v_bus, v_ls, b.v_bus), axis=-1)
+    loop = Loop(dt=dt, v_src=circ.v_dd - levels, c=circ.c,
                 r=circ.r_tot, i_load=circ.i_q + np.array([hi_leak, hi_leak, ls_leak, hi_leak]),
                 g_load=np.array([circ.g_gs, 0.0, 0.0, 0.0]),
                 q_step=np.array([circ.q_on + q_edge, circ.q_off, 0.0, q_edge]), v_f=circ.v_f, i_s=circ.i_s,
@@ -1129,6 +1134,27 @@ def _startup_part(design: Design, option: BootstrapOption, circ: BootstrapCircui
     return start, details
 
 
+#: Common practice, no source: a refresh window shorter than this many switch-node edge times is
+#: not resolved by a model that treats edges as steps.
+REFRESH_EDGES = 2.0
+
+
+def refresh_window(design: Design, h: float) -> float:
+    """Time per switching period the switch node is low (at or below ``v_sw_low``) at HS share ``h`` [s].
+
+    From the same slot layout the duty-limit search uses (:func:`duty_slots`, the period of
+    highest duty's dead-time levels): the LS pulse if the driver gives it (``t_on_min_ls``) and
+    the dead times the load current holds low.
+    """
+    b = design.bridge
+    T = _period(design)
+    la, lb = _levels(design)
+    t_hs = h * T
+    dt, v, _ = duty_slots(design, np.array([t_hs]), np.array([T - t_hs - 2 * b.dead_time]), la, lb, T)
+    low = v <= max(b.v_sw_low, 0.0) + 1e-9
+    return float(np.sum(dt[low]))
+
+
 def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sched: Schedule, need: float,
                warn: list) -> tuple[DutyLimits, dict]:
     """Duty limits: the HS duty range that keeps the rail, the hold-up at 100 % and the topology's terms."""
@@ -1145,6 +1171,14 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
     t_ls_min = None if h_need is None else max(0.0, (1.0 - h_need) * T_sw - 2 * b.dead_time)
     if light_load(b) and h_need is not None:
         t_ls_min = _ls_pulse_min(design, circ, need)
+    if t_ls_min is not None and t_ls_min < drv.t_on_min_ls:
+        t_ls_min = None  # at the limit the driver gives no LS pulse: the rail refreshes without one
+    window = None if h_need is None else refresh_window(design, h_need)
+    if window is not None and h_need < 1.0 and window < REFRESH_EDGES * b.t_edge:
+        warn.append(f"at the duty limit {h_need:.4g} the switch node is low for only {_fmt(window, 's')} per "
+                    f"period, under {REFRESH_EDGES:g}\u00d7 its edge time {_fmt(b.t_edge, 's')}: the model "
+                    "treats edges as steps, so the rail's recovery in that window is optimistic (give the "
+                    "driver's minimum low-side on-time, driver.t_on_min_ls)")
     topo = topology_terms(design, circ, h_need, need, v_min)
     duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
                       t_ls_min=t_ls_min, topology=topo, hold_up_threshold=need, hold_up_to=HOLD_UP_TO)
@@ -1158,7 +1192,7 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
         where = (f"at HS duty above {h_need:.3g}" if h_need is not None else "at every HS duty")
         warn.append(f"the rail falls below the required {_fmt(need, 'V')} {where} at {f_txt}; "
                     f"this operating point reaches HS duty {op_duty:.3g}")
-    return duty, {"hold_up_uvlo_off": hold_uvlo, "duty_max_uvlo_off": h_uvlo}
+    return duty, {"hold_up_uvlo_off": hold_uvlo, "duty_max_uvlo_off": h_uvlo, "t_refresh_at_limit": window}
 
 
 def _stress_part(design: Design, option: BootstrapOption, circ: BootstrapCircuit, steady: _SteadyPart,

@@ -54,6 +54,9 @@ class BootstrapDetails(Details):
     p_junction_gross : float or None [W]
         Power the diode's junction capacitance would cost with every switch-node edge hard-switched
         (½·C_j·ΔV² per edge; ``losses["junction"]`` charges the hard edges only). None: never refreshed.
+    t_refresh_at_limit : float or None [s]
+        Time per period the switch node is low (LS pulse if given, dead times held low) at the
+        highest feasible HS duty; a window of a few edge times is flagged (edges are steps in the model).
     hold_up_uvlo_off : float or None [s]
         Hold-up at 100 % duty down to UVLO-off (where the driver stops), from the same start as
         ``duty.hold_up`` (which counts down to the required rail); None: indefinitely.
@@ -80,6 +83,7 @@ class BootstrapDetails(Details):
     v_min_model: float | None = None
     p_junction_gross: float | None = None
     hold_up_uvlo_off: float | None = None
+    t_refresh_at_limit: float | None = None
     startup_v_sw_hold: float | None = None
     startup_sw_hold: str = ""
 
