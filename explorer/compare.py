@@ -9,7 +9,7 @@ from dataclasses import dataclass
 from .design import Design, load_design
 from .errors import DesignError, ModelValidityWarning
 from .options import supply_model
-from .results import OptionResult, clean
+from .results import OptionResult, clean, plausibility
 from .schedule import schedule_validity
 from .views.table import CAUTION, comparison_html, comparison_rows, comparison_text, topology_text
 
@@ -157,7 +157,10 @@ def evaluate(design, *, rank: str = "overhead") -> Comparison:
             results.append(OptionResult.failed(opt.label, opt.kind,
                                                f"the {opt.kind} model is not available in this version"))
             continue
-        results.append(model.evaluate(d, opt))
+        r = plausibility(model.evaluate(d, opt))
+        if r.checks and r.checks[-1].name == "rail_plausible":
+            warnings.warn(r.warnings[-1], ModelValidityWarning, stacklevel=2)
+        results.append(r)
     return Comparison(d, tuple(results), rank)
 
 

@@ -369,6 +369,8 @@ class ChargePumpOption:
                               nullable=True, **POS)
     v_rating_sw: float | None = _f("V", "blocking-voltage rating of the pump switches (null = not checked)", None,
                                    nullable=True, **POS)
+    i_rating_sw: float | None = _f("A", "peak-current rating of the pump switches, checked against the start-up "
+                                   "inrush and the steady peak (null = not checked)", None, nullable=True, **POS)
 
     def _check(self, path: str) -> None:
         if 2 * self.dead_time_cp >= 1.0 / self.f_cp:

@@ -15,7 +15,8 @@ import numpy as np
 
 __all__ = ["RailStats", "Startup", "DutyLimits", "CapacitorStress", "Check", "Details", "OptionResult",
            "clean", "verdict_from", "FAMILIES", "family_of", "rail_min_check", "rail_max_v_bs_check",
-           "rail_max_v_gs_check", "startup_uvlo_check", "cap_voltage_check", "cap_check_name"]
+           "rail_max_v_gs_check", "startup_uvlo_check", "cap_voltage_check", "cap_check_name",
+           "RAIL_PLAUSIBLE", "plausibility"]
 
 
 def clean(x):
@@ -250,7 +251,8 @@ def cap_voltage_check(design, name: str, v_max: float, v_rating: float | None,
 #: The comparison's families of figures and the check names (or name prefixes) that belong to each.
 FAMILIES = {
     "efficiency": ("load_rating",),
-    "stress": ("cap_voltage_", "diode_v_rrm", "switch_v_block", "rail_max_v_bs", "rail_max_v_gs"),
+    "stress": ("cap_voltage_", "diode_v_rrm", "switch_v_block", "switch_i_peak", "rail_max_v_bs", "rail_max_v_gs",
+               "rail_plausible"),
     "startup": ("startup_uvlo",),
     "duty": ("rail_min",),
     "isolation": ("cmti", "v_iso"),
@@ -393,3 +395,38 @@ class OptionResult(_Dict):
         return cls(label=label, kind=kind, feasible=False, verdict=f"not evaluated: {message}",
                    warnings=(), v_rail=None, efficiency=None, p_delivered=None, p_drawn=None,
                    startup=None, duty=None, r_out=None, capacitors=(), error=message)
+
+
+#: A floating gate-drive rail beyond this magnitude [V] (or below 0 V) means a model's assumptions
+#: have broken down (a gate rail is some volts to a few tens of volts; common practice, no source).
+RAIL_PLAUSIBLE = 100.0
+
+
+def plausibility(result: "OptionResult") -> "OptionResult":
+    """The result with a failed ``rail_plausible`` check and a warning where its rail figures are implausible.
+
+    A steady-state rail below 0 V or beyond ±:data:`RAIL_PLAUSIBLE` is outside the range any model
+    here describes (its constant-charge load, its switches and diodes stop acting as modelled), so
+    such a figure is flagged as a model-validity failure instead of shown as if it were a rail.
+    Results within range are returned unchanged.
+    """
+    r = result.v_rail
+    if r is None:
+        return result
+    lo, hi = min(r.min, r.max, r.mean), max(r.min, r.max, r.mean)
+    if lo >= 0.0 and hi <= RAIL_PLAUSIBLE:
+        return result
+    import dataclasses
+    if lo < 0.0:
+        check = Check("rail_plausible", lo, 0.0, "min", "V",
+                      "the model's rail stays at or above 0 V (below it the model does not hold)")
+    else:
+        check = Check("rail_plausible", hi, RAIL_PLAUSIBLE, "max", "V",
+                      f"the model's rail stays within {RAIL_PLAUSIBLE:g} V (beyond it the model does not hold)")
+    msg = (f"model validity: the rail figures ({lo:.4g} V to {hi:.4g} V) are outside 0 to {RAIL_PLAUSIBLE:g} V, "
+           "where the model's assumptions hold; the design is far outside its range (check the gate charge, "
+           "the loads and the parts)")
+    warns = result.warnings + (msg,)
+    checks = result.checks + (check,)
+    feasible, verdict = verdict_from(list(checks), warns)
+    return dataclasses.replace(result, warnings=warns, checks=checks, feasible=feasible, verdict=verdict)

@@ -299,3 +299,30 @@ def test_buck_without_its_short_low_side_pulse_still_refreshes_in_the_dead_times
     r0 = _evaluate(explorer.demo_design())
     assert r.duty.max == r0.duty.max and r.duty.t_ls_min is None
     assert r.details.t_refresh_at_limit == pytest.approx(2 * 40e-9, rel=0.02)
+
+
+def test_implausible_rail_is_a_failed_model_validity_check():
+    """A gate charge of 900 µC takes a pump's modelled rail to kilovolts below 0: flagged, not shown silently."""
+    d = replace_fields(explorer.demo_design(), {"gate.q_g": 900e-6})
+    with pytest.warns(explorer.ModelValidityWarning, match="model validity: the rail figures"):
+        res = explorer.evaluate(d)
+    pump = res["pump 1:1"]
+    bad = [c for c in pump.checks if c.name == "rail_plausible"]
+    assert bad and not bad[0].ok and not pump.feasible and "model validity" in pump.warnings[-1]
+    # a plain design has no such check
+    assert not any(c.name == "rail_plausible" for r in _evaluate_all(explorer.demo_design()).options for c in r.checks)
+
+
+def test_pump_switch_inrush_against_its_rating_and_flattering_defaults():
+    """The 1:1 pump's first phase charges a dead C_fly from V_in through two switches and its ESR.
+
+    Initial current of a first-order RC step, i = V_in/(2·R_on + ESR) (Alexander & Sadiku 2017, ch. 7):
+    12 V / 4.01 Ω. It is checked against the switches' peak-current rating; a zero switch gate charge is
+    warned about; the input-rail reference is stated in the result.
+    """
+    d = replace_fields(explorer.demo_design(), {"options[1].q_g_sw": 0.0, "options[1].i_rating_sw": 2.5})
+    r = _evaluate_all(d)["pump 1:1"]
+    c = next(c for c in r.checks if c.name == "switch_i_peak")
+    assert c.value == pytest.approx(12.0 / (2 * 2.0 + 0.01), rel=1e-6) and not c.ok
+    assert any("q_g_sw = 0" in w for w in r.warnings)
+    assert r.assumptions[0].startswith("pump input")

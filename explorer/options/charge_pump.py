@@ -980,8 +980,10 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     v_block, sw_checks, warn = _switch_block(design, option, pump.v_in)
     duty, lim = _duty_limits(design, pump, load, ss, rail)
     first, shared = _rail_checks(design, v_min, v_max, st["v_final"])
-    checks = [first] + cap_checks + sw_checks + shared
+    i_checks = _switch_current(option, ss, st)
+    checks = [first] + cap_checks + sw_checks + i_checks + shared
     warn += _ratio_warnings(design, pump, power.collapsed)
+    warn += flattering_defaults(option)
     msgs, tau_loop, r_th = _validity(design, option, pump, load, ss, sched, v_max - v_min)
     warn += msgs
     feasible, verdict = verdict_from(checks, warn)
@@ -992,8 +994,42 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
         p_delivered=power.p_delivered, p_drawn=power.p_drawn, startup=st["startup"], duty=duty, r_out=ss.r_out,
         capacitors=caps, p_drawn_aux=power.p_drawn_aux, p_drawn_bus=power.p_cross, losses=power.losses,
         checks=tuple(checks), details=details,
-        assumptions=(cm.edge_words("domain-crossing capacitance c_par (while c_fly is in the switch-node domain)",
-                                   power.edges),), t=ss.t_w, v=ss.v_out_w)
+        assumptions=(input_reference(option.ratio),
+                     cm.edge_words("domain-crossing capacitance c_par (while c_fly is in the switch-node domain)",
+                                   power.edges)), t=ss.t_w, v=ss.v_out_w)
+
+
+def input_reference(ratio: str) -> str:
+    """Where the pump's input rail is taken to be referenced, in words (the module notes)."""
+    if ratio == "1:1":
+        return ("pump input: the flying capacitor charges from the ground-referenced input and is disconnected "
+                "from one domain before it joins the other, so no loop runs through the switch node (exact)")
+    return (f"pump input ({ratio}): a phase joins the input rail and the output in one loop, so the model takes "
+            "the input rail as referred to the switch node during that phase (provided in the SW domain, e.g. "
+            "a floating input); a ground-referenced input would see the switch-node motion in that loop")
+
+
+def flattering_defaults(option: ChargePumpOption) -> list[str]:
+    """Warnings for the defaults that make a pump look better than any real one (zero parasitics)."""
+    out = []
+    if option.q_g_sw == 0.0:
+        out.append("q_g_sw = 0: the pump switches' own gate drive is taken as free; a real switch needs gate "
+                   "charge at every pump edge (its loss n\u00b7Q_G\u00b7V\u00b7f_cp is left out)")
+    if option.c_par == 0.0:
+        out.append("c_par = 0: no parasitic capacitance is swung through the bus at the domain crossings; any real "
+                   "flying capacitor and its switches have some, and its loss grows with V_bus\u00b2")
+    if option.alpha_bp == 0.0:
+        out.append("alpha_bp = 0: no bottom-plate parasitic on the flying capacitor (its loss is left out)")
+    return out
+
+
+def _switch_current(option: ChargePumpOption, ss, st: dict) -> list:
+    """The pump switches' peak current (start-up inrush and steady peak) against their rating, if given."""
+    if option.i_rating_sw is None:
+        return []
+    i_pk = max(float(np.max(ss.i_peak_ss[:4])), float(st["i_peak"]))
+    return [Check("switch_i_peak", i_pk, option.i_rating_sw, "max", "A",
+                  "pump switches' peak current (start-up inrush, steady peak) within their rating")]
 
 
 def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Network | None = None) -> dict:
