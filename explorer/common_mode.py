@@ -33,7 +33,8 @@ from .schedule import Schedule
 
 __all__ = ["edge_dv_dt", "cm_current", "edge_charge", "cm_power", "cmti_required", "cmti_ratio",
            "rising_edge_swings", "bus_power_per_edges", "EdgePower", "edge_swings", "capacitive_edge_power",
-           "edge_words"]
+           "edge_words",
+           "EDGE_SHAPE_FACTOR", "switch_node_dv_dt", "cmti_check"]
 
 
 def edge_dv_dt(v_swing, t_edge):
@@ -56,6 +57,29 @@ def edge_dv_dt(v_swing, t_edge):
     50000000000.0
     """
     return np.abs(np.asarray(v_swing, dtype=float)) / np.asarray(t_edge, dtype=float)
+
+
+#: Peak slope of an edge over its average slope V/t_edge, by edge shape: a linear ramp 1; a raised
+#: cosine v = V/2·(1 − cos(π·t/t_edge)) has dv/dt = (π/2)·(V/t_edge)·sin(π·t/t_edge), peak π/2.
+EDGE_SHAPE_FACTOR = {"linear": 1.0, "raised_cosine": np.pi / 2.0}
+
+
+def switch_node_dv_dt(bridge) -> float:
+    """Peak dv/dt of the leg's switch-node edge [V/s]: the shape factor × V_bus/t_edge.
+
+    ``bridge.edge_shape`` ``"linear"`` gives V_bus/t_edge; ``"raised_cosine"`` (π/2)·V_bus/t_edge, the
+    derivative's maximum of V/2·(1 − cos(π·t/t_edge)) at mid-edge.
+    """
+    return float(EDGE_SHAPE_FACTOR[bridge.edge_shape] * edge_dv_dt(bridge.v_bus, bridge.t_edge))
+
+
+def cmti_check(design, cmti: float, what: str):
+    """The ``cmti`` check: a driver's immunity at least ``checks.cmti_margin`` × the switch node's peak dv/dt."""
+    from .results import Check
+    dv_dt = switch_node_dv_dt(design.bridge)
+    return Check("cmti", cmti, float(cmti_required(dv_dt, design.checks.cmti_margin)), "min", "V/s",
+                 f"{what} CMTI is at least {design.checks.cmti_margin:g} \u00d7 the switch-node peak dv/dt "
+                 f"{dv_dt:.4g} V/s ({design.bridge.edge_shape} edge)")
 
 
 def cm_current(c, dv_dt):

@@ -197,6 +197,9 @@ class Bridge:
                                  "(null = the topology's rule: buck v_out_start, boost v_in, line leg v_bus, "
                                  "others the dead-time level before HS turn-on)", None, nullable=True,
                                  lo=-100.0, hi=1e5)
+    edge_shape: str = _f("-", "shape of a switch-node edge for its peak dv/dt: 'linear' (V/t_edge) or "
+                         "'raised_cosine' (V/2\u00b7(1 \u2212 cos \u03c0t/t_edge), peak \u03c0/2\u00b7V/t_edge)", "linear",
+                         kind="choice", choices=("linear", "raised_cosine"))
     edge_rise: str = _f("-", "how the switch node's rising edges are driven, for the capacitive energy: 'auto' = "
                         "from the schedule (an edge into a switch's on-time is hard-switched, ½C·ΔV²; "
                         "one into a dead time is moved by the load current, zero-voltage, ~0), 'hard' or 'soft'",
@@ -251,6 +254,9 @@ class Driver:
     uvlo_off: float = _f("V", "UVLO falling threshold", **POS)
     v_bs_max: float = _f("V", "absolute maximum of V_B \u2212 V_S", **POS)
     t_on_min: float = _f("s", "minimum high-side pulse width", 0.0, **NONNEG)
+    cmti: float | None = _f("V/s", "common-mode transient immunity of the driver's level shifter (the bootstrap's "
+                            "and the pumps' driver; an isolated option gives its own); null = not checked", None,
+                            nullable=True, **POS)
     t_on_min_ls: float = _f("s", "minimum low-side pulse width: a shorter low-side pulse is not given (the low "
                             "side stays off and the switch node stays where the load current holds it in the "
                             "dead time)", 0.0, **NONNEG)

@@ -52,7 +52,7 @@ from dataclasses import dataclass
 import numpy as np
 
 from ..capacitors import capacitance, parse_dielectric
-from ..common_mode import capacitive_edge_power, edge_words
+from ..common_mode import capacitive_edge_power, cmti_check, edge_words
 from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..engines.rail_integrals import crossing_time, interval_integrals
 from ..engines.rail_junction import junction_current
@@ -1290,6 +1290,8 @@ def _checks_part(design: Design, option: BootstrapOption, steady: _SteadyPart, n
                             "diode V_RRM covers V_bus + V_DD after derating"))
     checks.append(startup_uvlo_check(design, float(np.max(su.v_end, initial=0.0)),
                                      "the rail reaches UVLO-on during start-up"))
+    if design.driver.cmti is not None:  # the level shifter of a bootstrapped driver sees the edge too
+        checks.append(cmti_check(design, design.driver.cmti, "the driver's level shifter"))
     return checks
 
 

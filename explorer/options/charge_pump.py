@@ -981,6 +981,8 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     duty, lim = _duty_limits(design, pump, load, ss, rail)
     first, shared = _rail_checks(design, v_min, v_max, st["v_final"])
     i_checks = _switch_current(option, ss, st)
+    if design.driver.cmti is not None:  # the driver's level shifter sees the switch-node edge
+        i_checks.append(cm.cmti_check(design, design.driver.cmti, "the driver's level shifter"))
     checks = [first] + cap_checks + sw_checks + i_checks + shared
     warn += _ratio_warnings(design, pump, power.collapsed)
     warn += flattering_defaults(option)

@@ -536,7 +536,7 @@ def _power(design: Design, option: IsolatedOption, sched: Schedule, out: _Output
     k = float(loss_coefficient(option.p_rated, option.p_no_load, option.eta_full))
     p_in = float(module_input_power(p_load, option.p_no_load, k))
     eta_mod = float(module_efficiency(p_load, option.p_no_load, k))
-    dv_dt = float(cm.edge_dv_dt(b.v_bus, b.t_edge))
+    dv_dt = cm.switch_node_dv_dt(b)  # peak slope (edge shape)
     i_cm = float(cm.cm_current(option.c_iso, dv_dt))
     q_cm = float(cm.edge_charge(option.c_iso, b.v_bus))
     edges = cm.capacitive_edge_power(option.c_iso, sched)     # ½·C·ΔV² per hard edge, ~0 per ZVS edge
