@@ -342,6 +342,9 @@ class BootstrapOption:
     c_j: float = _f("F", "diode junction capacitance", 0.0, **NONNEG)
     i_leak: float = _f("A", "diode reverse leakage at the bus voltage", 0.0, **NONNEG)
     v_rrm: float | None = _f("V", "diode repetitive reverse voltage rating", None, nullable=True, **POS)
+    v_clamp: float | None = _f("V", "clamp (Zener) across the bootstrap capacitor: the rail does not charge above "
+                               "it, e.g. after a negative switch-node excursion in the dead time (null = none)",
+                               None, nullable=True, **POS)
 
     @property
     def capacitor(self) -> Capacitor:

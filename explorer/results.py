@@ -251,7 +251,7 @@ def cap_voltage_check(design, name: str, v_max: float, v_rating: float | None,
 #: The comparison's families of figures and the check names (or name prefixes) that belong to each.
 FAMILIES = {
     "efficiency": ("load_rating",),
-    "stress": ("cap_voltage_", "diode_v_rrm", "switch_v_block", "switch_i_peak", "rail_max_v_bs", "rail_max_v_gs",
+    "stress": ("cap_voltage_", "diode_v_rrm", "switch_v_block", "switch_i_peak", "rail_max_v_bs", "rail_max_v_gs", "overcharge",
                "rail_plausible"),
     "startup": ("startup_uvlo",),
     "duty": ("rail_min",),

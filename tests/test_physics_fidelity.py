@@ -345,3 +345,19 @@ def test_level_shifter_cmti_and_raised_cosine_edge():
         assert c.limit == pytest.approx(2 * math.pi / 2 * 4.8e9, rel=1e-12)
     assert not next(c for c in res["bootstrap 220n"].checks if c.name == "cmti").ok
     assert res["isolated 1 W"].details.i_cm_peak == pytest.approx(10e-12 * math.pi / 2 * 4.8e9, rel=1e-12)
+
+
+def test_overcharge_from_a_dead_time_excursion_and_its_clamp():
+    """A negative switch-node excursion in the dead time charges the rail to V_DD − V_F + |V_SW| (KVL).
+
+    An invented GaN-like leg: 10 V of reverse conduction in the dead time; V_DD 12 V at +5 % with a
+    0.55 V diode: 12.6 − 0.55 + 10 = 22.05 V, above the 20 V gate rating: the overcharge check fails.
+    A 15 V clamp across C_boot caps it (and the steady-state rail stays at or below the clamp).
+    """
+    d = replace_fields(explorer.demo_design(), {"bridge.v_undershoot": 10.0})
+    r = _evaluate_all(d)["bootstrap 220n"]
+    c = next(c for c in r.checks if c.name == "overcharge")
+    assert c.value == pytest.approx(12.0 * 1.05 - 0.55 - 0.5 * 100e-6 + 10.0, rel=1e-9) and not c.ok
+    r = _evaluate_all(replace_fields(d, {"options[0].v_clamp": 15.0}))["bootstrap 220n"]
+    c = next(c for c in r.checks if c.name == "overcharge")
+    assert c.value == 15.0 and c.ok and r.v_rail.max <= 15.0

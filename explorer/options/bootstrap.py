@@ -101,6 +101,7 @@ class BootstrapCircuit:
     g_gs : float [S]     1/R_GS while the HS is on (0 without a pull-down)
     q_on : float [C]     Q_G + Q_LS at each HS turn-on
     q_off : float [C]    Q_LS at each HS turn-off (the level shifter's reset pulse)
+    v_clamp : float or None [V]  clamp (Zener) across C_boot: the charge target is capped at it
     q_rr : float [C]     recovery charge at each SW rising edge
     c_j : float [F]      diode junction capacitance
     v_bus : float [V]
@@ -126,6 +127,7 @@ class BootstrapCircuit:
     v_sw_low: float
     v_bias: float
     q_off: float = 0.0
+    v_clamp: float | None = None
 
     def drop(self, i):
         """Diode forward voltage at current ``i`` [V] (straight line or junction)."""
@@ -172,6 +174,7 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
     return BootstrapCircuit(c=float(c_eff), r_ext=r_ext, r_tot=r_tot, diode=kind, v_f=v_f, i_s=i_s,
                             n_vt=n_vt, v_dd=v_dd, i_q=design.driver.i_q, i_leak=option.i_leak, g_gs=g_gs,
                             q_on=charge_per_turn_on(design), q_off=charge_per_turn_off(design),
+                            v_clamp=option.v_clamp,
                             q_rr=option.q_rr, c_j=option.c_j,
                             v_bus=b.v_bus, v_sw_low=b.v_sw_low, v_bias=v_bias)
 
@@ -251,7 +254,12 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     q = (circ.q_on * turn_on + circ.q_off * turn_off + circ.q_rr * rise + circ.c_j * (lev - prev_l))
     i_load = circ.i_q + circ.i_leak * high
     g_load = circ.g_gs * hs_on
-    return Loop(dt=dt, v_src=circ.v_dd - v_sw, c=circ.c, r=circ.r_tot, i_load=i_load, g_load=g_load,
+    v_src = circ.v_dd - v_sw
+    if circ.v_clamp is not None:
+        # a clamp across C_boot: the diode charges the rail toward at most v_clamp (the target capped;
+        # an ideal clamp would reach it in finite time, so the rail is a little lower: conservative)
+        v_src = np.minimum(v_src, circ.v_clamp + circ.v_f)
+    return Loop(dt=dt, v_src=v_src, c=circ.c, r=circ.r_tot, i_load=i_load, g_load=g_load,
                 q_step=q, v_f=circ.v_f, i_s=circ.i_s, n_vt=circ.n_vt, diode=circ.diode)
 
 
@@ -1164,6 +1172,8 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
     h_min = min(1.0, drv.t_on_min / _period(design))
     # hold-up at 100 % duty from the steady-state maximum (the full charge target if never refreshed)
     v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
+    if circ.v_clamp is not None:
+        v_top = min(v_top, circ.v_clamp)
     q_edge = circ.q_on + circ.q_rr + circ.c_j * (b.v_bus - circ.v_sw_low)
     hold, hold_uvlo = (hold_up_time(v_top, q_edge, th, i_load=circ.i_q + circ.i_leak, g_load=circ.g_gs, c=circ.c)
                        for th in (need, drv.uvlo_off))
@@ -1195,13 +1205,26 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
     return duty, {"hold_up_uvlo_off": hold_uvlo, "duty_max_uvlo_off": h_uvlo, "t_refresh_at_limit": window}
 
 
+def overcharge_ceiling(v_dd: float, v_f: float, v_sw_lowest: float, v_clamp: float | None = None) -> float:
+    """Highest rail the bootstrap can charge to [V]: V_DD − V_F − (lowest switch-node level), clamp-limited.
+
+    Kirchhoff's voltage law around the charging loop while the switch node sits at its lowest
+    level (a negative excursion in the dead time: the LS body diode's, or a GaN leg's reverse
+    conduction) with the diode's current at zero: the capacitor charges to V_DD − V_F + |V_SW|,
+    or to ``v_clamp`` where a clamp across it conducts first.
+    """
+    v = v_dd - v_f - v_sw_lowest
+    return v if v_clamp is None else min(v, v_clamp)
+
+
 def _stress_part(design: Design, option: BootstrapOption, circ: BootstrapCircuit, steady: _SteadyPart,
                  ss: SteadyState, start: Startup, startup_v_max: float) -> tuple[tuple, dict]:
     """Capacitor and diode stress over the steady state and the start-up: (capacitors, details)."""
     b, aux = design.bridge, design.aux
     refreshed, v_min, v_max, ints = steady.refreshed, steady.v_min, steady.v_max, steady.ints
     low_levels = [circ.v_sw_low, -b.v_undershoot]
-    v_ceiling = aux.v_dd * (1 + aux.v_dd_tol) - min(low_levels) - float(circ.drop(circ.i_q))
+    v_ceiling = overcharge_ceiling(aux.v_dd * (1 + aux.v_dd_tol), float(circ.drop(circ.i_q)), min(low_levels),
+                                   circ.v_clamp)
     v_cap_max = max(v_ceiling, v_max or 0.0, startup_v_max)
     if refreshed:
         turn_on = ss.loop.q_step  # charge per interval start
@@ -1290,6 +1313,11 @@ def _checks_part(design: Design, option: BootstrapOption, steady: _SteadyPart, n
                             "diode V_RRM covers V_bus + V_DD after derating"))
     checks.append(startup_uvlo_check(design, float(np.max(su.v_end, initial=0.0)),
                                      "the rail reaches UVLO-on during start-up"))
+    if design.bridge.v_undershoot > 0:  # the dead-time excursion overcharges: against both ratings
+        limit = min(design.gate.v_gs_max, design.driver.v_bs_max)
+        checks.append(Check("overcharge", v_cap_max, limit, "max", "V",
+                            "rail after the negative switch-node excursion in the dead time (clamp-limited) stays "
+                            "within min(V_GS(max), V_BS(max))"))
     if design.driver.cmti is not None:  # the level shifter of a bootstrapped driver sees the edge too
         checks.append(cmti_check(design, design.driver.cmti, "the driver's level shifter"))
     return checks
