@@ -10,7 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ['affine_scan']
+__all__ = ["affine_scan"]
 
 
 #: Chunk length of the prefix scan (a power of two).

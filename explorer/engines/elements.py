@@ -10,7 +10,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 from typing import Union
 
-__all__ = ['GROUND', 'Cap', 'Res', 'VSrc', 'ISrc', 'Element']
+__all__ = ["GROUND", "Cap", "Res", "VSrc", "ISrc", "Element"]
 
 
 GROUND = "0"

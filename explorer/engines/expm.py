@@ -11,7 +11,7 @@ import math
 
 import numpy as np
 
-__all__ = ['expm', 'phi12', 'phi1']
+__all__ = ["expm", "phi12", "phi1"]
 
 
 #: Padé(13) coefficients b_0..b_13 of the scaling-and-squaring matrix exponential (Higham 2005, eq. 2.4).

@@ -6,7 +6,7 @@ from __future__ import annotations
 
 import numpy as np
 
-__all__ = ['exp_sum_roots']
+__all__ = ["exp_sum_roots"]
 
 
 def exp_sum_roots(b: np.ndarray, lam: np.ndarray, T: np.ndarray) -> np.ndarray:

@@ -74,7 +74,7 @@ from ..errors import DesignError
 from .elements import Cap, GROUND, ISrc, Res, VSrc
 from .expm import expm, phi12
 
-__all__ = ['PhaseSystem', 'solve_checked', 'Network', 'cycle_map']
+__all__ = ["PhaseSystem", "solve_checked", "Network", "cycle_map"]
 
 
 @dataclass(frozen=True)

@@ -17,7 +17,7 @@ from .expm import expm, phi1, phi12
 from .expsum import exp_sum_roots
 from .network import Network, cycle_map, solve_checked
 
-__all__ = ['PeriodicSolution', 'phase_square_integrals', 'periodic_steady_state']
+__all__ = ["PeriodicSolution", "phase_square_integrals", "periodic_steady_state"]
 
 
 @dataclass(frozen=True)
@@ -89,7 +89,7 @@ class PeriodicSolution:
                 out = out + A[..., j] * x[..., None, j]
             return out
 
-        Fx = net._F[..., :nx, :]  # dx/dt = Fx·[x; u]
+        Fx = net.stacked()[0][..., :nx, :]  # dx/dt = Fx·[x; u]
         x0, u = self.z0[..., :nx], self.z0[..., nx:]
         t = self.durations[..., None]  # (..., P, 1)
         lt = lam * t

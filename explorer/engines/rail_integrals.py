@@ -14,7 +14,7 @@ from .rail_junction import LoadedJunction, junction_map, loaded_junction_integra
 from .rail_linear import linear_map, off_params, off_time_to
 from .rail_loop import Loop, broadcast_loop, take_loop
 
-__all__ = ['bose_moments', 'junction_integrals', 'interval_integrals', 'crossing_time']
+__all__ = ["bose_moments", "junction_integrals", "interval_integrals", "crossing_time"]
 
 
 def _seg(v0, veq, rate, L, slope_lin):

@@ -35,7 +35,8 @@ import numpy as np
 from .rail_linear import off_params, off_value
 from .rail_loop import Loop, broadcast_as
 
-__all__ = ['wright_omega', 'w_of_v', 'junction_current', 'separated_phi', 'junction_map', 'LoadedJunction', 'loaded_junction_integrals']
+__all__ = ["wright_omega", "w_of_v", "junction_current", "separated_phi", "junction_map", "LoadedJunction",
+           "loaded_junction_integrals"]
 
 
 #: Array size from which :func:`wright_omega` uses its own vectorised iteration instead of scipy's ufunc.

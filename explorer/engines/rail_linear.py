@@ -22,7 +22,7 @@ import numpy as np
 
 from .rail_loop import Loop
 
-__all__ = ['off_params', 'off_value', 'off_time_to', 'linear_map', 'affine_maps']
+__all__ = ["off_params", "off_value", "off_time_to", "linear_map", "affine_maps"]
 
 
 def _expo(v0, veq, rate, t):

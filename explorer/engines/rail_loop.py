@@ -24,7 +24,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ['K_B', 'Q_E', 'broadcast_as', 'thermal_voltage', 'Loop', 'broadcast_loop', 'take_loop']
+__all__ = ["K_B", "Q_E", "broadcast_as", "thermal_voltage", "Loop", "broadcast_loop", "take_loop"]
 
 
 #: Boltzmann constant [J/K] (SI 2019 exact value, BIPM SI Brochure 9th ed.).

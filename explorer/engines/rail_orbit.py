@@ -28,7 +28,7 @@ from .rail_junction import junction_map
 from .rail_linear import affine_maps, linear_map
 from .rail_loop import Loop, broadcast_loop, take_loop
 
-__all__ = ['interval_map', 'OrbitSolution', 'solve_orbit', 'steady_rail', 'propagate']
+__all__ = ["interval_map", "OrbitSolution", "solve_orbit", "steady_rail", "propagate"]
 
 
 #: Newton passes allowed on an orbit before giving up.

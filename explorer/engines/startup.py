@@ -15,7 +15,7 @@ import numpy as np
 from ..errors import DesignError
 from .network import Network, cycle_map
 
-__all__ = ['StartupSolution', 'start_target', 'startup']
+__all__ = ["StartupSolution", "start_target", "startup"]
 
 
 @dataclass(frozen=True)
