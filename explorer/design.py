@@ -182,6 +182,11 @@ class Bridge:
     f_o: float | None = _f("Hz", "output (fundamental) frequency, 0 = standstill (three_phase)", None,
                            nullable=True, **NONNEG)
     third_harmonic: bool = _f("-", "add 1/6 third-harmonic injection (three_phase)", False, kind="bool")
+    pwm: str = _f("-", "three_phase modulation: 'sine' (with third_harmonic if set), 'svpwm' (space vector: "
+                  "min-max zero sequence), 'dpwm60' (each phase clamped to a rail for 60\u00b0 around its positive "
+                  "and its negative peak), 'dpwm120_top' (HS clamped on for 120\u00b0, the bootstrap's hold-up "
+                  "case), 'dpwm120_bottom' (LS clamped on for 120\u00b0)", "sine", kind="choice",
+                  choices=("sine", "svpwm", "dpwm60", "dpwm120_top", "dpwm120_bottom"))
     phi: float = _f("rad", "load-current lag behind the leg voltage (three_phase)", 0.0,
                     lo=-math.pi, hi=math.pi)
     f_line: float | None = _f("Hz", "line frequency (line_leg)", None, nullable=True, **POS)

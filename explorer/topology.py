@@ -27,7 +27,7 @@ import numpy as np
 from .errors import DesignError
 
 __all__ = ["Topology", "TOPOLOGY", "topology_of", "hold_level", "analysis_frequency", "analysis_period", "light_load",
-           "frequency_limit_key", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "modulation",
+           "frequency_limit_key", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "modulation", "peak_span",
            "operating_share"]
 
 
@@ -98,11 +98,36 @@ class Topology:
 # --------------------------------------------------------------------------- three-phase helpers
 
 def modulation(bridge, theta: np.ndarray, ramp) -> np.ndarray:
-    """Sine PWM reference m·ramp·(sin θ [+ sin 3θ / 6 with third-harmonic injection]) [-]."""
-    u = np.sin(theta)
-    if bridge.third_harmonic:
-        u = u + np.sin(3 * theta) / 6.0
-    return bridge.m * ramp * u
+    """Reference of phase a, duty d = ½(1 + u) before clipping [-], by ``bridge.pwm``.
+
+    * ``sine``: m·ramp·(sin θ [+ sin 3θ / 6 with third-harmonic injection]).
+    * The carrier-based schemes add a zero-sequence u₀ to the three sine references
+      u_k = m·ramp·sin(θ − 2πk/3) (Hava, Kerkman & Lipo, IEEE Trans. Power Electronics 14(1), 1999,
+      doi:10.1109/63.737592; Holmes & Lipo 2003, ch. 6): ``svpwm`` u₀ = −(max + min)/2 (space
+      vector); ``dpwm60`` the phase of largest magnitude clamped to its rail, u₀ = sign(u)·1 − u of
+      that phase (60° clamps around each peak); ``dpwm120_top`` u₀ = 1 − max (each phase's HS on for
+      120°); ``dpwm120_bottom`` u₀ = −1 − min (each phase's LS on for 120°).
+    """
+    scheme = getattr(bridge, "pwm", "sine")
+    theta = np.asarray(theta, dtype=float)
+    if scheme == "sine":
+        u = np.sin(theta)
+        if bridge.third_harmonic:
+            u = u + np.sin(3 * theta) / 6.0
+        return bridge.m * ramp * u
+    ph = bridge.m * np.asarray(ramp, dtype=float) * np.stack(
+        [np.sin(theta - 2 * np.pi * k / 3) for k in range(3)])
+    hi, lo = ph.max(axis=0), ph.min(axis=0)
+    if scheme == "svpwm":
+        u0 = -(hi + lo) / 2.0
+    elif scheme == "dpwm60":
+        big = np.where(hi >= -lo, hi, lo)
+        u0 = np.sign(big) - big
+    elif scheme == "dpwm120_top":
+        u0 = 1.0 - hi
+    else:  # dpwm120_bottom
+        u0 = -1.0 - lo
+    return ph[0] + u0
 
 
 def periods_per_fundamental(f_sw: float, f_o: float | None) -> int:
@@ -121,8 +146,26 @@ def is_standstill(bridge) -> bool:
 
 
 def _crest_angle(bridge) -> float:
-    """Angle of the highest duty of the reference [rad]."""
-    return np.pi / 3 if bridge.third_harmonic else np.pi / 2
+    """Angle of the highest duty of the reference [rad] (inside the clamp of a discontinuous scheme)."""
+    scheme = getattr(bridge, "pwm", "sine")
+    if scheme == "svpwm" or (scheme == "sine" and bridge.third_harmonic):
+        return np.pi / 3
+    return np.pi / 2
+
+
+def peak_span(bridge) -> tuple[float, float]:
+    """Angles [rad] between which phase a's duty is highest, falling monotonically outside (to ±π/2 away).
+
+    Sine: the crest π/2; third harmonic and space vector: π/3 … 2π/3 (their two maxima); dpwm60 the
+    60° clamp π/3 … 2π/3; dpwm120_top the 120° clamp π/6 … 5π/6; dpwm120_bottom's highest duty is
+    its sine-like top, at π/2 … π/2.
+    """
+    scheme = getattr(bridge, "pwm", "sine")
+    if scheme in ("svpwm", "dpwm60") or (scheme == "sine" and bridge.third_harmonic):
+        return np.pi / 3, 2 * np.pi / 3
+    if scheme == "dpwm120_top":
+        return np.pi / 6, 5 * np.pi / 6
+    return np.pi / 2, np.pi / 2
 
 
 # --------------------------------------------------------------------------- the topologies

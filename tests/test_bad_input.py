@@ -77,7 +77,7 @@ CASES = [
      "aux.v_dd: must be a finite number (got '1e400')"),
     ("unknown key", _with("bridge.f_switch", 1e5), "bridge.f_switch",
      "bridge.f_switch: unknown key; allowed: topology, v_bus, f_sw, dead_time, t_edge, v_out, v_in, duty, "
-     "mode, eta, ls_pulse, skip_cycles, m, f_o, third_harmonic, phi, f_line, soft_start, precharge, "
+     "mode, eta, ls_pulse, skip_cycles, m, f_o, third_harmonic, pwm, phi, f_line, soft_start, precharge, "
      "v_sw_low, v_undershoot, v_out_start, v_sw_hold, edge_shape, edge_rise, edge_fall, startup_cycles"),
     ("missing key", _with("bridge.v_bus", delete=True), "bridge.v_bus",
      "bridge.v_bus: missing; expected a number > 0 and ≤ 100000 [V]"),

@@ -361,3 +361,36 @@ def test_overcharge_from_a_dead_time_excursion_and_its_clamp():
     r = _evaluate_all(replace_fields(d, {"options[0].v_clamp": 15.0}))["bootstrap 220n"]
     c = next(c for c in r.checks if c.name == "overcharge")
     assert c.value == 15.0 and c.ok and r.v_rail.max <= 15.0
+
+
+THREE_PHASE = {"bridge.topology": "three_phase", "bridge.m": 0.9, "bridge.f_o": 200.0, "bridge.f_sw": 20e3,
+               "bridge.v_out": None}
+
+
+@pytest.mark.parametrize("pwm, share_on, share_off", [("dpwm120_top", 1 / 3, 0.0), ("dpwm120_bottom", 0.0, 1 / 3),
+                                                      ("dpwm60", 1 / 6, 1 / 6), ("svpwm", 0.0, 0.0)])
+def test_discontinuous_and_space_vector_pwm_clamps(pwm, share_on, share_off):
+    """Clamped intervals of carrier-based PWM (Hava, Kerkman & Lipo, IEEE TPEL 1999, doi:10.1109/63.737592).
+
+    DPWMMAX clamps each phase to the positive rail for 120° (HS on for a third of the fundamental),
+    DPWMMIN to the negative rail for 120°, DPWM1 for 60° around each peak; space-vector PWM never
+    clamps below m = 2/√3 and peaks at ½(1 + m·√3/2) (the min-max zero sequence at 60°).
+    """
+    from explorer.schedule import period_schedule
+
+    d = replace_fields(explorer.demo_design(), {**THREE_PHASE, "bridge.pwm": pwm})
+    s = period_schedule(d)
+    n = s.duty.size
+    assert np.count_nonzero(s.duty == 1.0) / n == pytest.approx(share_on, abs=1.5 / n)
+    assert np.count_nonzero(s.duty <= 0.0) / n == pytest.approx(share_off, abs=1.5 / n)
+    if pwm == "svpwm":
+        from explorer.schedule import nominal_duty
+        assert nominal_duty(d.bridge) == pytest.approx(0.5 * (1 + 0.9 * math.sqrt(3) / 2), rel=1e-12)
+
+
+def test_dpwm_top_clamp_is_the_bootstrap_hold_up_case():
+    """Clamping the HS on for 120° leaves the bootstrap a third of the fundamental without refresh."""
+    sine = _evaluate(replace_fields(explorer.demo_design(), THREE_PHASE))
+    top = _evaluate(replace_fields(explorer.demo_design(), {**THREE_PHASE, "bridge.pwm": "dpwm120_top"}))
+    low = _evaluate(replace_fields(explorer.demo_design(), {**THREE_PHASE, "bridge.pwm": "dpwm120_bottom"}))
+    assert top.v_rail.min < sine.v_rail.min < low.v_rail.min + 1e-9

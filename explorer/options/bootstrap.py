@@ -65,7 +65,7 @@ from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailSta
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, ls_dropped, hs_duty_per_period, is_standstill, nominal_duty,
                         period_schedule, periods_per_fundamental, startup_schedule)
-from ..topology import analysis_frequency, light_load, topology_of
+from ..topology import analysis_frequency, light_load, peak_span, topology_of
 from .details import BootstrapDetails
 from .base import SupplyModel
 
@@ -861,10 +861,9 @@ def _rail_ceiling(design, circ):
 
 
 def _peak_span(bridge, n):
-    """Index range [lo, hi] of the highest duty over a fundamental of ``n`` periods (sine PWM)."""
-    if bridge.third_harmonic:  # sin θ + sin 3θ/6 peaks at π/3 and 2π/3 and falls monotonically outside
-        return n / 6.0, n / 3.0
-    return n / 4.0, n / 4.0
+    """Index range [lo, hi] of the highest duty over a fundamental of ``n`` periods (topology.peak_span)."""
+    lo, hi = peak_span(bridge)
+    return n * lo / (2 * np.pi), n * hi / (2 * np.pi)
 
 
 def fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):

@@ -35,7 +35,7 @@ __all__ = ["Field", "FLAG_FIELDS", "TOPOLOGY_FIELDS", "SECTIONS", "SLIDER_FIELDS
 #: Bridge keys that a topology flag brings with it (flag of :class:`explorer.topology.Topology` → keys).
 FLAG_FIELDS = {
     "light_load": ("mode", "ls_pulse", "skip_cycles"),
-    "fundamental": ("third_harmonic", "phi"),
+    "fundamental": ("third_harmonic", "pwm", "phi"),
     "line_frequency": ("v_sw_low",),
     "soft_start": ("soft_start",),
 }
