@@ -422,3 +422,13 @@ def test_margin_map_and_monte_carlo_on_request(ex):
     ex.option_editor.card_buttons(1)["remove"].click()  # the chooser follows the options
     ex.wait()
     assert "pump 1:1" not in a.option.options
+
+
+def test_explore_takes_a_file_json_text_a_dict_or_a_design(tmp_path):
+    f = tmp_path / "d.json"
+    explorer.save_design(explorer.demo_design(), f, readable=True)
+    for source in (str(f), json.dumps(DEMO), DEMO, explorer.demo_design()):
+        p = panels.explore(source, background=False, plots=False)
+        assert p.design == explorer.demo_design() and p.comparison.plots == {}
+    with pytest.raises(DesignError):  # a bad starting design is the cell's error, not a panel's
+        panels.explore({"format": "explorer-design"})

@@ -121,7 +121,7 @@ def _expected_rows(design) -> list[list[str]]:
 
 def test_explorer_in_jupyterlab(lab, browser):
     base, token, _ = lab
-    page = browser.new_page(viewport={"width": 1600, "height": 2600})
+    page = browser.new_page(viewport={"width": 1600, "height": 3000})
     outside, errors = [], []
 
     def route(r):
