@@ -769,7 +769,7 @@ def replace_fields(design: Design, changes: dict) -> Design:
     d = design_to_dict(design)
     for path, value in changes.items():
         node = d
-        parts = _split_path(path)
+        parts = split_path(path)
         for p in parts[:-1]:
             try:
                 node = node[p]
@@ -787,7 +787,8 @@ def replace_fields(design: Design, changes: dict) -> Design:
     return _design_from_dict(d)
 
 
-def _split_path(path: str) -> list:
+def split_path(path: str) -> list:
+    """The parts of a design-file path: ``"options[2].c_fly.c"`` -> ``["options", 2, "c_fly", "c"]``."""
     parts: list = []
     for piece in path.split("."):
         while "[" in piece:
@@ -818,7 +819,7 @@ def spec_at(design: Design, path: str) -> Spec:
     """
     obj: Any = design
     spec: Spec | None = None
-    for part in _split_path(path):
+    for part in split_path(path):
         if isinstance(part, int):
             if obj is design.options and 0 <= part < len(design.options):
                 obj, spec = design.options[part], None

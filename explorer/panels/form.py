@@ -24,7 +24,7 @@ from dataclasses import dataclass
 from typing import Any
 
 from ..demo import DEMO
-from ..design import (Aux, Bridge, Capacitor, Checks, Design, Driver, Gate, JunctionDiode, LinearDiode, Spec,
+from ..design import (Aux, Bridge, Capacitor, Checks, Design, Driver, Gate, JunctionDiode, LinearDiode, Spec, split_path,
                       design_to_dict, load_design, specs)
 from ..options import option_class
 from ..topology import TOPOLOGY
@@ -164,19 +164,6 @@ def _texts(node: Any) -> Any:
     return field_text(node)
 
 
-def _split(path: str) -> list:
-    parts: list = []
-    for piece in path.split("."):
-        while "[" in piece:
-            name, rest = piece.split("[", 1)
-            if name:
-                parts.append(name)
-            idx, piece = rest.split("]", 1)
-            parts.append(int(idx))
-        if piece:
-            parts.append(piece)
-    return parts
-
 
 def new_option(kind: str, design: Design | None = None) -> dict:
     """A starting point for a new option of ``kind`` (a design-file dict, readable numbers).
@@ -219,13 +206,13 @@ class DesignForm:
     # ------------------------------------------------------------------ leaves
     def get(self, path: str) -> Any:
         node: Any = self.data
-        for p in _split(path):
+        for p in split_path(path):
             node = node[p]
         return node
 
     def set(self, path: str, value: Any) -> None:
         """Set one leaf to what the user typed or picked (no validation here)."""
-        parts = _split(path)
+        parts = split_path(path)
         node: Any = self.data
         for p in parts[:-1]:
             node = node[p]
