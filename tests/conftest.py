@@ -23,3 +23,15 @@ def ngspice():
             pytest.fail("ngspice is required in CI (the test command installs it with apt-get)")
         pytest.skip("ngspice not installed; run the README's test command, which installs it")
     return path
+
+
+@pytest.fixture(scope="module")
+def browser():
+    """Headless Debian chromium through Playwright (tests/browser.py), one per test module."""
+    from playwright.sync_api import sync_playwright
+
+    from browser import launch
+    with sync_playwright() as p:
+        b = launch(p)
+        yield b
+        b.close()

@@ -28,12 +28,12 @@ import nbformat
 import pytest
 
 import explorer
+from browser import guard
 from explorer.views.table import side_by_side_rows
 
 ROOT = pathlib.Path(__file__).resolve().parents[1]
 ARTIFACT = ROOT / "build" / "test-artifacts" / "explorer-lab.png"
 README_IMAGE = ROOT / "docs" / "img" / "explorer.png"
-CHROMIUM = "/usr/bin/chromium"
 
 CELLS = [
     "from explorer.views import plots\nplots.setup_notebook()",
@@ -96,17 +96,6 @@ def lab(tmp_path_factory):
         log.close()
 
 
-@pytest.fixture(scope="module")
-def browser():
-    from playwright.sync_api import sync_playwright
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path=CHROMIUM, args=[
-            "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--disable-sync", "--no-first-run"])
-        yield b
-        b.close()
-
-
 def _table(page) -> list[list[str]]:
     rows = page.locator("table.explorer-side-by-side tr")
     return [[c.strip() for c in rows.nth(i).locator("th, td").all_inner_texts()] for i in range(rows.count())]
@@ -122,16 +111,7 @@ def _expected_rows(design) -> list[list[str]]:
 def test_explorer_in_jupyterlab(lab, browser):
     base, token, _ = lab
     page = browser.new_page(viewport={"width": 1600, "height": 3000})
-    outside, errors = [], []
-
-    def route(r):
-        if r.request.url.startswith(("http://127.0.0.1:", "ws://127.0.0.1:")):
-            r.continue_()
-        else:
-            outside.append(r.request.url)
-            r.abort()
-    page.route("**/*", route)
-    page.on("pageerror", lambda e: errors.append(str(e)))
+    outside, errors = guard(page, ("http://127.0.0.1:", "ws://127.0.0.1:"))
     page.goto(f"{base}/lab/tree/explorer.ipynb?token={token}")
     page.locator(".jp-Notebook").wait_for(timeout=60_000)
     page.get_by_text("| Idle").first.wait_for(timeout=60_000)  # the kernel exists and is idle

@@ -22,6 +22,7 @@ pytest.importorskip("bokeh")
 pytest.importorskip("playwright")
 
 import explorer  # noqa: E402
+from browser import guard  # noqa: E402
 from explorer.sweep import margin_map  # noqa: E402
 from explorer.tolerance import monte_carlo  # noqa: E402
 from explorer.views import plots  # noqa: E402
@@ -46,30 +47,9 @@ def served(tmp_path_factory):
     server.server_close()
 
 
-@pytest.fixture(scope="module")
-def browser():
-    from playwright.sync_api import sync_playwright
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path="/usr/bin/chromium", args=[
-            "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--disable-sync", "--no-first-run"])
-        yield b
-        b.close()
-
-
 def _open(browser, url):
     page = browser.new_page(viewport={"width": 1000, "height": 900})
-    outside, errors = [], []
-
-    def route(r):
-        if r.request.url.startswith("http://127.0.0.1:"):
-            r.continue_()
-        else:
-            outside.append(r.request.url)
-            r.abort()
-    page.route("**/*", route)
-    page.on("pageerror", lambda e: errors.append(str(e)))
-    page.on("console", lambda m: errors.append(m.text) if m.type == "error" else None)
+    outside, errors = guard(page, ("http://127.0.0.1:",), console_errors=True)
     page.goto(url)
     page.wait_for_load_state("load")
     return page, outside, errors

@@ -6,6 +6,7 @@ import pathlib
 import pytest
 
 import explorer
+from browser import guard
 from explorer.rules import CapacitorShare, RailMargin
 from explorer.views.report import write_report
 
@@ -13,31 +14,11 @@ NOTEBOOK = pathlib.Path(__file__).parent.parent / "notebooks" / "lv_buck_5v_aux.
 RULES = [RailMargin(option="bootstrap 220n", margin=1.0), CapacitorShare(option="bootstrap 220n", share=0.5)]
 
 
-@pytest.fixture(scope="module")
-def browser():
-    from playwright.sync_api import sync_playwright
-    with sync_playwright() as p:
-        b = p.chromium.launch(executable_path="/usr/bin/chromium", args=[
-            "--headless", "--no-sandbox", "--disable-gpu", "--disable-background-networking",
-            "--disable-component-update", "--disable-sync", "--no-first-run"])
-        yield b
-        b.close()
-
-
 def _open(browser, path):
     """Load the file with every request other than the file itself refused and recorded."""
     page = browser.new_page(viewport={"width": 1280, "height": 900})
-    outside, errors = [], []
     url = path.as_uri()
-
-    def route(r):
-        if r.request.url == url:
-            r.continue_()
-        else:
-            outside.append(r.request.url)
-            r.abort()
-    page.route("**/*", route)
-    page.on("pageerror", lambda e: errors.append(str(e)))
+    outside, errors = guard(page, lambda u: u == url)
     page.goto(url)
     page.wait_for_load_state("load")
     return page, outside, errors
