@@ -60,6 +60,7 @@ def test_slow_output_tiny_esr_conserves_charge_and_energy():
 # the current integrals of S·z lost 2.8e-8 of the balance before the integral about the phase equilibrium
 @settings(max_examples=60, deadline=None)
 @example(ratio="1:1", lc=-9.0, lco=-3.0, lr=-2.5, lesr=-3.0, lesro=0.0, lrl=1.0, lf=3.0, dead=0.0)
+@example(ratio="1:2", lc=-5.0, lco=-3.0, lr=0.0, lesr=0.0, lesro=0.0, lrl=6.0, lf=7.0, dead=0.0)
 @given(ratio=st.sampled_from(sorted(CIRCUITS)), lc=st.floats(-9, -5), lco=st.floats(-7, -3),
        lr=st.floats(-3, 2), lesr=st.floats(-6, 0), lesro=st.floats(-6, 0), lrl=st.floats(1, 6),
        lf=st.floats(3, 7), dead=st.floats(0, 0.2))
@@ -67,4 +68,11 @@ def test_charge_balance_over_wide_value_spreads(ratio, lc, lco, lr, lesr, lesro,
     f = 10 ** lf
     i_in, m_i_out = balance(ratio, c_fly=10 ** lc, r_on=10 ** lr, esr_fly=10 ** lesr, c_out=10 ** lco,
                             esr_out=10 ** lesro, r_load=10 ** lrl, f_cp=f, dead=dead / f, v_in=12.0, i_load=1e-3)
-    assert_allclose(i_in, m_i_out, rtol=1e-8, atol=1e-15)
+    # The output's time constant R_load*C_out spans kappa = f*R_load*C_out periods (up to 1e10 here): the
+    # periodic solve inverts (1 - Phi) with Phi within 1/kappa of identity, so round-off grows like
+    # kappa*u (relative error <~ condition number x unit round-off; Higham, "Accuracy and Stability of
+    # Numerical Algorithms", 2nd ed., ch. 7). Measured: 4.2e-8 at kappa = 1e10 (1:2 corner above),
+    # 1.3e-11 at kappa = 1e5. The allowance is a tenth of kappa*u on top of 1e-8, so an algorithmic loss
+    # like the 2.8e-8 one above (kappa = 10) still fails.
+    kappa = f * 10 ** lrl * 10 ** lco
+    assert_allclose(i_in, m_i_out, rtol=1e-8 + 0.1 * 2.2e-16 * kappa, atol=1e-15)
