@@ -250,13 +250,16 @@ def test_loss_sources_are_the_loss_split(comparisons, name):
     assert dict(zip(ov["label"], ov["overhead"])) == {r.label: r.overhead for r in c.options}
 
 
-def test_loss_split_of_the_pumps_and_module_adds_up_to_the_overhead(comparisons):
-    # energy conservation (overhead = drawn − delivered): the plotted stack reaches the tick
+def test_loss_split_of_every_option_adds_up_to_the_overhead(comparisons):
+    # energy conservation (overhead = drawn − delivered): the plotted stack reaches the tick. The pumps and
+    # the module close to rounding (1e-8 allowed); the bootstrap's split leaves out the rail part of its
+    # leakage (1.2e-5 of the overhead on the demo's 1 uA leak; DEVELOPERS.md), so it is held to 1e-4
     p = plots.loss_plot(comparisons["demo"])
     seg, ov = p.sources["segments"].data, p.sources["overhead"].data
+    kinds = {r.label: r.kind for r in comparisons["demo"].options}
     for lab, overhead in zip(ov["label"], ov["overhead"]):
         top = max(t for t, x in zip(seg["top"], seg["label"]) if x == lab)
-        assert top == pytest.approx(overhead, rel=2e-3), lab
+        assert top == pytest.approx(overhead, rel=1e-4 if kinds[lab] == "bootstrap" else 1e-8), lab
 
 
 # --------------------------------------------------------------------------- margin map, Monte Carlo

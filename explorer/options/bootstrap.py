@@ -1275,13 +1275,19 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     e_cj = cj_edges.dissipated * T
     e_lk = circ.i_leak * b.v_bus * t_high
     p_bus = (e_rr + e_cj + e_lk + e_sw) / T
+    v_step = 0.5 * (orb.v_pre + orb.v_start)  # rail voltage of a charge step: Q·(V_pre + V_post)/2
+    # C_j's charge leaves C_boot at one edge and returns at the next at another rail voltage (the rail
+    # droops in between): Q·(V_pre + V_post)/2 per step, the energy of a capacitor's charge step. The
+    # sum is what the rail hands the power stage through C_j; drawn, not delivered, not dissipated here.
+    e_cj_rail = float(np.sum(circ.c_j * (lev - prev_l) * v_step))
     e_gate = float(np.sum((circ.q_on * sched.hs_turn_on + circ.q_off * sched.hs_turn_off)
                           * 0.5 * (orb.v_pre + orb.v_start)))  # gate and both level-shift pulses
     e_q = circ.i_q * float(np.sum(ints["int_v"]))
     e_g = float(np.sum(ints["e_load"] - loop.i_load * ints["int_v"]))
     p_del = (e_gate + e_q + e_g) / T
     losses = {"resistor": float(np.sum(ints["e_r"])) / T, "diode": float(np.sum(ints["e_d"])) / T,
-              "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T}
+              "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T,
+              "junction_exchange": e_cj_rail / T}
     eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
     if collapsed:  # a collapsed rail: the power figures of the model do not hold
         eff = None
