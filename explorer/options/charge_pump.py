@@ -81,6 +81,7 @@ from ..engines.periodic import PeriodicSolution, periodic_steady_state
 from ..engines.transient import MAX_STARTUP_CYCLES, StartupTransient
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, load_power, required_rail
+from ..memo import memoised
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import period_schedule
@@ -313,8 +314,12 @@ def r_out_limits(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0
     raise DesignError("method", "expected 'exact', 'sqrt', 'ssl' or 'fsl'", method)
 
 
+@memoised(maxsize=128)
 def r_out_engine(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0):
     """R_out from the engine: the output held by an ideal source, R_out = −∂V_out/∂I_out [Ω].
+
+    With plain float arguments the result is remembered between evaluations (:mod:`explorer.memo`;
+    it does not depend on the load).
 
     Batched over ``f_cp``, ``c_fly``, ``r_on``, ``esr_fly`` and ``dead_time_cp``
     (arrays that broadcast together; element values batch the engine's
@@ -975,7 +980,7 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     v_min, v_max = rail["v_min"], rail["v_max"]
     power = _power(design, option, pump, sched, load, ss)
     # start-up from 0 V by pump cycles (HS pulses withheld, only I_Q drawn)
-    st = _startup(pump, pump.v_in, design, from_aux=option.v_in is None, net=ss.net if load.r_eq is None else None)
+    st = _startup(pump, pump.v_in, design, from_aux=option.v_in is None)
     caps, cap_checks = _capacitor_stress(design, option, pump, load, ss, rail, st)
     v_block, sw_checks, warn = _switch_block(design, option, pump.v_in)
     duty, lim = _duty_limits(design, pump, load, ss, rail)
@@ -1034,7 +1039,7 @@ def _switch_current(option: ChargePumpOption, ss, st: dict) -> list:
                   "pump switches' peak current (start-up inrush, steady peak) within their rating")]
 
 
-def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Network | None = None) -> dict:
+def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool) -> dict:
     """Start-up from dead capacitors, by pump cycles, to the UVLO rising threshold.
 
     Before the rail reaches UVLO the HS pulses are withheld, so only the
@@ -1046,16 +1051,34 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
     number of batched evaluations that grows with log N, not N. The stress
     figures (capacitor voltages, switch and capacitor currents) are the extremes
     over the whole start-up transient, its settling included.
+
+    The transient depends on the pump, V_in, I_Q and UVLO-on only, not on the bridge, so
+    :func:`_startup_transient` is remembered between evaluations (:mod:`explorer.memo`): a sweep or a
+    panel change of f_sw, duty or the gate reuses it.
     """
-    circ = pump.circ
-    if net is None:  # the steady state's network has the R_GS share as a resistor: not before UVLO
-        net = pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
-                           c_out=pump.c_out, esr_out=pump.esr_out)
-    u = np.array([v_in, design.driver.i_q])
-    thr = design.driver.uvlo_on
-    T = float(pump.durations.sum())
-    tr = StartupTransient(net, pump.durations, u)
-    k_cross, t_cross = tr.first_reach("v(out)", thr)
+    d = pump.durations
+    core = _startup_transient(pump.circ.ratio, float(pump.c_fly), float(pump.r_on), float(pump.esr_fly),
+                              float(pump.c_out), float(pump.esr_out), tuple(float(x) for x in d), float(v_in),
+                              float(design.driver.i_q), float(design.driver.uvlo_on))
+    v_dd_dip = None
+    if from_aux:  # the first cycle's charge taken from C_DD before the aux regulator responds
+        v_dd_dip = float(max(core["q_first"], 0.0) / design.aux.c_dd)
+    stp = dataclasses.replace(core["startup"], v_dd_dip=v_dd_dip)
+    return {"startup": stp, "x_max": dict(core["x_max"]), "i_peak": core["i_peak"],
+            "i_cap_peak": dict(core["i_cap_peak"]), "v_final": core["v_final"]}
+
+
+@memoised(maxsize=64)
+def _startup_transient(ratio: str, c_fly: float, r_on: float, esr_fly: float, c_out: float, esr_out: float,
+                       durations: tuple, v_in: float, i_q: float, uvlo_on: float) -> dict:
+    """The start-up transient of :func:`_startup` (a pure function of plain values, so remembered)."""
+    net = pump_network(ratio, c_fly=c_fly, r_on=r_on, esr_fly=esr_fly, output="load", c_out=c_out,
+                       esr_out=esr_out)
+    u = np.array([v_in, i_q])
+    d = np.array(durations)
+    T = float(d.sum())
+    tr = StartupTransient(net, d, u)
+    k_cross, t_cross = tr.first_reach("v(out)", uvlo_on)
     names = ["x(c_fly)", "x(c_out)"] + list(SWITCHES) + ["i(c_fly)", "i(c_out)", "v(out)"]
     lo, hi = tr.extrema(names)
     mag = np.maximum(hi, -lo)
@@ -1072,12 +1095,10 @@ def _startup(pump: _Pump, v_in: float, design: Design, from_aux: bool, net: Netw
     k_last = net.probe_rows(["v(out)"])[-1, 0, :]
     v_tr = tr.states(kk + 1) @ k_last[:net.n_x] + k_last[net.n_x:] @ u
     q_first = -float(tr.cycles([0]).integral(["i(v_in)"])[0, 0])
-    v_dd_dip = None
-    if from_aux:  # the first cycle's charge taken from C_DD before the aux regulator responds
-        v_dd_dip = float(max(q_first, 0.0) / design.aux.c_dd)
     stp = Startup(t_uvlo=t_cross, cycles_uvlo=None if k_cross is None else k_cross + 1, i_peak=i_peak,
-                  v_dd_dip=v_dd_dip, t=(kk + 1) * T, v=v_tr)
-    return {"startup": stp, "x_max": x_max, "i_peak": i_peak, "i_cap_peak": i_cap, "v_final": float(hi[8])}
+                  v_dd_dip=None, t=(kk + 1) * T, v=v_tr)
+    return {"startup": stp, "x_max": x_max, "i_peak": i_peak, "i_cap_peak": i_cap, "v_final": float(hi[8]),
+            "q_first": q_first}
 
 
 def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pulse, n_on, t_a, req, *,
