@@ -8,6 +8,7 @@ from dataclasses import dataclass
 
 from .design import Design, load_design
 from .errors import DesignError, ModelValidityWarning
+from .memo import Memory
 from .options import supply_model
 from .results import OptionResult, clean, plausibility
 from .schedule import schedule_validity
@@ -157,11 +158,48 @@ def evaluate(design, *, rank: str = "overhead") -> Comparison:
             results.append(OptionResult.failed(opt.label, opt.kind,
                                                f"the {opt.kind} model is not available in this version"))
             continue
-        r = plausibility(model.evaluate(d, opt))
+        r = option_result(model, d, opt)
         if r.checks and r.checks[-1].name == "rail_plausible":
             warnings.warn(r.warnings[-1], ModelValidityWarning, stacklevel=2)
         results.append(r)
     return Comparison(d, tuple(results), rank)
+
+
+#: Option results by (model, option, the design's other fields): an option's figures depend on the
+#: design and on the option itself, never on the other options, so a change to one option (a panel
+#: typing a new C_boot) leaves the others' results as they were (:mod:`explorer.memo`).
+_RESULTS = Memory("option results", maxsize=64)
+
+
+def _result_key(model, design: Design, option):
+    """The key of an option's result, or None where something in it cannot be hashed."""
+    key = (model, option, design.title, design.bridge, design.gate, design.driver, design.aux, design.checks,
+           design.spread)
+    try:
+        hash(key)
+    except TypeError:
+        return None
+    return key
+
+
+def _computed(model, design: Design, option) -> tuple:
+    """The option's result and every warning its evaluation gave (recorded whatever the filters are)."""
+    with warnings.catch_warnings(record=True) as caught:
+        warnings.simplefilter("always")
+        r = plausibility(model.evaluate(design, option))
+    return r, tuple((w.message, w.category) for w in caught)
+
+
+def option_result(model, design: Design, option) -> OptionResult:
+    """One option's result (:meth:`SupplyModel.evaluate` and :func:`~explorer.results.plausibility`),
+    remembered between calls; the warnings of its evaluation are given again on every call, through
+    the caller's warning filters, as if it had been computed afresh."""
+    key = _result_key(model, design, option)
+    r, caught = _computed(model, design, option) if key is None else _RESULTS.get(
+        key, lambda: _computed(model, design, option))
+    for message, category in caught:
+        warnings.warn(message, category, stacklevel=3)
+    return r
 
 
 __all__ += ["CAUTION", "clean", "topology_text"]

@@ -12,6 +12,10 @@ Each grid point is a complete, re-validated design evaluated with the same
 models as :func:`explorer.evaluate`, so a sweep value equals the point's
 ``evaluate`` result exactly. A grid point whose design is invalid (e.g. a
 buck output above the bus) gives NaN figures and its reason in ``invalid``.
+The points share :mod:`explorer.memo`: an option whose own fields and the
+design's common fields are those of an earlier point is not evaluated again
+(a grid over two options' fields evaluates each option once per value of its
+own axis), and a pump's start-up and R_out are reused across bridge changes.
 For the headline rail-margin map over f_sw × duty there is a vectorised fast
 path, :func:`margin_map`.
 """
