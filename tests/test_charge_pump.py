@@ -10,7 +10,8 @@ from numpy.testing import assert_allclose
 
 from explorer import demo_design, replace_field
 from explorer.errors import DesignError, ModelValidityWarning
-from explorer.options.charge_pump import (CIRCUITS, evaluate_option, pulse_train_extremes, pump_durations,
+from explorer.options.charge_pump import (CIRCUITS, evaluate_option, pulse_schedule_extremes, pulse_train_extremes,
+                                          pump_durations,
                                           pump_network, r_fsl, r_out_engine, r_out_exact, r_out_limits,
                                           r_out_sqrt, r_ssl, rail_from_r_out)
 from explorer.engines.periodic import periodic_steady_state
@@ -135,6 +136,102 @@ def test_pulse_train_extremes_against_direct_recurrence():
     assert_allclose([y_min, y_max], [y - q / c, y], rtol=1e-9)
     # limits: sawtooth ±q/2C for τ ≫ t_p
     assert_allclose(pulse_train_extremes(q, c, 1e9, tp), (-q / (2 * c), q / (2 * c)), rtol=1e-3)
+
+
+def _rc_impulse_train_by_scipy(t_k, q_k, c, r, t_a):
+    """The averaged rail (R to a source at 0 V, C) loaded by the zero-mean pulse train, integrated by scipy's
+    solve_ivp between the pulses (each pulse a step of -q/C). The circuit is linear, so one period maps
+    y0 to alpha*y0 + beta: two integrated periods give alpha and beta, the periodic state is
+    beta/(1 - alpha), and a third period from it gives the values just after and before each pulse."""
+    from scipy.integrate import solve_ivp
+    i_dc = sum(q_k) / t_a
+    ts = list(t_k) + [t_a]
+
+    def period(y):
+        after, before, t_prev = [], [], 0.0
+        for k, t in enumerate(ts):
+            if t > t_prev:
+                sol = solve_ivp(lambda _t, v: [(i_dc - v[0] / r) / c], (t_prev, t), [y], method="LSODA",
+                                rtol=1e-12, atol=1e-16)
+                y = float(sol.y[0, -1])
+            if k < len(t_k):
+                before.append(y)
+                y -= q_k[k] / c
+                after.append(y)
+            t_prev = t
+        return y, np.array(after), np.array(before)
+
+    beta = period(0.0)[0]
+    alpha = period(1.0)[0] - beta
+    _, after, before = period(beta / (1.0 - alpha))
+    return after, before
+
+
+@pytest.mark.parametrize("tau_over_t", [0.05, 0.6, 3.0, 40.0])
+def test_pulse_schedule_extremes_against_scipy_integration(tau_over_t):
+    # an irregular train (set and reset pulses of a 30 % duty leg, one period with a dropped pulse): the
+    # closed form against scipy's solve_ivp of the same RC circuit (first-order circuit, integrated)
+    t_a = 10e-6
+    t_k = [0.0, 1.5e-6, 5e-6, 6.6e-6]
+    q_k = [25e-9, 2e-9, 0.0, 2e-9]
+    c = 1e-6
+    r = tau_over_t * t_a / c
+    after, before = _rc_impulse_train_by_scipy(t_k, q_k, c, r, t_a)
+    y_min, y_max = pulse_schedule_extremes(t_k, q_k, c, r, t_a)
+    scale = sum(q_k) / c
+    assert abs(y_min - after.min()) <= 1e-8 * scale
+    assert abs(y_max - before.max()) <= 1e-8 * scale
+    # the array path (samples on a leading axis) gives the same
+    lo, hi = pulse_schedule_extremes(np.array(t_k), np.array([q_k, q_k]), np.array([c, c]), np.array([r, r]), t_a)
+    assert_allclose(lo, y_min, rtol=1e-12, atol=1e-18)
+    assert_allclose(hi, y_max, rtol=1e-12, atol=1e-18)
+
+
+def test_pulse_schedule_extremes_reduce_to_the_equal_pulse_closed_form():
+    # equal pulses at equal spacing: pulse_train_extremes (the textbook closed form, checked above)
+    q, c, r = 20e-9, 1e-6, 3.0
+    for m in (1, 2, 5, 40):
+        t_p = 5e-6
+        got = pulse_schedule_extremes(np.arange(m) * t_p, np.full(m, q), np.array(c), np.array(r), m * t_p)
+        assert_allclose(got, pulse_train_extremes(q, c, r, t_p), rtol=1e-12)
+        got = pulse_schedule_extremes(tuple(float(x) for x in np.arange(m) * t_p), (q,) * m, c, r, m * t_p)
+        assert_allclose(got, pulse_train_extremes(q, c, r, t_p), rtol=1e-12)
+    # τ ≫ t_a: the sawtooth ±q/2C (both paths)
+    assert_allclose(pulse_schedule_extremes([0.0], [q], c, 1e12, 5e-6), (-q / (2 * c), q / (2 * c)), rtol=1e-6)
+    assert_allclose(pulse_schedule_extremes(np.array([0.0]), np.array([q]), np.array(c), np.array(1e12), 5e-6),
+                    (-q / (2 * c), q / (2 * c)), rtol=1e-6)
+
+
+def test_reset_pulse_enters_the_rail_at_its_instant(demo):
+    # the pump's rail extremes are its own ripple plus the response to the schedule's pulses: the set pulse
+    # Q_G + Q_LS at each HS turn-on and the reset pulse Q_LS at each turn-off, at their instants
+    from explorer.options.charge_pump import resolve_pump
+    from explorer.schedule import period_schedule
+    d = replace_field(demo, "gate.r_gs", None)  # R_th = R_out
+    o = d.options[1]
+    pump = resolve_pump(d, o, "nominal")
+    T = 1 / d.bridge.f_sw
+    # Q_LS = 0: the turn-ons alone, one per period, the equal-pulse closed form
+    d0 = replace_field(d, "driver.q_ls", 0.0)
+    r = evaluate_option(d0, o)
+    lo, hi = pulse_train_extremes(d0.gate.q_g, pump.c_out, r.r_out, T)
+    assert_allclose(r.v_rail.min - r.details.v_pump_min, lo, rtol=1e-9)
+    assert_allclose(r.v_rail.max - r.details.v_pump_max, hi, rtol=1e-9)
+    # Q_LS = 1 nC: set and reset pulses where the schedule puts them
+    r = evaluate_option(d, o)
+    s = period_schedule(d)
+    t_on, t_off = s.t_start[s.hs_turn_on], s.t_start[s.hs_turn_off]
+    assert t_on.size == t_off.size == 1 and 0 < t_off[0] - t_on[0] < T
+    q_ls = d.driver.q_ls
+    lo, hi = pulse_schedule_extremes([t_on[0], t_off[0]], [d.gate.q_g + q_ls, q_ls], pump.c_out, r.r_out, T)
+    assert_allclose(r.v_rail.min - r.details.v_pump_min, lo, rtol=1e-9)
+    assert_allclose(r.v_rail.max - r.details.v_pump_max, hi, rtol=1e-9)
+    # against the reset charge taken as a steady current (the turn-ons alone in the pulse train): drawn
+    # (1 - D)·T = 3/4 of a period before the next set pulse, it has recovered by then; with τ = R_out·C_out
+    # well above T the train is nearly a sawtooth, whose value at age 3/4 is +(3/4 - 1/2)·q_ls/C_out
+    lo_on, _ = pulse_train_extremes(d.gate.q_g + q_ls, pump.c_out, r.r_out, T)
+    assert r.r_out * pump.c_out > 4 * T
+    assert 0.2 * q_ls / pump.c_out < lo - lo_on < 0.3 * q_ls / pump.c_out
 
 
 def test_rail_from_r_out_matches_engine_mean(demo):

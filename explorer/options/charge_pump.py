@@ -40,14 +40,17 @@ path for sweeps; the engine's exact R_out (output held by an ideal source, the
 paper's definition) equals it.
 
 Real load and the asynchronous PWM. The rail's load is the average current
-I = I_Q + n_on·(Q_G + Q_LS)/T_a + (V/R_GS)·t_on/T_a over the bridge schedule
-(:mod:`explorer.loads`), plus the pulse Q = Q_G + Q_LS drawn from C_out at each
-HS turn-on. The PWM and the pump clock are not synchronised, so the rail is
-split by superposition (the network is linear): (1) the pump's periodic steady
-state under the average load, from the engine; (2) the zero-mean pulse train
-(−Q at each turn-on, +Q/T_p between) through the pump's averaged output model
-(R_out with C_out), whose periodic response has the closed-form extremes of
-:func:`pulse_train_extremes`. Worst-case phase: the pulse dip is placed at the
+I = I_Q + (n_on·(Q_G + Q_LS) + n_off·Q_LS)/T_a + (V/R_GS)·t_on/T_a over the bridge
+schedule (:mod:`explorer.loads`), plus the pulses drawn from C_out: the set pulse
+Q_G + Q_LS at each HS turn-on and the level shifter's reset pulse Q_LS at each
+turn-off, at the instants the schedule gives them. The PWM and the pump clock
+are not synchronised, so the rail is split by superposition (the network is
+linear): (1) the pump's periodic steady state under the average load, from the
+engine; (2) the zero-mean pulse train (each pulse at its instant, their mean as
+a steady current) through the pump's averaged output model (R_out with C_out),
+whose periodic response has the closed-form extremes of
+:func:`pulse_schedule_extremes` (:func:`pulse_train_extremes` for equal pulses
+at equal spacing). Worst-case phase: the pulse dip is placed at the
 pump ripple's minimum and its peak at the pump ripple's maximum, so
 V_min = min(pump) + y_min and V_max = max(pump) + y_max, meant as a bound over
 every relative phase of the two clocks. It is one to within a few % of the pulse
@@ -75,6 +78,7 @@ from ..roots import brentq
 from .. import common_mode as cm
 from ..capacitors import capacitance, parse_dielectric
 from ..design import ChargePumpOption, Design
+from ..engines.affine import affine_scan
 from ..engines.elements import Cap, ISrc, Res, VSrc
 from ..engines.network import Network
 from ..engines.periodic import PeriodicSolution, periodic_steady_state
@@ -91,7 +95,7 @@ from .base import SupplyModel
 
 __all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
            "r_out_exact", "r_out_sqrt", "r_out_limits", "r_out_engine", "rail_from_r_out",
-           "pulse_train_extremes", "pump_validity", "pull_down_sag", "longest_on_time", "evaluate_option",
+           "pulse_train_extremes", "pulse_schedule_extremes", "pump_validity", "pull_down_sag", "longest_on_time", "evaluate_option",
            "rail_min_batch"]
 
 PHI1, DEAD1, PHI2, DEAD2 = 0, 1, 2, 3
@@ -409,6 +413,105 @@ def pulse_train_extremes(q, c_out, r_th, t_p):
     return y_min, y_max
 
 
+def pulse_schedule_extremes(t_k, q_k, c_out, r_th, t_a):
+    """Extremes of the rail's response to a periodic train of charge pulses at given instants [V].
+
+    The generalisation of :func:`pulse_train_extremes` to pulses of their own
+    charge at their own instants: ``q_k`` [C] drawn from C_out at ``t_k`` [s] in
+    each period ``t_a`` (the HS turn-ons with Q_G + Q_LS and the turn-offs with
+    the level shifter's reset Q_LS, as the schedule places them), plus their
+    mean Q/t_a as a constant current (zero mean), through the averaged source
+    R_th and C_out (τ = R_th·C_out, a = t_a/τ). Superposing the periodic
+    response of one pulse train (first-order RC response, any circuit-theory
+    textbook; :func:`pulse_train_extremes` is its equal-pulse case),
+
+        y(t_i⁺) = Q/(C·a) − W_i / (C·(1 − e^{−a})),   W_i = Σ_k q_k·e^{−age_ik/τ},
+
+    with age_ik = (t_i − t_k) mod t_a, and y(t_i⁻) = y(t_i⁺) + q_i/C. Between
+    pulses y relaxes monotonically toward R_th·Q/t_a, so the minimum is just
+    after a pulse and the maximum just before one. W is the periodic solution
+    of W_i = e^{−(t_i − t_{i−1})/τ}·W_{i−1} + q_i, found with one prefix
+    composition of those affine maps (:func:`explorer.engines.affine.affine_scan`,
+    O(m) for m pulses). For a < 1e-6 the first-order sawtooth
+    y(t_i⁺) = Σ_k (q_k/C)·(age_ik/t_a − ½) is used (the two terms above cancel).
+
+    Parameters
+    ----------
+    t_k : array (m,) [s]
+        Pulse instants within the period, ascending, in [0, t_a).
+    q_k : array (..., m) [C]
+        Charge of each pulse (leading dimensions: samples).
+    c_out, r_th : float or array (...) [F], [Ω]
+    t_a : float [s]
+        Period of the train.
+
+    Returns
+    -------
+    y_min, y_max : float or array (...) [V]
+    """
+    if (len(t_k) <= _SCALAR_PULSES and all(type(v) is float for v in (c_out, r_th, t_a))
+            and all(type(v) is float for v in q_k)):
+        return _pulse_schedule_scalar(t_k, q_k, c_out, r_th, t_a)
+    t = np.asarray(t_k, dtype=float)
+    q = np.asarray(q_k, dtype=float)
+    c = np.asarray(c_out, dtype=float)[..., None]
+    tau = np.asarray(r_th, dtype=float)[..., None] * c
+    if t.size == 0:
+        z = np.zeros(np.broadcast_shapes(q.shape[:-1], c.shape[:-1]))
+        return (0.0, 0.0) if z.ndim == 0 else (z, z)
+    q_tot = q.sum(axis=-1, keepdims=True)
+    a = t_a / tau
+    gap = np.diff(t, prepend=t[-1] - t_a)  # the gap before each pulse, the first one's across the period
+    e = np.exp(-gap / tau)
+    A, B = affine_scan(*np.broadcast_arrays(e, q))
+    w_last = B[..., -1:] / -np.expm1(-a)  # the fixed point after the last pulse (A[..., -1] = e^{-a})
+    s_plus = A * w_last + B  # W_i/(1 − e^{−a}) just after each pulse
+    y_plus = (q_tot / a - s_plus) / c
+    small = a < 1e-6
+    if np.any(small):  # the sawtooth: Σ_k q_k·(age_ik/t_a − ½), from cumulative sums over the ordered pulses
+        later = q_tot - np.cumsum(q, axis=-1)  # Σ_{k>i} q_k
+        saw = (t * q_tot - np.sum(q * t, axis=-1, keepdims=True) + t_a * later) / t_a - 0.5 * q_tot
+        y_plus = np.where(small, saw / c, y_plus)
+    y_min = np.min(y_plus, axis=-1)
+    y_max = np.max(y_plus + q / c, axis=-1)
+    if np.ndim(y_min) == 0:
+        return float(y_min), float(y_max)
+    return y_min, y_max
+
+
+#: Pulses per period up to which :func:`pulse_schedule_extremes` runs on plain floats (the load-limit
+#: searches call it many times for one or two pulses per switching period).
+_SCALAR_PULSES = 16
+
+
+def _pulse_schedule_scalar(t_k, q_k, c: float, r: float, t_a: float) -> tuple[float, float]:
+    """:func:`pulse_schedule_extremes` for a few pulses and plain floats: the same recurrence, in order."""
+    m = len(t_k)
+    if m == 0:
+        return 0.0, 0.0
+    tau = r * c
+    a = t_a / tau
+    q_tot = math.fsum(q_k)
+    e = [math.exp(-((t_k[i] - t_k[i - 1]) if i else (t_k[0] - t_k[-1] + t_a)) / tau) for i in range(m)]
+    b = 0.0
+    for i in range(m):
+        b = e[i] * b + q_k[i]
+    w = b / -math.expm1(-a)  # the fixed point just after the last pulse
+    if a < 1e-6:  # the sawtooth (module function's notes)
+        later = q_tot
+        qt = math.fsum(qk * tk for qk, tk in zip(q_k, t_k))
+        ys = []
+        for i in range(m):
+            later -= q_k[i]
+            ys.append(((t_k[i] * q_tot - qt + t_a * later) / t_a - 0.5 * q_tot) / c)
+    else:
+        ys = []
+        for i in range(m):
+            w = e[i] * w + q_k[i]
+            ys.append((q_tot / a - w) / c)
+    return min(ys), max(y + qk / c for y, qk in zip(ys, q_k))
+
+
 # --------------------------------------------------------------------------- model validity
 
 #: Common practice, no source: an event the model treats as instantaneous (a switch-node edge: the domain
@@ -651,6 +754,16 @@ class _Load:
     r_eq: float | None
     n_off: int = 0
     q_off: float = 0.0
+    t_pulse: tuple = ()
+    on_pulse: tuple = ()
+
+    def pulse_charges(self, q_on=None):
+        """Charge of each pulse [C]: ``q_on`` (default q_pulse; an array of samples gives (..., m)) at the
+        turn-ons, q_off at the turn-offs."""
+        q_on = self.q_pulse if q_on is None else q_on
+        if type(q_on) is float:
+            return tuple(q_on if on else self.q_off for on in self.on_pulse)
+        return np.where(np.array(self.on_pulse, dtype=bool), np.asarray(q_on, dtype=float)[..., None], self.q_off)
 
 
 def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
@@ -666,8 +779,17 @@ def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
     i0 = i_q + (n_on * q_pulse + n_off * q_off) / t_a
     r_gs = design.gate.r_gs
     g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
+    # the pulses where the schedule places them: set pulse (Q_G + Q_LS) at each turn-on, reset pulse at each
+    # turn-off (left out when Q_LS = 0)
+    on = sched.hs_turn_on
+    off = sched.hs_turn_off if q_off > 0 else np.zeros_like(on)
+    t0 = sched.t_start
+    idx = np.flatnonzero(on | off)
+    if type(q_pulse) is not float:
+        q_pulse = np.asarray(q_pulse, dtype=float)
     return _Load(t_a=t_a, n_on=n_on, q_pulse=q_pulse, i0=i0, g_load=g_load,
-                 r_eq=1.0 / g_load if g_load > 0 else None, n_off=n_off, q_off=q_off)
+                 r_eq=1.0 / g_load if g_load > 0 else None, n_off=n_off, q_off=float(q_off),
+                 t_pulse=tuple(float(x) for x in t0[idx]), on_pulse=tuple(bool(x) for x in on[idx]))
 
 
 def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
@@ -697,9 +819,9 @@ def _rail_bounds(sol, pump: _Pump, load: _Load, r_out, pump_extrema=None) -> dic
     already at hand.
     """
     lo, hi = (a[..., 0] for a in sol.extrema(["v(out)"])) if pump_extrema is None else pump_extrema
-    if load.n_on > 0:
+    if load.t_pulse:
         r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
-        y_min, y_max = pulse_train_extremes(load.q_pulse, pump.c_out, r_th, load.t_a / load.n_on)
+        y_min, y_max = pulse_schedule_extremes(load.t_pulse, load.pulse_charges(), pump.c_out, r_th, load.t_a)
     else:
         y_min = y_max = 0.0
     out = {"v_pump_min": lo, "v_pump_max": hi, "y_min": y_min, "y_max": y_max,
@@ -859,8 +981,7 @@ def _switch_block(design: Design, option: ChargePumpOption, v_in: float) -> tupl
 def _duty_limits(design: Design, pump: _Pump, load: _Load, ss: _PumpSteady, rail: dict) -> tuple[DutyLimits, dict]:
     """Duty and load limits: any HS duty while the rail holds; the highest f_sw and Q_G (and those limits)."""
     req = required_rail(design)
-    lim = _load_limits(design, pump, pump.circ, ss.r_out, rail["v_pump_min"], ss.v_mean, load.i0, load.g_load,
-                       load.q_pulse, load.n_on, load.t_a, req, n_off=load.n_off, q_off=load.q_off)
+    lim = _load_limits(design, pump, ss.r_out, rail["v_pump_min"], ss.v_mean, load, req)
     feasible_duty = rail["v_min"] >= req
     duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
                       t_ls_min=None,
@@ -1101,8 +1222,8 @@ def _startup_transient(ratio: str, c_fly: float, r_on: float, esr_fly: float, c_
             "q_first": q_first}
 
 
-def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pulse, n_on, t_a, req, *,
-                 n_off=0, q_off=0.0) -> dict:
+def _load_limits(design: Design, pump: _Pump, r_out: float, v_pump_min: float, v_mean: float, load: _Load,
+                 req: float) -> dict:
     """Highest leg frequency and highest Q_G at which the rail minimum stays at the requirement.
 
     The frequency is f_sw, or f_line on a leg that switches at line frequency (the analysis
@@ -1111,25 +1232,27 @@ def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pu
 
     Averaged model (:func:`rail_from_r_out`) with the pump ripple below the mean
     scaled with the load current (it is proportional to it in the linear
-    network) and the exact pulse-train dip (:func:`pulse_train_extremes`). The
-    schedule's shape (duty, turn-ons per period) is kept as f_sw scales.
+    network) and the exact pulse-train dip of the schedule's pulses
+    (:func:`pulse_schedule_extremes`). The schedule's shape (duty, pulse instants as shares of the
+    period) is kept as f_sw scales.
     """
-    i_tot = i0 + v_mean * g_load
+    n_on, t_a, g_load = load.n_on, load.t_a, load.g_load
+    i_tot = load.i0 + v_mean * g_load
     ripple_per_amp = (v_mean - v_pump_min) / i_tot if i_tot > 0 else 0.0
-    r_eq = 1.0 / g_load if g_load > 0 else None
-    r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
+    r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
     i_q = design.driver.i_q
 
     def v_min(q, scale):
         """Rail minimum with charge q per turn-on and the bridge frequency scaled by `scale`."""
-        ia = i_q + (n_on * q + n_off * q_off) * scale / t_a
-        vm = float(rail_from_r_out(pump.v_in, r_out, ia, ratio=circ.ratio, g_load=g_load))
+        ia = i_q + (n_on * q + load.n_off * load.q_off) * scale / t_a
+        vm = float(rail_from_r_out(pump.v_in, r_out, ia, ratio=pump.circ.ratio, g_load=g_load))
         it = ia + vm * g_load
-        dip = 0.0
-        if n_on > 0 and q > 0 and scale == 0:
-            dip = q / pump.c_out  # pulses far apart: each one a full step q/C_out
-        elif n_on > 0 and q > 0:
-            dip = -pulse_train_extremes(q, pump.c_out, r_th, t_a / (n_on * scale))[0]
+        charges = load.pulse_charges(float(q))
+        if scale == 0:  # pulses far apart: each one a full step of its own charge on C_out
+            dip = max(max(charges, default=0.0), 0.0) / pump.c_out
+        else:
+            dip = -pulse_schedule_extremes(tuple(t / scale for t in load.t_pulse), charges, pump.c_out, r_th,
+                                           t_a / scale)[0]
         return vm - ripple_per_amp * it - dip
 
     def solve(fn):
@@ -1143,9 +1266,9 @@ def _load_limits(design, pump, circ, r_out, v_pump_min, v_mean, i0, g_load, q_pu
         return brentq(fn, 0.0, hi, xtol=1e-9 * hi, rtol=1e-10)
 
     if n_on == 0:  # no HS turn-on: the gate charge never loads the rail
-        return ({"f_sw_max": None, "q_g_max": None} if v_min(q_pulse, 0.0) >= req
+        return ({"f_sw_max": None, "q_g_max": None} if v_min(load.q_pulse, 0.0) >= req
                 else {"f_sw_max": 0.0, "q_g_max": 0.0})
-    s = solve(lambda sc: v_min(q_pulse, sc) - req)
+    s = solve(lambda sc: v_min(load.q_pulse, sc) - req)
     f_sw_max = None if s is None else s * analysis_frequency(design.bridge)
     qm = solve(lambda x: v_min(design.driver.q_ls + x * design.gate.q_g, 1.0) - req)
     q_g_max = None if qm is None else qm * design.gate.q_g
