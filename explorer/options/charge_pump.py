@@ -449,8 +449,8 @@ def pulse_schedule_extremes(t_k, q_k, c_out, r_th, t_a):
     -------
     y_min, y_max : float or array (...) [V]
     """
-    if (len(t_k) <= _SCALAR_PULSES and all(type(v) is float for v in (c_out, r_th, t_a))
-            and all(type(v) is float for v in q_k)):
+    if (type(q_k) is tuple and len(q_k) <= _SCALAR_PULSES and type(c_out) is float and type(r_th) is float
+            and type(t_a) is float and all(type(v) is float for v in q_k)):
         return _pulse_schedule_scalar(t_k, q_k, c_out, r_th, t_a)
     t = np.asarray(t_k, dtype=float)
     q = np.asarray(q_k, dtype=float)
@@ -491,25 +491,33 @@ def _pulse_schedule_scalar(t_k, q_k, c: float, r: float, t_a: float) -> tuple[fl
         return 0.0, 0.0
     tau = r * c
     a = t_a / tau
-    q_tot = math.fsum(q_k)
-    e = [math.exp(-((t_k[i] - t_k[i - 1]) if i else (t_k[0] - t_k[-1] + t_a)) / tau) for i in range(m)]
+    exp = math.exp
+    e = [exp((t_k[-1] - t_a - t_k[0]) / tau)] + [exp((t_k[i - 1] - t_k[i]) / tau) for i in range(1, m)]
     b = 0.0
-    for i in range(m):
-        b = e[i] * b + q_k[i]
-    w = b / -math.expm1(-a)  # the fixed point just after the last pulse
+    q_tot = 0.0
+    for ei, qi in zip(e, q_k):
+        b = ei * b + qi
+        q_tot += qi
+    lo = hi = None
     if a < 1e-6:  # the sawtooth (module function's notes)
         later = q_tot
-        qt = math.fsum(qk * tk for qk, tk in zip(q_k, t_k))
-        ys = []
-        for i in range(m):
-            later -= q_k[i]
-            ys.append(((t_k[i] * q_tot - qt + t_a * later) / t_a - 0.5 * q_tot) / c)
-    else:
-        ys = []
-        for i in range(m):
-            w = e[i] * w + q_k[i]
-            ys.append((q_tot / a - w) / c)
-    return min(ys), max(y + qk / c for y, qk in zip(ys, q_k))
+        qt = sum(qk * tk for qk, tk in zip(q_k, t_k))
+        for tk, qk in zip(t_k, q_k):
+            later -= qk
+            y = ((tk * q_tot - qt + t_a * later) / t_a - 0.5 * q_tot) / c
+            y_pre = y + qk / c
+            lo = y if lo is None or y < lo else lo
+            hi = y_pre if hi is None or y_pre > hi else hi
+        return lo, hi
+    w = b / -math.expm1(-a)  # the fixed point just after the last pulse
+    base = q_tot / a
+    for ei, qk in zip(e, q_k):
+        w = ei * w + qk
+        y = (base - w) / c
+        y_pre = y + qk / c
+        lo = y if lo is None or y < lo else lo
+        hi = y_pre if hi is None or y_pre > hi else hi
+    return lo, hi
 
 
 # --------------------------------------------------------------------------- model validity
