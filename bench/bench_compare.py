@@ -73,10 +73,19 @@ def main():
     t = median_time(lambda: sweep(d, {"bridge.f_sw": np.geomspace(50e3, 1e6, 10), "duty": np.linspace(0.1, 0.9, 10)}), n=1)
     print(f"general sweep 10x10 points (f_sw x duty), all {len(d.options)} options: {t:.2f} s = {100 / t:.0f} points/s "
           f"(issue 16: >= 1e4 points/s)")
+    for n in (10, 100, 200):  # factorised: each option over its own axes only (sweep's notes)
+        axes = {"options[0].c": np.geomspace(100e-9, 1e-6, n), "options[1].c_fly.c": np.geomspace(47e-9, 470e-9, n)}
+
+        def run():
+            memo.clear()
+            sweep(d, axes)
+        t = median_time(run, n=1)
+        print(f"general sweep {n}x{n} points (C_boot x one pump's C_fly), all {len(d.options)} options, from an "
+              f"empty memory: {t:.2f} s = {n * n / t:.0f} points/s")
     memo.clear()
     t = median_time(lambda: sweep(d, {"options[0].c": np.geomspace(100e-9, 1e-6, 10),
-                                      "options[1].c_fly.c": np.geomspace(47e-9, 470e-9, 10)}), n=1)
-    print(f"general sweep 10x10 points (C_boot x one pump's C_fly), all {len(d.options)} options: {t:.2f} s = "
+                                      "options[1].c_fly.c": np.geomspace(47e-9, 470e-9, 10)}, factorise=False), n=1)
+    print(f"the 10x10 of them evaluated point by point (factorise=False, memory in use): {t:.2f} s = "
           f"{100 / t:.0f} points/s")
 
 
