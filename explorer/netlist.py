@@ -338,11 +338,18 @@ def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
 
 
 def _sw_high_pwl(design: Design, plan: NetlistPlan) -> list:
+    """1 where the bootstrap diode is reverse-biased (SW at or above V_DD), else 0."""
     s = plan.schedule
-    v_sw = s.sw_levels(plan.delivered)
-    high = (v_sw > 0.5 * design.bridge.v_bus).astype(float)
-    return _steps(s.t_start, s.dt, high, design.bridge.t_edge, float(s.v_rest > 0.5 * design.bridge.v_bus),
-                  plan.t_stop, 0.5)
+    rev, _ = _reverse_biased(design, s, s.sw_levels(plan.delivered))
+    rest, _ = _reverse_biased(design, s, np.array([s.v_rest]))
+    return _steps(s.t_start, s.dt, rev.astype(float), design.bridge.t_edge, float(rest[0]), plan.t_stop, 0.5)
+
+
+def _reverse_biased(design: Design, s, v_sw):
+    """The bootstrap model's rule (:func:`explorer.options.bootstrap.reverse_biased`) on start-up levels."""
+    from .options.bootstrap import reverse_biased
+    prev = np.concatenate(([s.v_rest], v_sw[:-1]))
+    return reverse_biased(v_sw, prev, np.ones(v_sw.shape, dtype=bool), design.aux.v_dd)
 
 
 # --------------------------------------------------------------------------- options
@@ -375,17 +382,16 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
                   f"RD k2 vb {_n(max(d.r_d, R_MIN))}",
                   f".model DBOOT D(IS={_n(SHARP_IS)} N={_n(SHARP_N)}{cj})"]
     if option.i_leak > 0:
-        lines += ["* diode reverse leakage while SW is high (from vb back to the anode)",
+        lines += ["* diode reverse leakage while SW is at or above V_DD (from vb back to the anode)",
                   f"VHI swhi 0 {_pwl(_sw_high_pwl(design, plan))}",
                   f"GLK vb a swhi 0 {_n(option.i_leak)}"]
     if option.q_rr > 0:
         s = plan.schedule
         v_sw = s.sw_levels(plan.delivered)
-        high = v_sw > 0.5 * design.bridge.v_bus
-        prev = np.concatenate(([s.v_rest > 0.5 * design.bridge.v_bus], high[:-1]))
-        k = np.flatnonzero(high & ~prev & (s.dt > 0))
+        _, onset = _reverse_biased(design, s, v_sw)
+        k = np.flatnonzero(onset & (s.dt > 0))
         if k.size:
-            lines.append("* diode recovery charge Q_rr at each SW rising edge")
+            lines.append("* diode recovery charge Q_rr at each SW rise to V_DD or above")
             lines += _charge_pulses("IRR", "vb", "a", s, k, option.q_rr, design.bridge.t_edge, plan.t_stop)
     lines += [f"* C_boot: {_n(option.c)} F nominal, {_n(circ.c)} F effective at the '{corner}' corner",
               f"CBOOT vb cb {_n(circ.c)} IC=0",

@@ -444,6 +444,18 @@ def test_power_balance_with_every_bus_term(topology_fields):
     assert r.p_drawn_aux + r.p_drawn_bus == pytest.approx(r.p_delivered + sum(r.losses.values()), rel=1e-9)
 
 
+def test_bus_below_the_aux_rail_has_no_leakage_while_its_diode_can_be_forward_biased():
+    # a 10 V bus under a 12 V aux rail: with SW high the diode's reverse voltage 10 + v - 12 changes
+    # sign with the rail (Kirchhoff's voltage law), so the model takes no leakage and no recovery there
+    # (and every loss stays >= 0: a current against the voltage across it would be a source)
+    d = replace_fields(demo_design(), {"bridge.v_bus": 10.0, "bridge.v_out": 2.5, "options[0].q_rr": 20e-9,
+                                       "options[0].i_leak": 1e-3})
+    r = evaluate_option(d, d.options[0])
+    assert r.losses["leakage"] == 0.0 and r.losses["recovery"] == 0.0
+    assert all(v >= 0 for k, v in r.losses.items() if k != "junction_exchange")
+    assert r.p_drawn_aux + r.p_drawn_bus == pytest.approx(r.p_delivered + sum(r.losses.values()), rel=1e-9)
+
+
 def test_checks_cover_the_issue_list(demo):
     r = evaluate_option(demo, demo.options[0])
     names = {c.name for c in r.checks}

@@ -5,10 +5,12 @@ and the diode toward ``V_DD − V_F − v_sw``; the diode cuts off when the
 capacitor reaches that level (handled exactly, also after a negative SW
 undershoot has lifted the rail above it). While SW is high the capacitor
 feeds the high-side driver: Q_G + Q_LS at each HS turn-on and Q_LS at each turn-off, the driver's
-quiescent current and the diode's reverse leakage continuously, V/R_GS while
-the HS is on, the diode's recovery charge at each SW rising edge and the
+quiescent current continuously, V/R_GS while the HS is on, and the
 junction-capacitance charge C_j·Δv_sw at every SW level change (it returns at
-the falling edge, so it costs energy but no net charge).
+the falling edge, so it costs energy but no net charge). The diode's reverse
+leakage flows while SW is at or above V_DD and its recovery charge is taken
+where SW rises there (the diode is then reverse-biased for any rail ≥ 0 V:
+:func:`reverse_biased`).
 
 The exact per-interval maps and their composition live in
 :mod:`explorer.engines` (rail_*); this module turns a design and an option
@@ -38,8 +40,9 @@ boundaries; a withheld HS pulse leaves SW where the topology holds it
 a line leg's bus, else the dead-time level; reported as ``startup_sw_hold``); the gate charge is
 drawn over the switch-node edge time ``t_edge`` for the RMS and peak current
 (common practice, no source); the diode's recovery charge is taken at every
-SW rising edge (conservative); the DC-bias factor of the capacitor is taken at
-the charge target ``V_DD − V_F − v_sw_low``.
+rise of SW to V_DD or above, whether or not the diode conducted before
+(conservative); the DC-bias factor of the capacitor is taken at the charge
+target ``V_DD − V_F − v_sw_low``.
 """
 
 from __future__ import annotations
@@ -97,12 +100,12 @@ class BootstrapCircuit:
     i_s, n_vt : float    junction saturation current [A] and n·V_T [V]
     v_dd : float [V]     aux rail
     i_q : float [A]      driver quiescent current
-    i_leak : float [A]   diode reverse leakage while SW is high
+    i_leak : float [A]   diode reverse leakage while SW is at or above V_DD
     g_gs : float [S]     1/R_GS while the HS is on (0 without a pull-down)
     q_on : float [C]     Q_G + Q_LS at each HS turn-on
     q_off : float [C]    Q_LS at each HS turn-off (the level shifter's reset pulse)
     v_clamp : float or None [V]  clamp (Zener) across C_boot: the charge target is capped at it
-    q_rr : float [C]     recovery charge at each SW rising edge
+    q_rr : float [C]     recovery charge where SW rises to V_DD or above
     c_j : float [F]      diode junction capacitance
     v_bus : float [V]
     v_sw_low : float [V] SW level while the LS conducts (and during a withheld HS pulse)
@@ -214,6 +217,32 @@ def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool
     return lev, prev_l, prev_h
 
 
+def reverse_biased(lev, prev_l, live, v_dd):
+    """Where the diode is reverse-biased whatever the (non-negative) rail, and where it becomes so.
+
+    The diode's reverse voltage is V_B − V_DD = v_sw + v − V_DD: for a rail v ≥ 0 it is at least
+    v_sw − V_DD, so the diode is reverse-biased throughout an interval whose switch-node level is at
+    or above V_DD (Kirchhoff's voltage law around V_DD, the diode, C_boot and the switch node). Below
+    V_DD the diode is forward-biased or, for a rail above V_DD − v_sw, reverse-biased by less than the
+    rail; there the model takes it as neither leaking nor recovering (a bus below V_DD: the diode
+    then also refreshes the rail while SW is high).
+
+    Parameters
+    ----------
+    lev, prev_l : arrays [V]   level of each interval and of the one before (:func:`ffill_levels`)
+    live : array of bool       intervals of non-zero length
+    v_dd : float or array [V]  aux rail (the diode's anode side)
+
+    Returns
+    -------
+    rev : array of bool        reverse-biased intervals (leakage flows from V_B back to V_DD)
+    onset : array of bool      live intervals where it starts (the recovery charge is swept out)
+    """
+    rev = lev >= v_dd
+    onset = live & rev & ~(prev_l >= v_dd)
+    return rev, onset
+
+
 def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
                   v_prev0: float | None = None, hs_prev0: bool = False) -> Loop:
     """The interval loop of the bootstrap for interval arrays shaped ``(..., n)``.
@@ -237,9 +266,9 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     -------
     Loop
         Charge removed at each interval start: Q_G + Q_LS at an HS turn-on,
-        Q_rr at a SW rising edge (through half the bus), C_j·Δv_sw at every
-        SW level change. Load: I_Q always, i_leak while SW is high, 1/R_GS
-        while the HS is on.
+        Q_rr where SW rises to V_DD or above (the diode becomes reverse-biased,
+        :func:`reverse_biased`), C_j·Δv_sw at every SW level change. Load: I_Q
+        always, i_leak while SW is at or above V_DD, 1/R_GS while the HS is on.
     """
     dt = np.asarray(dt, dtype=float)
     v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
@@ -247,12 +276,11 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     v_prev0 = circ.v_sw_low if v_prev0 is None else v_prev0
     lev, prev_l, prev_h = ffill_levels(dt, v_sw, hs_on, periodic, v_prev0, hs_prev0)
     live = dt > 0
-    high = lev > 0.5 * circ.v_bus
-    rise = live & high & (prev_l <= 0.5 * circ.v_bus)
+    rev, rise = reverse_biased(lev, prev_l, live, circ.v_dd)
     turn_on = live & hs_on & ~prev_h
     turn_off = live & ~hs_on & prev_h
     q = (circ.q_on * turn_on + circ.q_off * turn_off + circ.q_rr * rise + circ.c_j * (lev - prev_l))
-    i_load = circ.i_q + circ.i_leak * high
+    i_load = circ.i_q + circ.i_leak * rev
     g_load = circ.g_gs * hs_on
     v_src = circ.v_dd - v_sw
     if circ.v_clamp is not None:
@@ -1256,24 +1284,29 @@ class _PowerPart:
 
 def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady: _SteadyPart,
                 collapsed: bool) -> _PowerPart:
-    """Power drawn from the aux rail and the bus, delivered to the gate side, losses by mechanism."""
-    if not steady.refreshed:
+    """Power drawn from the aux rail and the bus, delivered to the gate side, losses by mechanism.
+
+    Energy conservation over the steady-state period (Tellegen's theorem): aux + bus power equals the
+    delivered power plus the losses. A collapsed rail (below 0 V in the model, whose constant loads
+    then no longer hold: the driver's clamp and UVLO take over) has no power split (all None, as a
+    rail never refreshed).
+    """
+    if not steady.refreshed or collapsed:
         return _PowerPart()
-    b, sched, orb, loop, ints = design.bridge, ss.schedule, ss.orbit, ss.loop, steady.ints
+    sched, orb, loop, ints = ss.schedule, ss.orbit, ss.loop, steady.ints
     T = sched.period
     lev, prev_l, _ = ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
-    high = lev > 0.5 * b.v_bus
-    rise = (sched.dt > 0) & high & (prev_l <= 0.5 * b.v_bus)
+    rev, rise = reverse_biased(lev, prev_l, sched.dt > 0, circ.v_dd)  # the interval loop's own masks
     n_rise = int(np.count_nonzero(rise))
-    t_high = float(np.sum(sched.dt[high]))
+    t_rev = float(np.sum(sched.dt[rev]))
     q_d = float(np.sum(ints["q_d"]))
-    q_ret = circ.q_rr * n_rise + circ.i_leak * t_high
+    q_ret = circ.q_rr * n_rise + circ.i_leak * t_rev
     p_aux = circ.v_dd * (q_d - q_ret) / T
     e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
-    e_rr = circ.q_rr * b.v_bus * n_rise
+    e_rr = circ.q_rr * float(np.sum(lev[rise]))
     cj_edges = capacitive_edge_power(circ.c_j, sched)  # ½·C_j·ΔV² per hard edge, ~0 per ZVS edge
     e_cj = cj_edges.dissipated * T
-    e_lk = circ.i_leak * b.v_bus * t_high
+    e_lk = circ.i_leak * float(np.sum(lev[rev] * sched.dt[rev]))
     p_bus = (e_rr + e_cj + e_lk + e_sw) / T
     v_step = 0.5 * (orb.v_pre + orb.v_start)  # rail voltage of a charge step: Q·(V_pre + V_post)/2
     # C_j's charge leaves C_boot at one edge and returns at the next at another rail voltage (the rail
@@ -1281,7 +1314,7 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     # sum is what the rail hands the power stage through C_j; drawn, not delivered, not dissipated here.
     e_cj_rail = float(np.sum(circ.c_j * (lev - prev_l) * v_step))
     e_gate = float(np.sum((circ.q_on * sched.hs_turn_on + circ.q_off * sched.hs_turn_off)
-                          * 0.5 * (orb.v_pre + orb.v_start)))  # gate and both level-shift pulses
+                          * v_step))  # gate and both level-shift pulses
     e_q = circ.i_q * float(np.sum(ints["int_v"]))
     e_g = float(np.sum(ints["e_load"] - loop.i_load * ints["int_v"]))
     p_del = (e_gate + e_q + e_g) / T
@@ -1289,8 +1322,6 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
               "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T,
               "junction_exchange": e_cj_rail / T}
     eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
-    if collapsed:  # a collapsed rail: the power figures of the model do not hold
-        eff = None
     return _PowerPart(p_aux=p_aux, p_bus=p_bus, p_del=p_del, efficiency=eff, losses=losses,
                       details={"q_diode_per_period": q_d, "energy_switch_node": e_sw / T,
                                "p_junction_gross": cj_edges.gross},
