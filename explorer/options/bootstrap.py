@@ -1303,12 +1303,17 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     q_ret = circ.q_rr * n_rise + circ.i_leak * t_rev
     p_aux = circ.v_dd * (q_d - q_ret) / T
     e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
-    e_rr = circ.q_rr * float(np.sum(lev[rise]))
+    v_step = 0.5 * (orb.v_pre + orb.v_start)  # rail voltage of a charge step: Q·(V_pre + V_post)/2
+    # recovery and leakage flow from the cathode, V_B = V_SW + v, back to the anode at V_DD: the bus
+    # gives Q·V_SW, C_boot gives Q·v (a step at each rise, a current over the reverse-biased intervals),
+    # V_DD takes Q·V_DD back (q_ret, credited to the aux draw); the diode dissipates the difference
+    e_rr_bus = circ.q_rr * float(np.sum(lev[rise]))
+    e_rr = e_rr_bus + circ.q_rr * float(np.sum(v_step[rise])) - circ.v_dd * circ.q_rr * n_rise
     cj_edges = capacitive_edge_power(circ.c_j, sched)  # ½·C_j·ΔV² per hard edge, ~0 per ZVS edge
     e_cj = cj_edges.dissipated * T
-    e_lk = circ.i_leak * float(np.sum(lev[rev] * sched.dt[rev]))
-    p_bus = (e_rr + e_cj + e_lk + e_sw) / T
-    v_step = 0.5 * (orb.v_pre + orb.v_start)  # rail voltage of a charge step: Q·(V_pre + V_post)/2
+    e_lk_bus = circ.i_leak * float(np.sum(lev[rev] * sched.dt[rev]))
+    e_lk = e_lk_bus + circ.i_leak * float(np.sum(ints["int_v"][rev])) - circ.v_dd * circ.i_leak * t_rev
+    p_bus = (e_rr_bus + e_cj + e_lk_bus + e_sw) / T
     # C_j's charge leaves C_boot at one edge and returns at the next at another rail voltage (the rail
     # droops in between): Q·(V_pre + V_post)/2 per step, the energy of a capacitor's charge step. The
     # sum is what the rail hands the power stage through C_j; drawn, not delivered, not dissipated here.
