@@ -46,9 +46,7 @@ def freeze(obj):
     t = type(obj)
     if t in _PLAIN:
         return obj
-    if t is np.ndarray:
-        obj.flags.writeable = False
-    elif isinstance(obj, np.ndarray):
+    if isinstance(obj, np.ndarray):
         obj.flags.writeable = False
     elif isinstance(obj, dict):
         for v in obj.values():
