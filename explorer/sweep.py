@@ -23,6 +23,7 @@ path, :func:`margin_map`.
 from __future__ import annotations
 
 import dataclasses
+import warnings
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -34,6 +35,7 @@ from .errors import DesignError
 from .loads import required_rail
 from .options import supply_model
 from .topology import topology_of
+from .units import format_eng
 
 __all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "temperature_fields", "margin_map", "MarginMap"]
 
@@ -91,18 +93,24 @@ class Sweep:
         ``figures[label][figure]`` is an array shaped like the grid.
     invalid : dict
         Grid index → the reason a point's design was rejected.
+    warnings : dict
+        Grid index → the texts of the warnings that point's evaluation gave (model validity,
+        plausibility), in the order given; points without warnings are absent. The sweep itself
+        gives one summary warning per category instead of one per point.
     """
 
     axes: tuple
     values: tuple
     figures: dict
     invalid: dict = field(default_factory=dict)
+    warnings: dict = field(default_factory=dict)
 
     def to_dict(self) -> dict:
         from .results import clean
         return {"axes": list(self.axes), "values": [clean(v) for v in self.values],
                 "figures": {lab: {k: clean(v) for k, v in figs.items()} for lab, figs in self.figures.items()},
-                "invalid": {str(k): v for k, v in self.invalid.items()}}
+                "invalid": {str(k): v for k, v in self.invalid.items()},
+                "warnings": {str(k): list(v) for k, v in self.warnings.items()}}
 
 
 def temperature_fields(design: Design, t: float) -> dict:
@@ -211,25 +219,67 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
     keep = tuple(o.label in labs for o in d0.options)  # trimmed after the change: paths index d0's options
     owners = [_owner(p) for p in paths]
     if factorise and any(o is not None for o in owners):
-        out, invalid = _factorised(d0, paths, vals, owners, keep, names, progress)
-        return Sweep(paths, vals, {lab: out[lab] for lab in labs}, invalid)
+        out, invalid, caught = _factorised(d0, paths, vals, owners, keep, names, progress)
+        _summarise(caught, d0, paths, vals)
+        return Sweep(paths, vals, {lab: out[lab] for lab in labs}, invalid, _texts(caught))
     out = {lab: {n: np.full(shape, np.nan) for n in names} for lab in labs}
-    invalid = {}
+    invalid, caught = {}, {}
     total = int(np.prod(shape))
     for count, idx in enumerate(np.ndindex(shape)):
         assign = [(p, vals[k][i]) for k, (p, i) in enumerate(zip(paths, idx))]
         try:
             dp = _point(d0, assign)
-            res = evaluate(dataclasses.replace(dp, options=tuple(o for o, k in zip(dp.options, keep) if k)))
+            res, w = _recorded(evaluate, dataclasses.replace(dp, options=tuple(o for o, k in zip(dp.options, keep)
+                                                                                if k)))
         except DesignError as e:
             invalid[idx] = str(e)
             continue
+        if w:
+            caught[idx] = w
         for r in res.options:
             for n in names:
                 out[r.label][n][idx] = FIGURES[n](r)
         if progress:
             progress(count + 1, total)
-    return Sweep(paths, vals, out, invalid)
+    _summarise(caught, d0, paths, vals)
+    return Sweep(paths, vals, out, invalid, _texts(caught))
+
+
+def _recorded(fn, *args):
+    """fn(*args) and the warnings it gave, as a tuple of (category, text), whatever the caller's filters are."""
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always")
+        r = fn(*args)
+    return r, tuple((w.category, str(w.message)) for w in rec)
+
+
+def _texts(caught: dict) -> dict:
+    """Grid index → the warning texts (once each, in order) of that point."""
+    return {idx: tuple(dict.fromkeys(t for _, t in w)) for idx, w in sorted(caught.items())}
+
+
+def _value_text(design: Design, path: str, x: float) -> str:
+    """An axis value as engineers read it (with the field's unit and an SI prefix)."""
+    if path == "temperature":
+        return f"{x:g} \u00b0C"
+    unit = "" if path == "duty" else spec_at(design, path).unit
+    return format_eng(x, unit) if unit else f"{x:g}"
+
+
+def _summarise(caught: dict, design: Design, paths, vals) -> None:
+    """One warning per category for the whole grid (not one per point): how many points gave it and the
+    first of them, with the rest left in :attr:`Sweep.warnings`."""
+    first: dict = {}
+    count: dict = {}
+    for idx in sorted(caught):
+        for cat in dict.fromkeys(c for c, _ in caught[idx]):
+            count[cat] = count.get(cat, 0) + 1
+            first.setdefault(cat, (idx, next(t for c, t in caught[idx] if c is cat)))
+    total = int(np.prod([v.size for v in vals]))
+    for cat, (idx, text) in first.items():
+        at = ", ".join(f"{p} = {_value_text(design, p, vals[a][i])}" for a, (p, i) in enumerate(zip(paths, idx)))
+        warnings.warn(f"{count[cat]} of {total} grid points gave a {cat.__name__}; the first, at {at}: {text} "
+                      f"(every point's warnings are in Sweep.warnings)", cat, stacklevel=3)
 
 
 def _owner(path: str) -> int | None:
@@ -243,7 +293,7 @@ def _owner(path: str) -> int | None:
 def _factorised(d0: Design, paths, vals, owners, keep, names, progress):
     """:func:`sweep` with each option evaluated over its own sub-grid (the common axes and its own).
 
-    Returns (figures by label, invalid). A point is invalid when its common fields or any option's
+    Returns (figures by label, invalid, warnings by grid index). A point is invalid when its common fields or any option's
     fields are (the design loader checks the sections, then the options in order, each on its
     own); its reason is that of the lowest-indexed group that fails, which is the loader's first.
     """
@@ -256,6 +306,7 @@ def _factorised(d0: Design, paths, vals, owners, keep, names, progress):
     out = {}
     bad_first = np.full(shape, -1)  # the lowest failing group's index, per point
     reasons: dict = {}
+    sub_caught: dict = {}
     for j in reversed(groups):  # the lowest index written last, so it wins
         axes_j = rel[j]
         sub_shape = tuple(shape[a] for a in axes_j)
@@ -271,7 +322,10 @@ def _factorised(d0: Design, paths, vals, owners, keep, names, progress):
                 reasons[(j, sub)] = str(e)
                 continue
             if keep[j]:
-                r = evaluate(dataclasses.replace(dp, options=(dp.options[j],))).options[0]
+                res, w = _recorded(evaluate, dataclasses.replace(dp, options=(dp.options[j],)))
+                r = res.options[0]
+                if w:
+                    sub_caught[(j, sub)] = w
                 for n in names:
                     figs[n][sub] = FIGURES[n](r)
             if progress:
@@ -290,7 +344,14 @@ def _factorised(d0: Design, paths, vals, owners, keep, names, progress):
         for figs in out.values():
             for f in figs.values():
                 f[idx] = np.nan
-    return out, invalid
+    caught: dict = {}  # each valid point: its options' warnings in option order (a design-wide one once)
+    for (j, sub), w in sorted(sub_caught.items()):
+        for rest in np.ndindex(*(shape[a] for a in range(n_ax) if a not in rel[j])):
+            it_sub, it_rest = iter(sub), iter(rest)
+            idx = tuple(int(next(it_sub)) if a in rel[j] else int(next(it_rest)) for a in range(n_ax))
+            if bad_first[idx] < 0:
+                caught[idx] = tuple(dict.fromkeys(caught.get(idx, ()) + w))
+    return out, invalid, caught
 
 
 # --------------------------------------------------------------------------- margin map

@@ -63,6 +63,7 @@ def test_sweep_marks_invalid_points_and_rejects_bad_axes():
 
 def _same_sweep(a, b):
     assert a.invalid == b.invalid
+    assert a.warnings == b.warnings
     assert a.figures.keys() == b.figures.keys()
     for lab, figs in a.figures.items():
         for n, x in figs.items():
@@ -73,13 +74,38 @@ def _same_sweep(a, b):
     {"options[0].c": [100e-9, 220e-9, 470e-9], "options[1].c_fly.c": [47e-9, 100e-9]},
     {"bridge.v_out": [12.0, 60.0], "options[2].c_fly.c": [100e-9, 220e-9]},  # an invalid common field
     {"options[3].f_cp": [500e3, 1e6, 2e6]},
+    {"bridge.f_sw": [200e3, 700e3], "options[1].c_fly.c": [47e-9, 100e-9]},  # warnings at 700 kHz
 ])
+@pytest.mark.filterwarnings("ignore::explorer.errors.ModelValidityWarning")
 def test_factorised_sweep_equals_one_evaluation_per_point(axes):
     # consistency of the two ways of running a grid (no outside source: the figures themselves are checked
     # against evaluate above and against outside sources in the model tests)
     d = load_design(DEMO)
     _same_sweep(sweep(d, axes), sweep(d, axes, factorise=False))
     _same_sweep(sweep(d, axes, labels=["pump 1:1"]), sweep(d, axes, labels=["pump 1:1"], factorise=False))
+
+
+def test_sweep_gives_one_summary_warning_per_category_and_keeps_every_points_warnings():
+    # the per-point texts are those evaluate gives at that point (consistency with evaluate, no outside
+    # source: the warnings' conditions are checked in the model tests)
+    d = load_design(DEMO)
+    f = [80e3, 200e3, 700e3, 900e3]
+    with warnings.catch_warnings(record=True) as rec:
+        warnings.simplefilter("always")
+        s = sweep(d, {"bridge.f_sw": f}, figures=["rail_min"])
+    assert len(rec) == 1 and rec[0].category is ModelValidityWarning
+    assert rec[0].filename == __file__  # pointed at the caller's line
+    msg = str(rec[0].message)
+    assert msg.startswith(f"{len(s.warnings)} of 4 grid points gave a ModelValidityWarning")
+    assert "bridge.f_sw = 700 kHz" in msg and "Sweep.warnings" in msg
+    for i, x in enumerate(f):
+        with warnings.catch_warnings(record=True) as ref:
+            warnings.simplefilter("always")
+            evaluate(replace_field(d, "bridge.f_sw", x))
+        texts = tuple(dict.fromkeys(str(w.message) for w in ref))
+        assert s.warnings.get((i,), ()) == texts
+    assert (2,) in s.warnings and (3,) in s.warnings
+    assert s.to_dict()["warnings"]["(2,)"] == list(s.warnings[(2,)])
 
 
 def test_factorised_sweep_evaluates_each_option_once_per_value_of_its_own_axes():
