@@ -343,9 +343,9 @@ class BootstrapOption:
                                nullable=True)
     r: float = _f("\u03a9", "series (inrush-limiting) resistor", 0.0, **NONNEG)
     diode: Diode = _f("-", "diode: {v_f, r_d} straight line or {i_s, n, r_s} exponential", kind="diode")
-    q_rr: float = _f("C", "diode reverse-recovery charge per switch-node rising edge", 0.0, **NONNEG)
+    q_rr: float = _f("C", "diode reverse-recovery charge, swept out at each switch-node rise that reverse-biases the diode", 0.0, **NONNEG)
     c_j: float = _f("F", "diode junction capacitance", 0.0, **NONNEG)
-    i_leak: float = _f("A", "diode reverse leakage at the bus voltage", 0.0, **NONNEG)
+    i_leak: float = _f("A", "diode reverse leakage while reverse-biased (one value, taken at the bus voltage)", 0.0, **NONNEG)
     v_rrm: float | None = _f("V", "diode repetitive reverse voltage rating", None, nullable=True, **POS)
     v_clamp: float | None = _f("V", "clamp (Zener) across the bootstrap capacitor: the rail does not charge above "
                                "it, e.g. after a negative switch-node excursion in the dead time (null = none)",

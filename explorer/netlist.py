@@ -337,27 +337,29 @@ def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
     return lines
 
 
-def _sw_high_pwl(design: Design, plan: NetlistPlan) -> list:
-    """1 where the bootstrap diode is reverse-biased (SW at or above V_DD), else 0."""
+def _sw_high_pwl(design: Design, plan: NetlistPlan, v_hold: float) -> list:
+    """1 where the bootstrap diode is reverse-biased (SW + the presumed rail ``v_hold`` at or above V_DD), else 0."""
     s = plan.schedule
-    rev, _ = _reverse_biased(design, s, s.sw_levels(plan.delivered))
-    rest, _ = _reverse_biased(design, s, np.array([s.v_rest]))
+    rev, _ = _reverse_biased(design, s, s.sw_levels(plan.delivered), v_hold)
+    rest, _ = _reverse_biased(design, s, np.array([s.v_rest]), v_hold)
     return _steps(s.t_start, s.dt, rev.astype(float), design.bridge.t_edge, float(rest[0]), plan.t_stop, 0.5)
 
 
-def _reverse_biased(design: Design, s, v_sw):
+def _reverse_biased(design: Design, s, v_sw, v_hold: float):
     """The bootstrap model's rule (:func:`explorer.options.bootstrap.reverse_biased`) on start-up levels."""
     from .options.bootstrap import reverse_biased
     prev = np.concatenate(([s.v_rest], v_sw[:-1]))
-    return reverse_biased(v_sw, prev, np.ones(v_sw.shape, dtype=bool), design.aux.v_dd)
+    return reverse_biased(v_sw, prev, np.ones(v_sw.shape, dtype=bool), design.aux.v_dd, v_hold)
 
 
 # --------------------------------------------------------------------------- options
 
 def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, corner: str) -> list[str]:
     """SPICE lines of a bootstrap supply (its model's netlist writer)."""
-    from .options.bootstrap import bootstrap_circuit
+    from .options.bootstrap import bootstrap_circuit, steady_state
     circ = bootstrap_circuit(design, option, corner)
+    if option.i_leak > 0 or option.q_rr > 0:  # the rail the model's reverse-bias rule settled on
+        circ = steady_state(design, option, corner, circ).circuit
     d = option.diode
     lines = ["* --- bootstrap: V_DD -> R -> diode -> C_boot (with ESR) between vb and vs",
              f"VDD dd 0 DC {_n(circ.v_dd)}",
@@ -382,16 +384,16 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
                   f"RD k2 vb {_n(max(d.r_d, R_MIN))}",
                   f".model DBOOT D(IS={_n(SHARP_IS)} N={_n(SHARP_N)}{cj})"]
     if option.i_leak > 0:
-        lines += ["* diode reverse leakage while SW is at or above V_DD (from vb back to the anode)",
-                  f"VHI swhi 0 {_pwl(_sw_high_pwl(design, plan))}",
+        lines += ["* diode reverse leakage while it is reverse-biased (from vb back to the anode)",
+                  f"VHI swhi 0 {_pwl(_sw_high_pwl(design, plan, circ.v_hold))}",
                   f"GLK vb a swhi 0 {_n(option.i_leak)}"]
     if option.q_rr > 0:
         s = plan.schedule
         v_sw = s.sw_levels(plan.delivered)
-        _, onset = _reverse_biased(design, s, v_sw)
+        _, onset = _reverse_biased(design, s, v_sw, circ.v_hold)
         k = np.flatnonzero(onset & (s.dt > 0))
         if k.size:
-            lines.append("* diode recovery charge Q_rr at each SW rise to V_DD or above")
+            lines.append("* diode recovery charge Q_rr wherever the diode becomes reverse-biased")
             lines += _charge_pulses("IRR", "vb", "a", s, k, option.q_rr, design.bridge.t_edge, plan.t_stop)
     lines += [f"* C_boot: {_n(option.c)} F nominal, {_n(circ.c)} F effective at the '{corner}' corner",
               f"CBOOT vb cb {_n(circ.c)} IC=0",

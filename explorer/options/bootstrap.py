@@ -8,8 +8,9 @@ feeds the high-side driver: Q_G + Q_LS at each HS turn-on and Q_LS at each turn-
 quiescent current continuously, V/R_GS while the HS is on, and the
 junction-capacitance charge C_j·Δv_sw at every SW level change (it returns at
 the falling edge, so it costs energy but no net charge). The diode's reverse
-leakage flows while SW is at or above V_DD and its recovery charge is taken
-where SW rises there (the diode is then reverse-biased for any rail ≥ 0 V:
+leakage flows while it is reverse-biased and its recovery charge is taken where
+it becomes so: where SW + the required rail reaches V_DD (for every rail the design
+accepts the diode is then reverse-biased; with a bus below V_DD too, while SW is high:
 :func:`reverse_biased`).
 
 The exact per-interval maps and their composition live in
@@ -100,16 +101,18 @@ class BootstrapCircuit:
     i_s, n_vt : float    junction saturation current [A] and n·V_T [V]
     v_dd : float [V]     aux rail
     i_q : float [A]      driver quiescent current
-    i_leak : float [A]   diode reverse leakage while SW is at or above V_DD
+    i_leak : float [A]   diode reverse leakage while it is reverse-biased (:func:`reverse_biased`)
     g_gs : float [S]     1/R_GS while the HS is on (0 without a pull-down)
     q_on : float [C]     Q_G + Q_LS at each HS turn-on
     q_off : float [C]    Q_LS at each HS turn-off (the level shifter's reset pulse)
     v_clamp : float or None [V]  clamp (Zener) across C_boot: the charge target is capped at it
-    q_rr : float [C]     recovery charge where SW rises to V_DD or above
+    q_rr : float [C]     recovery charge where the diode becomes reverse-biased
     c_j : float [F]      diode junction capacitance
     v_bus : float [V]
     v_sw_low : float [V] SW level while the LS conducts (and during a withheld HS pulse)
     v_bias : float [V]   DC voltage used for the DC-bias factor
+    v_hold : float [V]   the lowest rail the design accepts (:func:`~explorer.loads.required_rail`), the
+                         rail :func:`reverse_biased` presumes
     """
 
     c: float
@@ -131,6 +134,7 @@ class BootstrapCircuit:
     v_bias: float
     q_off: float = 0.0
     v_clamp: float | None = None
+    v_hold: float = 0.0
 
     def drop(self, i):
         """Diode forward voltage at current ``i`` [V] (straight line or junction)."""
@@ -179,7 +183,7 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
                             q_on=charge_per_turn_on(design), q_off=charge_per_turn_off(design),
                             v_clamp=option.v_clamp,
                             q_rr=option.q_rr, c_j=option.c_j,
-                            v_bus=b.v_bus, v_sw_low=b.v_sw_low, v_bias=v_bias)
+                            v_bus=b.v_bus, v_sw_low=b.v_sw_low, v_bias=v_bias, v_hold=required_rail(design))
 
 
 # --------------------------------------------------------------------------- loops
@@ -217,29 +221,36 @@ def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool
     return lev, prev_l, prev_h
 
 
-def reverse_biased(lev, prev_l, live, v_dd):
-    """Where the diode is reverse-biased whatever the (non-negative) rail, and where it becomes so.
+def reverse_biased(lev, prev_l, live, v_dd, v_hold=0.0):
+    """Where the diode is reverse-biased for every rail the design accepts, and where it becomes so.
 
-    The diode's reverse voltage is V_B − V_DD = v_sw + v − V_DD: for a rail v ≥ 0 it is at least
-    v_sw − V_DD, so the diode is reverse-biased throughout an interval whose switch-node level is at
-    or above V_DD (Kirchhoff's voltage law around V_DD, the diode, C_boot and the switch node). Below
-    V_DD the diode is forward-biased or, for a rail above V_DD − v_sw, reverse-biased by less than the
-    rail; there the model takes it as neither leaking nor recovering (a bus below V_DD: the diode
-    then also refreshes the rail while SW is high).
+    The diode's reverse voltage is V_B − V_DD = v_sw + v − V_DD (Kirchhoff's voltage law around V_DD,
+    the diode, C_boot and the switch node). For a rail v ≥ ``v_hold`` (the lowest rail the design
+    accepts, :func:`~explorer.loads.required_rail`) it is at least v_sw + v_hold − V_DD, so the diode
+    is reverse-biased throughout an interval whose switch-node level is at or above V_DD − v_hold:
+    the SW-high intervals of a bus at or above V_DD, and those of a bus below V_DD down to
+    V_DD − v_hold. Where the rail holds its requirement the rule is exact; where the steady orbit shows
+    it does not, :func:`steady_state` solves again with ``v_hold = 0`` (the design then fails its rail
+    check anyway). In a start-up from 0 V the leakage it counts is conservative. Below that
+    level the diode is taken as neither leaking nor recovering: it is forward-biased or in its dead
+    band for a rail near its charge target, and refreshes the rail while SW is high when the rail
+    falls below V_DD − v_sw − V_F. ``v_hold = 0`` gives the rule for any non-negative rail.
 
     Parameters
     ----------
     lev, prev_l : arrays [V]   level of each interval and of the one before (:func:`ffill_levels`)
     live : array of bool       intervals of non-zero length
     v_dd : float or array [V]  aux rail (the diode's anode side)
+    v_hold : float [V]         the lowest rail presumed (default 0 V)
 
     Returns
     -------
     rev : array of bool        reverse-biased intervals (leakage flows from V_B back to V_DD)
     onset : array of bool      live intervals where it starts (the recovery charge is swept out)
     """
-    rev = lev >= v_dd
-    onset = live & rev & ~(prev_l >= v_dd)
+    edge = v_dd - v_hold
+    rev = lev >= edge
+    onset = live & rev & ~(prev_l >= edge)
     return rev, onset
 
 
@@ -266,9 +277,8 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     -------
     Loop
         Charge removed at each interval start: Q_G + Q_LS at an HS turn-on,
-        Q_rr where SW rises to V_DD or above (the diode becomes reverse-biased,
-        :func:`reverse_biased`), C_j·Δv_sw at every SW level change. Load: I_Q
-        always, i_leak while SW is at or above V_DD, 1/R_GS while the HS is on.
+        Q_rr where the diode becomes reverse-biased (:func:`reverse_biased`), C_j·Δv_sw at every SW level change. Load: I_Q
+        always, i_leak while the diode is reverse-biased, 1/R_GS while the HS is on.
     """
     dt = np.asarray(dt, dtype=float)
     v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
@@ -276,7 +286,7 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     v_prev0 = circ.v_sw_low if v_prev0 is None else v_prev0
     lev, prev_l, prev_h = ffill_levels(dt, v_sw, hs_on, periodic, v_prev0, hs_prev0)
     live = dt > 0
-    rev, rise = reverse_biased(lev, prev_l, live, circ.v_dd)
+    rev, rise = reverse_biased(lev, prev_l, live, circ.v_dd, circ.v_hold)
     turn_on = live & hs_on & ~prev_h
     turn_off = live & ~hs_on & prev_h
     q = (circ.q_on * turn_on + circ.q_off * turn_off + circ.q_rr * rise + circ.c_j * (lev - prev_l))
@@ -305,6 +315,7 @@ class SteadyState:
     loop: Loop
     orbit: OrbitSolution
     integrals: dict
+    circuit: BootstrapCircuit | None = None  # the circuit solved (its v_hold: the rail reverse_biased presumed)
 
     @property
     def t(self) -> np.ndarray:
@@ -331,11 +342,35 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
     s = period_schedule(design)
     loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
     orb = solve_orbit(_bc(loop))
+    if not _presumption_holds(circ, s, orb):
+        circ = dataclasses.replace(circ, v_hold=0.0)
+        loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
+        orb = solve_orbit(_bc(loop))
     if not orb.converged:
         warnings.warn("bootstrap steady state: the orbit iteration did not converge; figures are approximate",
                       ModelValidityWarning, stacklevel=2)
     ints = interval_integrals(orb.v_start, loop, r_ext=circ.r_ext) if np.all(np.isfinite(orb.v_start)) else {}
-    return SteadyState(s, loop, orb, ints)
+    return SteadyState(s, loop, orb, ints, circ)
+
+
+def _presumption_holds(circ: BootstrapCircuit, s: Schedule, orb) -> bool:
+    """Whether the orbit bears out the rail :func:`reverse_biased` presumed (``circ.v_hold``).
+
+    The rule counts an interval reverse-biased where V_SW + v_hold ≥ V_DD. The orbit says whether
+    it is: the diode's reverse voltage V_SW + v − V_DD at the interval's lowest rail (its start after
+    the charge step, or its end) is ≥ 0. Where it is not, the rail has fallen below v_hold, so the
+    design fails its rail check anyway; :func:`steady_state` then solves again under the rule for
+    any non-negative rail (v_hold = 0: reverse-biased only where V_SW ≥ V_DD, true for every rail
+    ≥ 0), which keeps the loss split's leakage and recovery terms consistent and ≥ 0.
+    """
+    if circ.v_hold <= 0.0 or (circ.i_leak <= 0.0 and circ.q_rr <= 0.0):
+        return True
+    if not (np.all(np.isfinite(orb.v_start)) and np.all(np.isfinite(orb.v_end))):
+        return False
+    lev, prev_l, _ = ffill_levels(s.dt, s.v_sw, s.hs_on, True, 0.0, False)
+    rev, _ = reverse_biased(lev, prev_l, s.dt > 0, circ.v_dd, circ.v_hold)
+    low = np.minimum(orb.v_start, orb.v_end)
+    return not np.any(rev & (s.dt > 0) & (lev + low < circ.v_dd))
 
 
 def _bc(loop: Loop) -> Loop:
@@ -1296,7 +1331,7 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     sched, orb, loop, ints = ss.schedule, ss.orbit, ss.loop, steady.ints
     T = sched.period
     lev, prev_l, _ = ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
-    rev, rise = reverse_biased(lev, prev_l, sched.dt > 0, circ.v_dd)  # the interval loop's own masks
+    rev, rise = reverse_biased(lev, prev_l, sched.dt > 0, circ.v_dd, circ.v_hold)  # the interval loop's own masks
     n_rise = int(np.count_nonzero(rise))
     t_rev = float(np.sum(sched.dt[rev]))
     q_d = float(np.sum(ints["q_d"]))
@@ -1394,6 +1429,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     need = required_rail(design)
     warn: list[str] = []
     ss = steady_state(design, option, corner, circ)
+    circ = ss.circuit  # the rail the reverse-bias rule presumes, as the steady orbit settled it
     for msg in _validity_messages(design, circ):
         warnings.warn(msg, ModelValidityWarning, stacklevel=2)
         warn.append(msg)
