@@ -315,7 +315,7 @@ class SteadyState:
     loop: Loop
     orbit: OrbitSolution
     integrals: dict
-    circuit: BootstrapCircuit | None = None  # the circuit solved (its v_hold: the rail reverse_biased presumed)
+    circuit: BootstrapCircuit  # the circuit solved (its v_hold: the rail reverse_biased presumed)
 
     @property
     def t(self) -> np.ndarray:
