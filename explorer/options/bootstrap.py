@@ -73,8 +73,8 @@ from ..topology import analysis_frequency, light_load, peak_span, topology_of
 from .details import BootstrapDetails
 from .base import SupplyModel
 
-__all__ = ["BootstrapCircuit", "bootstrap_circuit", "schedule_loop", "steady_state", "startup",
-           "StartupSolution", "rail_min_map", "duty_slots", "evaluate_option",
+__all__ = ["BootstrapCircuit", "bootstrap_circuit", "LoopMasks", "loop_masks", "schedule_loop", "steady_state",
+           "startup", "StartupSolution", "rail_min_map", "duty_slots", "evaluate_option",
            "DUTY_GRID"]
 
 #: Points of the first duty sweep of the duty-limit search (then refined by bisection rounds).
@@ -254,8 +254,36 @@ def reverse_biased(lev, prev_l, live, v_dd, v_hold=0.0):
     return rev, onset
 
 
+@dataclass(frozen=True)
+class LoopMasks:
+    """Where each interval stands (arrays shaped like the interval durations).
+
+    ``lev``/``prev_l`` the switch-node level of the interval and of the live one before [V],
+    ``prev_h`` the HS state before, ``live`` the intervals of non-zero length, ``rev``/``onset`` where
+    the diode is reverse-biased and where that starts (:func:`reverse_biased`).
+    """
+
+    lev: np.ndarray
+    prev_l: np.ndarray
+    prev_h: np.ndarray
+    live: np.ndarray
+    rev: np.ndarray
+    onset: np.ndarray
+
+
+def loop_masks(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool, v_prev0: float | None = None,
+               hs_prev0: bool = False) -> LoopMasks:
+    """The interval masks :func:`schedule_loop` builds its loop from (one place for the rule, so the
+    loss split reads the same reverse-biased intervals the loop counted)."""
+    v_prev0 = circ.v_sw_low if v_prev0 is None else v_prev0
+    lev, prev_l, prev_h = ffill_levels(dt, v_sw, hs_on, periodic, v_prev0, hs_prev0)
+    live = dt > 0
+    rev, onset = reverse_biased(lev, prev_l, live, circ.v_dd, circ.v_hold)
+    return LoopMasks(lev=lev, prev_l=prev_l, prev_h=prev_h, live=live, rev=rev, onset=onset)
+
+
 def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
-                  v_prev0: float | None = None, hs_prev0: bool = False) -> Loop:
+                  v_prev0: float | None = None, hs_prev0: bool = False, masks: LoopMasks | None = None) -> Loop:
     """The interval loop of the bootstrap for interval arrays shaped ``(..., n)``.
 
     Parameters
@@ -272,6 +300,8 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     v_prev0, hs_prev0 :
         SW level and HS state before the first interval when not periodic
         (default: ``v_sw_low`` and off).
+    masks : LoopMasks, optional
+        :func:`loop_masks` of the same arguments, when already at hand.
 
     Returns
     -------
@@ -283,14 +313,12 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     dt = np.asarray(dt, dtype=float)
     v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
     hs_on = np.broadcast_to(np.asarray(hs_on, dtype=bool), dt.shape)
-    v_prev0 = circ.v_sw_low if v_prev0 is None else v_prev0
-    lev, prev_l, prev_h = ffill_levels(dt, v_sw, hs_on, periodic, v_prev0, hs_prev0)
-    live = dt > 0
-    rev, rise = reverse_biased(lev, prev_l, live, circ.v_dd, circ.v_hold)
-    turn_on = live & hs_on & ~prev_h
-    turn_off = live & ~hs_on & prev_h
-    q = (circ.q_on * turn_on + circ.q_off * turn_off + circ.q_rr * rise + circ.c_j * (lev - prev_l))
-    i_load = circ.i_q + circ.i_leak * rev
+    m = masks or loop_masks(circ, dt, v_sw, hs_on, periodic=periodic, v_prev0=v_prev0, hs_prev0=hs_prev0)
+    lev, prev_l = m.lev, m.prev_l
+    turn_on = m.live & hs_on & ~m.prev_h
+    turn_off = m.live & ~hs_on & m.prev_h
+    q = (circ.q_on * turn_on + circ.q_off * turn_off + circ.q_rr * m.onset + circ.c_j * (lev - prev_l))
+    i_load = circ.i_q + circ.i_leak * m.rev
     g_load = circ.g_gs * hs_on
     v_src = circ.v_dd - v_sw
     if circ.v_clamp is not None:
@@ -316,6 +344,7 @@ class SteadyState:
     orbit: OrbitSolution
     integrals: dict
     circuit: BootstrapCircuit  # the circuit solved (its v_hold: the rail reverse_biased presumed)
+    masks: LoopMasks  # the loop's interval masks (reverse-biased intervals and their onsets)
 
     @property
     def t(self) -> np.ndarray:
@@ -340,20 +369,22 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
     """Periodic steady state over :func:`~explorer.schedule.period_schedule` (exact; see the engine)."""
     circ = circ or bootstrap_circuit(design, option, corner)
     s = period_schedule(design)
-    loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
+    masks = loop_masks(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
+    loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True, masks=masks)
     orb = solve_orbit(_bc(loop))
-    if not _presumption_holds(circ, s, orb):
+    if not _presumption_holds(circ, masks, orb):
         circ = dataclasses.replace(circ, v_hold=0.0)
-        loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
+        masks = loop_masks(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
+        loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True, masks=masks)
         orb = solve_orbit(_bc(loop))
     if not orb.converged:
         warnings.warn("bootstrap steady state: the orbit iteration did not converge; figures are approximate",
                       ModelValidityWarning, stacklevel=2)
     ints = interval_integrals(orb.v_start, loop, r_ext=circ.r_ext) if np.all(np.isfinite(orb.v_start)) else {}
-    return SteadyState(s, loop, orb, ints, circ)
+    return SteadyState(s, loop, orb, ints, circ, masks)
 
 
-def _presumption_holds(circ: BootstrapCircuit, s: Schedule, orb) -> bool:
+def _presumption_holds(circ: BootstrapCircuit, m: LoopMasks, orb) -> bool:
     """Whether the orbit bears out the rail :func:`reverse_biased` presumed (``circ.v_hold``).
 
     The rule counts an interval reverse-biased where V_SW + v_hold ≥ V_DD. The orbit says whether
@@ -367,10 +398,8 @@ def _presumption_holds(circ: BootstrapCircuit, s: Schedule, orb) -> bool:
         return True
     if not (np.all(np.isfinite(orb.v_start)) and np.all(np.isfinite(orb.v_end))):
         return False
-    lev, prev_l, _ = ffill_levels(s.dt, s.v_sw, s.hs_on, True, 0.0, False)
-    rev, _ = reverse_biased(lev, prev_l, s.dt > 0, circ.v_dd, circ.v_hold)
     low = np.minimum(orb.v_start, orb.v_end)
-    return not np.any(rev & (s.dt > 0) & (lev + low < circ.v_dd))
+    return not np.any(m.rev & m.live & (m.lev + low < circ.v_dd))
 
 
 def _bc(loop: Loop) -> Loop:
@@ -1330,8 +1359,8 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
         return _PowerPart()
     sched, orb, loop, ints = ss.schedule, ss.orbit, ss.loop, steady.ints
     T = sched.period
-    lev, prev_l, _ = ffill_levels(sched.dt, sched.v_sw, sched.hs_on, True, 0.0, False)
-    rev, rise = reverse_biased(lev, prev_l, sched.dt > 0, circ.v_dd, circ.v_hold)  # the interval loop's own masks
+    m = ss.masks  # the interval loop's own masks
+    lev, prev_l, rev, rise = m.lev, m.prev_l, m.rev, m.onset
     n_rise = int(np.count_nonzero(rise))
     t_rev = float(np.sum(sched.dt[rev]))
     q_d = float(np.sum(ints["q_d"]))
