@@ -79,7 +79,8 @@ __all__ = ["export_netlist", "export_all", "netlist_probes", "netlist_plan", "Ne
 
 #: Analysis periods simulated after the rail has settled [-].
 STEADY_PERIODS = 4
-#: Time constants allowed for the rail to settle after start-up (e^-12 ≈ 6e-6) [-].
+#: Time constants allowed for the rail to settle after start-up (e^-12 ≈ 6e-6): of the rail's slowest approach
+#: to its steady state (a bootstrap: the steady orbit's contraction per period, see the option model) [-].
 SETTLE_TAU = 12.0
 #: Output points per fastest period of interest (switching or pump clock) [-]; the
 #: PWL corners are breakpoints, so the simulator also steps onto every edge.

@@ -566,3 +566,44 @@ def test_higher_duty_never_raises_the_minimum(f, c, junction):
     h = np.linspace(0.05, 0.95 - 2 * d.bridge.dead_time * f, 40)
     m = rail_min_map(d, o, f, h)
     assert np.all(np.diff(m) <= 1e-12)
+
+
+# --------------------------------------------------------------------------- contraction of the orbit
+
+@pytest.mark.parametrize("over", [
+    # an invented half bridge whose dead-time undershoot lifts the rail above V_DD − V_F: the diode
+    # refreshes in the 200 ns dead time only
+    {"bridge.topology": "half_bridge", "bridge.v_out": None, "bridge.duty": 0.5, "bridge.v_bus": 60,
+     "bridge.f_sw": 100e3, "bridge.dead_time": 200e-9},
+    {},  # the demo buck: refreshed through the whole low-side on-time
+])
+def test_orbit_contraction_against_solve_ivp(over):
+    # source: scipy.integrate.solve_ivp (LSODA) on C·dV/dt = max(V_s − V_F − V, 0)/R − I − G·V over one
+    # analysis period with the charge steps at the interval starts, from the orbit ± 1 mV: the ratio of
+    # the deviations after one period is the contraction ρ (linear diode, so exact up to cut-off kinks)
+    from explorer.options.bootstrap import orbit_contraction
+    d = _plain(**over, **{"bridge.v_undershoot": 1.0})
+    o = d.options[0]
+    ss = steady_state(d, o)
+    lp = ss.loop
+    n = lp.dt.size
+
+    def col(x):
+        return np.broadcast_to(np.asarray(x, dtype=float), (n,))
+
+    dt, vs, il, gl, q = col(lp.dt), col(lp.v_src), col(lp.i_load), col(lp.g_load), col(lp.q_step)
+    C, R, vf = float(lp.c), float(lp.r), float(lp.v_f)
+
+    def period(v):
+        for k in range(n):
+            v -= q[k] / C
+            if dt[k] > 0:
+                v = solve_ivp(lambda t, x: [(max(vs[k] - vf - x[0], 0.0) / R - il[k] - gl[k] * x[0]) / C],
+                              (0, dt[k]), [v], rtol=1e-12, atol=1e-14, method="LSODA").y[0, -1]
+        return v
+
+    v_star = float(ss.orbit.v_pre[0])  # before the first interval's step, as `period` starts
+    h = 1e-3
+    rho_ivp = (period(v_star + h) - period(v_star - h)) / (2 * h)
+    assert period(v_star) == pytest.approx(v_star, abs=1e-8)  # the model's orbit is the integrator's too
+    assert orbit_contraction(ss) == pytest.approx(rho_ivp, rel=1e-5)

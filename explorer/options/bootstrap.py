@@ -384,6 +384,22 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
     return SteadyState(s, loop, orb, ints, circ, masks)
 
 
+def orbit_contraction(ss: SteadyState) -> float:
+    """How much of a deviation from the steady orbit survives one analysis period [-].
+
+    The product of the interval maps' slopes dv_end/dv_start at the orbit (the charge steps shift a
+    map, they do not change its slope): ρ = Π_k s_k, so a rail δ off the orbit is ρ·δ off one period
+    later and settles with e-fold time T/(−ln ρ). 1 where the rail is never refreshed; NaN when the
+    orbit has no finite solution.
+    """
+    from ..engines.rail_orbit import interval_map
+    v0 = ss.orbit.v_start
+    if not np.all(np.isfinite(v0)):
+        return math.nan
+    _, slope = interval_map(v0, _bc(ss.loop))
+    return float(np.prod(np.where(ss.loop.dt > 0, slope, 1.0)))
+
+
 def _presumption_holds(circ: BootstrapCircuit, m: LoopMasks, orb) -> bool:
     """Whether the orbit bears out the rail :func:`reverse_biased` presumed (``circ.v_hold``).
 
@@ -1677,12 +1693,26 @@ class BootstrapModel(SupplyModel):
         return {f"options[{index}].i_leak": option.i_leak * growth}
 
     def netlist_settle_time(self, design, option, result, corner):
+        """SETTLE_TAU e-folds of the slower of two rates: the loop's τ = R·C over the SW-low share of the
+        period, and the steady orbit's own contraction per analysis period (:func:`orbit_contraction`).
+
+        The second is what sets the approach to the orbit when the diode conducts for less than the
+        SW-low time: a rail that the dead-time undershoot lifts above V_DD − V_F refreshes only in the
+        dead time (half bridge, 200 ns of 10 µs), so it settles over tens of periods, not a few τ.
+        """
         from ..netlist import SETTLE_TAU
         circ = bootstrap_circuit(design, option, corner)
         s = period_schedule(design)
+        tau = circ.r_tot * circ.c
         # the loop only refreshes while SW is at the low-side level or below (not while it rests at V_out)
         low = float(s.dt[s.v_sw <= max(design.bridge.v_sw_low, 0.0)].sum() / s.period)
-        return SETTLE_TAU * circ.r_tot * circ.c / max(low, 1e-3)
+        rate = low / tau
+        with warnings.catch_warnings():
+            warnings.simplefilter("ignore", ModelValidityWarning)
+            rho = orbit_contraction(steady_state(design, option, corner, circ))
+        if 0.0 < rho < 1.0:
+            rate = min(rate, -math.log(rho) / s.period)
+        return SETTLE_TAU / max(rate, 1e-3 / tau)
 
     def netlist_delivered(self, design, option, corner, schedule, n_cycles, t_uvlo):
         """The pulses the model's own start-up delivers (UVLO decided interval by interval)."""
