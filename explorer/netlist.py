@@ -400,11 +400,10 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
               f"CBOOT vb cb {_n(circ.c)} IC=0",
               f"RESR cb vs {_n(max(option.esr, R_MIN))}"]
     if option.v_clamp is not None:
-        # the part itself: a sharp Zener across C_boot's terminals (the model caps the charge target at
-        # v_clamp instead, so its rail approaches the clamp from below and is the lower of the two)
-        lines += ["* clamp across C_boot: a sharp Zener breaking down at v_clamp (1 nA there, ~5 mV to 1 A)",
+        # a sharp Zener across C_boot's terminals: the model's ideal clamp holds the rail at v_clamp
+        lines += ["* clamp across C_boot: a sharp Zener, 1 mA at v_clamp (within about 2 mV of it from 1 uA to 1 A)",
                   "DZ vs vb DCLAMP",
-                  f".model DCLAMP D(IS={_n(SHARP_IS)} N={_n(SHARP_N)} BV={_n(option.v_clamp)} IBV=1e-09 "
+                  f".model DCLAMP D(IS={_n(SHARP_IS)} N={_n(SHARP_N)} BV={_n(option.v_clamp)} IBV=0.001 "
                   f"NBV={_n(SHARP_N)})"]
     return lines
 

@@ -74,7 +74,8 @@ def options(draw, i, kinds=None, f_cp_min=1e3, junction=True):
             diode = {"i_s": draw(logu(1e-15, 1e-6)), "n": draw(st.floats(1, 2)), "r_s": draw(logu(1e-3, 10))}
         return {"label": f"opt{i}", "kind": kind, **cap, "r": draw(logu(1e-2, 1e3)), "diode": diode,
                 "q_rr": draw(st.sampled_from([0, 1e-9, 20e-9])), "c_j": draw(st.sampled_from([0, 10e-12])),
-                "i_leak": draw(st.sampled_from([0, 1e-6, 1e-3])), "v_rrm": draw(st.sampled_from([None, 100, 1200]))}
+                "i_leak": draw(st.sampled_from([0, 1e-6, 1e-3])), "v_rrm": draw(st.sampled_from([None, 100, 1200])),
+                "v_clamp": draw(st.sampled_from([None, None, None, 5.0, 11.0, 15.0]))}
     if kind == "charge_pump":
         return {"label": f"opt{i}", "kind": kind, "ratio": draw(st.sampled_from(["1:1", "1:2", "2:1"])),
                 "f_cp": draw(logu(f_cp_min, 5e6)), "c_fly": capacitor(draw), "c_out": capacitor(draw),

@@ -84,7 +84,8 @@ def bootstrap_charge_residual(design, option):
     """Charge imbalance of the bootstrap's steady-state period and its tolerance [C] (None: never refreshed).
 
     Σ q_d (diode charge into C) against Σ q_step + Σ I·dt + Σ G·∫V dt (charge out: gate and
-    level-shift steps, recovery and junction charge, quiescent and leakage current, pull-down).
+    level-shift steps, recovery and junction charge, quiescent and leakage current, pull-down), plus
+    the charge a clamp across C_boot takes.
     Tolerance: 1e-9 of the charge flows, with a floor where a periodic orbit closed to the
     engine's Newton tolerance (1e-13 relative in V) leaves C·δV of the stored charge (the junction
     map gives q_d = C·ΔV + I·dt), plus the rounding of the charge the loop could move in the
@@ -101,6 +102,8 @@ def bootstrap_charge_residual(design, option):
     ints = ss.integrals
     q_in = float(np.sum(ints["q_d"]))
     flows = [np.sum(lp.q_step), np.sum(lp.i_load * lp.dt), np.sum(lp.g_load * ints["int_v"])]
+    if "q_clamp" in ints:  # a clamp across C_boot is one more branch the diode charge leaves by
+        flows.append(np.sum(ints["q_clamp"]))
     q_out = float(sum(flows))
     scale = max(abs(q_in), sum(abs(float(f)) for f in flows))
     v_top = float(np.max(np.abs(ss.orbit.v_start)))

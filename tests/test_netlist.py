@@ -155,25 +155,23 @@ def test_longest_run_is_cyclic():
 
 
 @pytest.mark.ngspice
-@pytest.mark.filterwarnings("ignore::explorer.errors.ModelValidityWarning")
-@pytest.mark.parametrize("diode, rel_rail", [(None, 5e-3), ({"i_s": 2e-9, "n": 1.9, "r_s": 0.4}, 3e-2)])
-def test_clamp_is_conservative_against_a_zener(diode, rel_rail, ngspice):
-    # reference: ngspice 39 with a sharp Zener across C_boot (the exported netlist: the part itself),
-    # an invented 12 V aux rail clamped at 11 V with a 2 V dead-time undershoot. The model caps the
-    # charge target instead, so its rail is at or below the Zener's and its start-up no faster; within
-    # the bootstrap issue's 0.5 % for the straight-line diode, 3 % for the junction (its slow tail)
+@pytest.mark.parametrize("diode", [None, {"i_s": 2e-9, "n": 1.9, "r_s": 0.4}])
+def test_clamp_against_a_zener(diode, ngspice):
+    # reference: ngspice 39 with a sharp Zener across C_boot (the exported netlist), an invented 12 V aux
+    # rail clamped at 11 V with a 2 V dead-time undershoot; the bootstrap issue's tolerances (rail 0.5 %,
+    # time to UVLO-on 3 %). The model's clamp is ideal, the netlist's Zener is 2 mV above it at 1 A, so the
+    # rail agrees to about 5e-4 (a cap on the charge target instead was 1.7 % low with the junction diode
+    # and started 9 % late)
     changes = {**SHORT, "options[0].v_clamp": 11.0, "bridge.v_undershoot": 2.0, "bridge.dead_time": 100e-9}
     if diode:
         changes["options[0].diode"] = diode
     design = replace_fields(demo_design(), changes)
     ng = ngspice_figures(design, LABELS[0])
+    _assert_bootstrap_tolerances(ng)
     r = ng["plan"].result
-    assert any("clamp across C_boot" in w for w in r.warnings)
-    assert r.v_rail.min <= ng["min"] and r.v_rail.max <= ng["max"]
-    assert r.startup.t_uvlo >= ng["t_uvlo"]
-    assert ng["min"] == pytest.approx(r.v_rail.min, rel=rel_rail)
-    assert ng["max"] == pytest.approx(r.v_rail.max, rel=rel_rail)
-    assert ng["max"] == pytest.approx(11.0, abs=0.02)  # the Zener holds the rail at its breakdown
+    assert ng["mean"] == pytest.approx(r.v_rail.mean, rel=1e-3)
+    assert r.v_rail.max == pytest.approx(11.0, abs=1e-9)  # held at the clamp
+    assert r.losses["clamp"] > 0
 
 
 @pytest.mark.ngspice

@@ -8,11 +8,14 @@ quadrature of :class:`explorer.engines.rail_junction.LoadedJunction`.
 
 from __future__ import annotations
 
+import dataclasses
+
 import numpy as np
 
-from .rail_junction import LoadedJunction, junction_map, loaded_junction_integrals, separated_phi, w_of_v, wright_omega
+from .rail_junction import (LoadedJunction, junction_current, junction_map, loaded_junction_integrals, separated_phi,
+                            w_of_v, wright_omega)
 from .rail_linear import linear_map, off_params, off_time_to
-from .rail_loop import Loop, broadcast_loop, take_loop
+from .rail_loop import LOOP_ARRAYS, Loop, broadcast_loop, take_loop, unclamped
 
 __all__ = ["bose_moments", "junction_integrals", "interval_integrals", "crossing_time"]
 
@@ -201,6 +204,12 @@ def junction_integrals(v0, v1, loop: Loop, r_ext) -> dict:
 def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
     """Charge and energy integrals of each interval, starting at ``v0`` (after the step).
 
+    With a clamp (:class:`~explorer.engines.rail_loop.Loop`) an interval whose rail reaches it is
+    integrated up to the crossing (:func:`crossing_time`) and then at the clamp, where the capacitor
+    carries no current and the clamp takes the diode current the loads do not; ``q_clamp`` [C] and
+    ``e_clamp`` [J] are the clamp's charge and energy (a step that would end above the clamp hands it
+    the excess, ½·C·(v0² − v_clamp²)).
+
     Parameters
     ----------
     v0 : ndarray [V]
@@ -223,6 +232,8 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
     the composite Gauss–Legendre rule of :class:`LoadedJunction`.
     """
     loop = broadcast_loop(loop)
+    if loop.v_clamp is not None:
+        return _clamped_integrals(v0, loop, r_ext)
     c, dt, i_load, g_load, R = loop.c, loop.dt, loop.i_load, loop.g_load, loop.r
     v0 = np.broadcast_to(v0, dt.shape)
     r_ext = np.broadcast_to(R if r_ext is None else r_ext, dt.shape)
@@ -261,9 +272,7 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
         e_d = np.zeros(dt.shape)
         i_d0 = np.zeros(dt.shape)
         if np.any(able):
-            sub = Loop(**{k: getattr(loop, k)[able] for k in
-                          ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
-                       diode="junction")
+            sub = Loop(**{k: getattr(loop, k)[able] for k in LOOP_ARRAYS}, diode="junction")
             loaded = sub.g_load > 0  # the pull-down loads the rail while the diode conducts
             out = {k: np.zeros(sub.dt.shape) for k in ("q_d", "i2_d", "int_v", "int_v2", "i2_c", "e_d", "i_d0")}
             v1_able = np.array(v1[able], dtype=float)
@@ -285,6 +294,43 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
     e_load = i_load * int_v + g_load * int_v2
     return {"q_d": q_d, "i2_d": i2_d, "int_v": int_v, "e_load": e_load, "i2_c": i2_c,
             "e_r": r_ext * i2_d, "e_d": e_d, "i_d0": i_d0, "v1": v1}
+
+
+def _clamped_integrals(v0, loop: Loop, r_ext) -> dict:
+    """:func:`interval_integrals` of a clamped loop (its notes): the free loop up to the clamp, then held."""
+    free = unclamped(loop)
+    vc, dt = loop.v_clamp, loop.dt
+    v0 = np.broadcast_to(np.asarray(v0, dtype=float), dt.shape)
+    v_in = np.minimum(v0, vc)
+    v1_free = (linear_map(v_in, free)[0] if loop.diode == "linear" else junction_map(v_in, free)[0])
+    hit = v1_free > vc
+    t_c = dt
+    if np.any(hit):
+        t_x = crossing_time(v_in, vc, free)
+        t_c = np.where(hit & np.isfinite(t_x), np.minimum(t_x, dt), dt)
+        hit &= t_c < dt
+    out = interval_integrals(v_in, dataclasses.replace(free, dt=t_c), r_ext=r_ext)
+    R = loop.r
+    r_ext = np.broadcast_to(R if r_ext is None else r_ext, dt.shape)
+    held = np.where(hit, dt - t_c, 0.0)
+    if loop.diode == "linear":
+        i_d = np.maximum((loop.v_src - loop.v_f - vc) / R, 0.0)
+    else:
+        i_d = np.where(loop.v_src > vc, junction_current(np.minimum(vc, loop.v_src), free), 0.0)
+    i_d = np.where(hit, i_d, 0.0)
+    i_z = i_d - loop.i_load - loop.g_load * vc  # the clamp's share while it holds the rail
+    e_step = np.where(v0 > vc, 0.5 * loop.c * (v0 * v0 - vc * vc), 0.0)
+    q_step = np.where(v0 > vc, loop.c * (v0 - vc), 0.0)
+    out["q_d"] = out["q_d"] + i_d * held
+    out["i2_d"] = out["i2_d"] + i_d * i_d * held
+    out["int_v"] = out["int_v"] + vc * held
+    out["e_load"] = out["e_load"] + (loop.i_load + loop.g_load * vc) * vc * held
+    out["e_r"] = r_ext * out["i2_d"]
+    out["e_d"] = out["e_d"] + (loop.v_src - vc - r_ext * i_d) * i_d * held
+    out["q_clamp"] = i_z * held + q_step
+    out["e_clamp"] = i_z * vc * held + e_step
+    out["v1"] = np.where(hit, vc, np.minimum(out["v1"], vc))
+    return out
 
 
 def crossing_time(v0, v_th, loop: Loop):

@@ -32,8 +32,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .rail_linear import off_params, off_value
-from .rail_loop import Loop, broadcast_as
+from .rail_linear import clamped_map, off_params, off_value
+from .rail_loop import LOOP_ARRAYS, Loop, broadcast_as
 
 __all__ = ["wright_omega", "w_of_v", "junction_current", "separated_phi", "junction_map", "LoadedJunction",
            "loaded_junction_integrals"]
@@ -132,7 +132,12 @@ def junction_map(v0, loop: Loop, v1_guess=None):
     v1 : ndarray [V]
     slope : ndarray [-]
         dV1/dV0 = (i1 − I)/(i0 − I).
+
+    With a clamp (:class:`~explorer.engines.rail_loop.Loop`) the rail starts at min(v0, v_clamp) and
+    ends at most at v_clamp (:func:`~explorer.engines.rail_linear.clamped_map`).
     """
+    if loop.v_clamp is not None:
+        return clamped_map(v0, loop, lambda v, lp: junction_map(v, lp, v1_guess))
     c, dt, i_load, g_load = loop.c, loop.dt, loop.i_load, loop.g_load
     R, th, i_s = loop.r, loop.n_vt, loop.i_s
     able = np.asarray(loop.v_src) > 0
@@ -151,9 +156,7 @@ def junction_map(v0, loop: Loop, v1_guess=None):
         for sel, solve in ((ab & ~loaded, _junction_on), (ab & loaded, _junction_g_on)):
             if not sel.any():
                 continue
-            sub = Loop(**{k: broadcast_as(getattr(loop, k), shape)[sel] for k in
-                          ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")},
-                       diode="junction")
+            sub = Loop(**{k: broadcast_as(getattr(loop, k), shape)[sel] for k in LOOP_ARRAYS}, diode="junction")
             v1[sel], slope[sel] = solve(v0[sel], sub, None if v1_guess is None else broadcast_as(v1_guess, shape)[sel])
     return v1, slope
 

@@ -20,9 +20,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .rail_loop import Loop
+from .rail_loop import Loop, unclamped
 
-__all__ = ["off_params", "off_value", "off_time_to", "linear_map", "affine_maps"]
+__all__ = ["off_params", "off_value", "off_time_to", "linear_map", "affine_maps", "clamped_map"]
 
 
 def _expo(v0, veq, rate, t):
@@ -70,8 +70,12 @@ def linear_map(v0, loop: Loop):
     slope : ndarray [-]
         dV1/dV0 (in (0, 1]).
     regime : ndarray of int8
-        0 = A (conducting), 1 = B (cut off), 2 = C (cut off, then conducting).
+        0 = A (conducting), 1 = B (cut off), 2 = C (cut off, then conducting); with a clamp
+        (:class:`~explorer.engines.rail_loop.Loop`), 3 = the rail ends at the clamp, 4 = it starts
+        above it (a step) and is held there at the start (both slope 0).
     """
+    if loop.v_clamp is not None:
+        return clamped_map(v0, loop, lambda v, lp: linear_map(v, lp))
     c, dt, i_load, g_load = loop.c, loop.dt, loop.i_load, loop.g_load
     g = 1.0 / loop.r
     v_inf = loop.v_src - loop.v_f
@@ -115,3 +119,22 @@ def affine_maps(loop: Loop):
     with np.errstate(divide="ignore", invalid="ignore"):
         b_off = np.where(g_load > 0, -i_load / g_load * (1.0 - e_off), -i_load / c * dt)
     return np.where(able, e_on, e_off), np.where(able, b_on, b_off), able, v_inf
+
+
+def clamped_map(v0, loop: Loop, free_map):
+    """An interval map with the loop's clamp: ``free_map(v, loop)`` of the unclamped loop from
+    min(v0, v_clamp), its end value capped at v_clamp (the rail is monotone in an interval, so one that
+    ends above the clamp reached it and was held there). Returns the free map's outputs with the value
+    capped and the slope 0 where the clamp acts; a third output (the regime) gets 3 where the end is
+    clamped and 4 where only the start is.
+    """
+    vc = loop.v_clamp
+    entry = v0 > vc
+    out = free_map(np.minimum(v0, vc), unclamped(loop))
+    v1, slope = out[0], out[1]
+    end = v1 > vc
+    held = entry | end
+    res = (np.minimum(v1, vc), np.where(held, 0.0, slope))
+    if len(out) > 2:
+        res += (np.where(end, 3, np.where(entry, 4, out[2])).astype(np.int8),)
+    return res

@@ -10,7 +10,11 @@ Per interval ``j`` of a schedule the loop source is ``v_src = V_DD − v_sw``,
 the load is a constant current ``I`` (driver quiescent current, leakage) plus
 a conductance ``G`` (gate pull-down while the high side is on), and a charge
 ``q`` is removed at the interval start (gate charge at turn-on, recovery and
-junction charge at switch-node edges).
+junction charge at switch-node edges). An optional clamp (a Zener across C) holds
+the rail at ``v_clamp`` once it gets there: the rail is monotone within an interval,
+so a rising rail that reaches the clamp stays at it to the interval's end while the
+clamp takes the diode current the loads do not (the maps' ``min(·, v_clamp)``), and
+a step that would lift it above the clamp ends at the clamp.
 
 The maps are in :mod:`explorer.engines.rail_linear` (straight-line diode),
 :mod:`explorer.engines.rail_junction` (exponential junction), their composition
@@ -24,7 +28,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["K_B", "Q_E", "broadcast_as", "thermal_voltage", "Loop", "broadcast_loop", "take_loop"]
+__all__ = ["K_B", "Q_E", "broadcast_as", "thermal_voltage", "Loop", "LOOP_ARRAYS", "broadcast_loop", "take_loop",
+           "map_loop", "unclamped"]
 
 
 #: Boltzmann constant [J/K] (SI 2019 exact value, BIPM SI Brochure 9th ed.).
@@ -74,6 +79,8 @@ class Loop:
     i_s, n_vt : ndarray or float [A], [V]
         Junction saturation current and n·V_T (``diode == "junction"``).
     diode : {"linear", "junction"}
+    v_clamp : ndarray, float or None [V]
+        Clamp across the capacitor (None: none); see the module notes.
     """
 
     dt: np.ndarray
@@ -87,6 +94,7 @@ class Loop:
     i_s: np.ndarray = 1e-14
     n_vt: np.ndarray = 0.025
     diode: str = "linear"
+    v_clamp: np.ndarray | None = None
 
     @property
     def able(self) -> np.ndarray:
@@ -96,12 +104,29 @@ class Loop:
         return np.asarray(self.v_src) > 0.0
 
 
+#: The array fields of a :class:`Loop` (``v_clamp`` joins them where it is set).
+LOOP_ARRAYS = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
+
+
+def _fields(loop: Loop) -> tuple:
+    return LOOP_ARRAYS if loop.v_clamp is None else LOOP_ARRAYS + ("v_clamp",)
+
+
 def broadcast_loop(loop: Loop) -> Loop:
-    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
+    names = _fields(loop)
     arrs = np.broadcast_arrays(*[np.asarray(getattr(loop, k), dtype=float) for k in names])
     return Loop(**dict(zip(names, arrs)), diode=loop.diode)
 
 
+def map_loop(loop: Loop, fn) -> Loop:
+    """The loop with ``fn`` applied to each of its array fields (the clamp too, where set)."""
+    return Loop(**{k: fn(getattr(loop, k)) for k in _fields(loop)}, diode=loop.diode)
+
+
 def take_loop(loop: Loop, idx) -> Loop:
-    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
-    return Loop(**{k: getattr(loop, k)[idx] for k in names}, diode=loop.diode)
+    return map_loop(loop, lambda a: a[idx])
+
+
+def unclamped(loop: Loop) -> Loop:
+    """The same loop without its clamp."""
+    return loop if loop.v_clamp is None else Loop(**{k: getattr(loop, k) for k in LOOP_ARRAYS}, diode=loop.diode)

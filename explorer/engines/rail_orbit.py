@@ -26,7 +26,7 @@ import numpy as np
 from .affine import affine_scan
 from .rail_junction import junction_map
 from .rail_linear import affine_maps, linear_map
-from .rail_loop import Loop, broadcast_loop, take_loop
+from .rail_loop import Loop, broadcast_loop, map_loop, take_loop
 
 __all__ = ["interval_map", "OrbitSolution", "solve_orbit", "steady_rail", "propagate"]
 
@@ -182,7 +182,7 @@ def _surrogate(loop: Loop) -> Loop:
     v_f = loop.n_vt * np.log1p(i_t / loop.i_s) - r_d * i_t
     return broadcast_loop(Loop(dt=loop.dt, v_src=loop.v_src, c=loop.c, r=loop.r + r_d, i_load=loop.i_load,
                                 g_load=loop.g_load, q_step=loop.q_step, v_f=v_f, i_s=loop.i_s,
-                                n_vt=loop.n_vt, diode="linear"))
+                                n_vt=loop.n_vt, diode="linear", v_clamp=loop.v_clamp))
 
 
 def _solve_block(loop: Loop, v_init, tol, v_guess=None):
@@ -198,6 +198,8 @@ def _solve_block(loop: Loop, v_init, tol, v_guess=None):
         u = _fixed_point(a, b, q, v_init)
         v0 = u - q
         bad = (able & (v0 > v_inf)).any(axis=-1)
+        if loop.v_clamp is not None:  # where the clamp acts the maps are not these affine ones
+            bad |= ((v0 > loop.v_clamp) | (a * v0 + b > loop.v_clamp)).any(axis=-1)
         passes = 1
         converged = True
         if np.any(bad):
@@ -243,8 +245,7 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
     shape = loop.dt.shape
     n = shape[-1]
     rows = int(np.prod(shape[:-1], dtype=np.int64))
-    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
-    flat = Loop(**{k: np.reshape(getattr(loop, k), (rows, n)) for k in names}, diode=loop.diode)
+    flat = map_loop(loop, lambda a: np.reshape(a, (rows, n)))
     vi = None if v_init is None else np.broadcast_to(np.asarray(v_init, dtype=float), shape[:-1]).reshape(rows)
     u = np.empty((rows, n))
     v0 = np.empty((rows, n))
@@ -258,6 +259,8 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
         u[sl], v0[sl], v1[sl], p, ok = _solve_block(blk, None if vi is None else vi[sl], tol, vg)
         passes = max(passes, p)
         converged &= ok
+    if loop.v_clamp is not None:  # a step that would lift the rail above the clamp ends at it
+        v0 = np.minimum(v0, flat.v_clamp)
     v_min = v1[:, -1].copy()
     v_max = v1[:, -1].copy()
     if n <= 32:  # column loop: much faster than a reduction over a short last axis
@@ -274,7 +277,7 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
 
 
 def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
-                diode: str = "linear", i_s=1e-14, n_vt=0.025, v_guess=None) -> OrbitSolution:
+                diode: str = "linear", i_s=1e-14, n_vt=0.025, v_guess=None, v_clamp=None) -> OrbitSolution:
     """Periodic steady state of the bootstrap rail for a batch of schedules.
 
     All arrays broadcast against ``dt`` shaped ``(..., n)`` (``n`` intervals of
@@ -308,6 +311,8 @@ def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
         Starting values of the post-step interval starts (junction diode only;
         e.g. the orbit of a nearby design). Speeds up the iteration; the answer
         is the same within the tolerance.
+    v_clamp : array_like [V], optional
+        Clamp across the capacitor (:class:`~explorer.engines.rail_loop.Loop`).
 
     Returns
     -------
@@ -331,7 +336,7 @@ def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
     True
     """
     loop = broadcast_loop(Loop(dt=dt, v_src=v_src, c=c, r=r, i_load=i_load, g_load=g_load,
-                                q_step=q_step, v_f=v_f, i_s=i_s, n_vt=n_vt, diode=diode))
+                                q_step=q_step, v_f=v_f, i_s=i_s, n_vt=n_vt, diode=diode, v_clamp=v_clamp))
     if v_guess is not None:
         v_guess = np.broadcast_to(np.asarray(v_guess, dtype=float), loop.dt.shape)
     return solve_orbit(loop, v_guess=v_guess)

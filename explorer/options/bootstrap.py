@@ -61,7 +61,7 @@ from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..engines.rail_integrals import crossing_time, interval_integrals
 from ..engines.rail_junction import junction_current
 from ..engines.rail_linear import off_time_to
-from ..engines.rail_loop import Loop, thermal_voltage
+from ..engines.rail_loop import LOOP_ARRAYS, Loop, map_loop, thermal_voltage
 from ..engines.rail_orbit import OrbitSolution, propagate, solve_orbit, steady_rail
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
@@ -105,7 +105,8 @@ class BootstrapCircuit:
     g_gs : float [S]     1/R_GS while the HS is on (0 without a pull-down)
     q_on : float [C]     Q_G + Q_LS at each HS turn-on
     q_off : float [C]    Q_LS at each HS turn-off (the level shifter's reset pulse)
-    v_clamp : float or None [V]  clamp (Zener) across C_boot: the charge target is capped at it
+    v_clamp : float or None [V]  clamp (Zener) across C_boot: the rail is held at it once it gets there
+                                 (:class:`~explorer.engines.rail_loop.Loop`)
     q_rr : float [C]     recovery charge where the diode becomes reverse-biased
     c_j : float [F]      diode junction capacitance
     v_bus : float [V]
@@ -142,12 +143,6 @@ class BootstrapCircuit:
         if self.diode == "linear":
             return self.v_f + (self.r_tot - self.r_ext) * i
         return self.n_vt * np.log1p(i / self.i_s) + (self.r_tot - self.r_ext) * i
-
-
-def clamp_headroom(circ: BootstrapCircuit) -> float:
-    """How far the loop's source sits above the rail it charges toward [V]: V_F for the straight-line diode
-    (its cut-off), the junction's drop at the standing load I_Q (n·V_T·ln(1 + I_Q/I_S) + r_s·I_Q)."""
-    return circ.v_f if circ.diode == "linear" else float(circ.drop(circ.i_q))
 
 
 def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "nominal") -> BootstrapCircuit:
@@ -327,16 +322,8 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     i_load = circ.i_q + circ.i_leak * m.rev
     g_load = circ.g_gs * hs_on
     v_src = circ.v_dd - v_sw
-    if circ.v_clamp is not None:
-        # a clamp across C_boot: the diode charges the rail toward at most v_clamp (the target capped:
-        # the source less the diode's drop, at zero current for the straight line and at the standing
-        # load I_Q for the junction, which has no cut-off). A Zener lets the rail charge at the full
-        # source until it reaches v_clamp, so the real rail is higher and its start-up faster (an
-        # invented 12 V / 11 V case: ngspice with the Zener starts 9 % sooner, rail min 0.1 % higher):
-        # conservative
-        v_src = np.minimum(v_src, circ.v_clamp + clamp_headroom(circ))
     return Loop(dt=dt, v_src=v_src, c=circ.c, r=circ.r_tot, i_load=i_load, g_load=g_load,
-                q_step=q, v_f=circ.v_f, i_s=circ.i_s, n_vt=circ.n_vt, diode=circ.diode)
+                q_step=q, v_f=circ.v_f, i_s=circ.i_s, n_vt=circ.n_vt, diode=circ.diode, v_clamp=circ.v_clamp)
 
 
 def _schedule_arrays(s: Schedule):
@@ -364,13 +351,13 @@ class SteadyState:
         """Charge the diode delivers and the charge the loads take over the period [C], [C].
 
         Loads: the steps (gate + level shift, recovery, junction capacitance),
-        the constant currents and the pull-down conductance times ∫V dt. In a
-        periodic steady state the two are equal (conservation of charge).
+        the constant currents, the pull-down conductance times ∫V dt and a clamp's charge.
+        In a periodic steady state the two are equal (conservation of charge).
         """
         ints = self.integrals
         q_in = float(np.sum(ints["q_d"]))
         q_out = (float(np.sum(self.loop.q_step)) + float(np.sum(self.loop.i_load * self.schedule.dt))
-                 + float(np.sum(self.loop.g_load * ints["int_v"])))
+                 + float(np.sum(self.loop.g_load * ints["int_v"])) + float(np.sum(ints.get("q_clamp", 0.0))))
         return q_in, q_out
 
 
@@ -390,8 +377,16 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
     if not orb.converged:
         warnings.warn("bootstrap steady state: the orbit iteration did not converge; figures are approximate",
                       ModelValidityWarning, stacklevel=2)
-    ints = interval_integrals(orb.v_start, loop, r_ext=circ.r_ext) if np.all(np.isfinite(orb.v_start)) else {}
+    ints = (interval_integrals(post_step(orb, loop), loop, r_ext=circ.r_ext) if np.all(np.isfinite(orb.v_start))
+            else {})
     return SteadyState(s, loop, orb, ints, circ, masks)
+
+
+def post_step(orb: OrbitSolution, loop: Loop) -> np.ndarray:
+    """The rail just after each interval's charge step, before a clamp acts on it [V]: ``orb.v_start``
+    without a clamp; with one, V_pre − q/C (a step that would end above the clamp hands it the excess,
+    which the interval integrals count as the clamp's)."""
+    return orb.v_start if loop.v_clamp is None else orb.v_pre - loop.q_step / loop.c
 
 
 def longest_run(dt, mask) -> float:
@@ -696,7 +691,9 @@ def _rotated_orbit(loop: Loop, steady: SteadyState) -> OrbitSolution | None:
     L = loop.dt.shape[-1]
     if ref.dt.shape != loop.dt.shape or ref.diode != loop.diode:
         return None
-    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
+    if (ref.v_clamp is None) != (loop.v_clamp is None):
+        return None
+    names = LOOP_ARRAYS if ref.v_clamp is None else LOOP_ARRAYS + ("v_clamp",)
     for r in range(L):
         if all(np.array_equal(np.roll(getattr(ref, k), -r), getattr(loop, k)) for k in names):
             o = steady.orbit
@@ -853,7 +850,8 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         loop = schedule_loop(circ, dt, v, hs, periodic=True)
         orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
                           g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
-                          n_vt=loop.n_vt, v_guess=None if g_flat is None else g_flat[a:a + _MAP_BLOCK])
+                          n_vt=loop.n_vt, v_guess=None if g_flat is None else g_flat[a:a + _MAP_BLOCK],
+                          v_clamp=loop.v_clamp)
         out[a:a + _MAP_BLOCK] = np.where(_refresh_mask(loop, orb), orb.v_min, np.nan)
         if full:
             parts.append(orb)
@@ -980,7 +978,7 @@ def _worst_period(design, circ, t_hs_max):
                 r=circ.r_tot, i_load=circ.i_q + np.array([hi_leak, hi_leak, ls_leak, hi_leak]),
                 g_load=np.array([circ.g_gs, 0.0, 0.0, 0.0]),
                 q_step=np.array([circ.q_on + q_edge, circ.q_off, 0.0, q_edge]), v_f=circ.v_f, i_s=circ.i_s,
-                n_vt=circ.n_vt, diode=circ.diode)
+                n_vt=circ.n_vt, diode=circ.diode, v_clamp=circ.v_clamp)
     return _bc(loop)
 
 
@@ -1031,14 +1029,13 @@ def fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     worst = _worst_period(design, circ, np.array(peak_hs))
     lower = steady_rail(worst.dt, worst.v_src, c=worst.c, r=worst.r, v_f=worst.v_f, i_load=worst.i_load,
                         g_load=worst.g_load, q_step=worst.q_step, diode=worst.diode, i_s=worst.i_s,
-                        n_vt=worst.n_vt).v_min
+                        n_vt=worst.n_vt, v_clamp=worst.v_clamp).v_min
     lower = np.where(np.isfinite(lower), lower, -np.inf)
     size = min(a[0].size for a in arrs)
     t_hs, t_ls, la, lb = (np.array([a[j][-size:] for a in arrs]) for j in range(4))
     dt, v, hs = duty_slots(design, t_hs, t_ls, la, lb, T)
     loop = _bc(schedule_loop(circ, dt, v, hs, periodic=False))
-    names = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
-    loop = Loop(**{nm: getattr(loop, nm)[:, 4:] for nm in names}, diode=loop.diode)
+    loop = map_loop(loop, lambda a: a[:, 4:])
     orb = propagate(loop, np.full(len(arrs), u_top))
     row_min = np.minimum(np.minimum(orb.v_pre.min(axis=-1), orb.v_start.min(axis=-1)), orb.v_end.min(axis=-1))
     row_min = np.where(np.isfinite(row_min), row_min, np.inf)
@@ -1184,9 +1181,6 @@ def _validity_messages(design: Design, circ: BootstrapCircuit) -> list[str]:
       ``τ = (r + esr + r_d)·C`` below ``TAU_EDGE_RATIO·t_edge`` settles within
       an edge, and its peak and RMS currents are set by the edge, not the loop.
 
-    * A clamp across C_boot that engages is a cap on the charge target in the model
-      (:func:`schedule_loop`), not a Zener: conservative for the rail, its dissipation left out.
-
     Edges longer than an interval of the schedule (a dead time, the LS refresh
     window, an HS pulse) are flagged for every model by
     :func:`explorer.schedule.schedule_validity`, which :func:`explorer.evaluate` reports.
@@ -1198,15 +1192,6 @@ def _validity_messages(design: Design, circ: BootstrapCircuit) -> list[str]:
         out.append(f"the charging loop's time constant (r + esr + diode)·C = {_fmt(tau, 's')} is far below the "
                    f"switch-node edge time {_fmt(b.t_edge, 's')}, which the model treats as instantaneous: the "
                    "loop settles within an edge, so the peak and RMS currents are set by the edge and not resolved")
-    if circ.v_clamp is not None:
-        s = period_schedule(design)
-        if circ.v_dd - float(np.min(s.v_sw)) - clamp_headroom(circ) > circ.v_clamp:
-            out.append(f"the clamp across C_boot (v_clamp = {_fmt(circ.v_clamp, 'V')}) engages and is modelled as a "
-                       "cap on the loop's charge target, not as the Zener itself: the model's rail approaches the "
-                       "clamp from below at the loop's rate, so its rail figures are lower and its start-up slower "
-                       "than with a real clamp (conservative for the rail checks; with a junction diode the rail "
-                       "can sit percent below the clamp), and the clamp's own dissipation is not in the losses; the "
-                       "exported netlist has the Zener, to confirm")
     return out
 
 
@@ -1418,7 +1403,9 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     q_ret = circ.q_rr * n_rise + circ.i_leak * t_rev
     p_aux = circ.v_dd * (q_d - q_ret) / T
     e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
-    v_step = 0.5 * (orb.v_pre + orb.v_start)  # rail voltage of a charge step: Q·(V_pre + V_post)/2
+    # rail voltage of a charge step: Q·(V_pre + V_post)/2, V_post the step's own end (a step that would
+    # end above a clamp hands the clamp the excess: ints["e_clamp"])
+    v_step = 0.5 * (orb.v_pre + post_step(orb, loop))
     # recovery and leakage flow from the cathode, V_B = V_SW + v, back to the anode at V_DD: the bus
     # gives Q·V_SW, C_boot gives Q·v (a step at each rise, a current over the reverse-biased intervals),
     # V_DD takes Q·V_DD back (q_ret, credited to the aux draw); the diode dissipates the difference
@@ -1441,6 +1428,8 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     losses = {"resistor": float(np.sum(ints["e_r"])) / T, "diode": float(np.sum(ints["e_d"])) / T,
               "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T,
               "junction_exchange": e_cj_rail / T}
+    if "e_clamp" in ints:  # the clamp across C_boot, while it holds the rail
+        losses["clamp"] = float(np.sum(ints["e_clamp"])) / T
     eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
     return _PowerPart(p_aux=p_aux, p_bus=p_bus, p_del=p_del, efficiency=eff, losses=losses,
                       details={"q_diode_per_period": q_d, "energy_switch_node": e_sw / T,
