@@ -292,8 +292,9 @@ def _edge_widths(s: Schedule, k: np.ndarray, edge: float) -> np.ndarray:
 
 
 def _charge_pulses(name: str, a: str, b: str, s: Schedule, k: np.ndarray, q: float, edge: float,
-                   t_stop: float) -> list[str]:
-    """Current sources drawing charge ``q`` from ``a`` to ``b`` over the edge starting at each interval in ``k``.
+                   t_stop: float, after_edge: bool = False) -> list[str]:
+    """Current sources drawing charge ``q`` from ``a`` to ``b`` over the edge starting at each interval in ``k``
+    (``after_edge``: over the same width just after it, with the switch node at its new level).
 
     One source per distinct edge width keeps each pulse's charge exact.
     """
@@ -301,7 +302,8 @@ def _charge_pulses(name: str, a: str, b: str, s: Schedule, k: np.ndarray, q: flo
     out = []
     for j, wj in enumerate(np.unique(w)):
         kk = k[w == wj]
-        out.append(f"{name}{j} {a} {b} {_pwl(_pulses(s.t_start[kk], np.full(kk.size, wj), q / wj, t_stop))}")
+        t0 = s.t_start[kk] + (wj if after_edge else 0.0)
+        out.append(f"{name}{j} {a} {b} {_pwl(_pulses(t0, np.full(kk.size, wj), q / wj, t_stop))}")
     return out
 
 
@@ -394,8 +396,11 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
         _, onset = _reverse_biased(design, s, v_sw, circ.v_hold)
         k = np.flatnonzero(onset & (s.dt > 0))
         if k.size:
-            lines.append("* diode recovery charge Q_rr wherever the diode becomes reverse-biased")
-            lines += _charge_pulses("IRR", "vb", "a", s, k, option.q_rr, design.bridge.t_edge, plan.t_stop)
+            # just after the edge, at the full reverse voltage, as the model prices it (an upper bound: a
+            # recovery during the rise sees less of the bus)
+            lines.append("* diode recovery charge Q_rr wherever the diode becomes reverse-biased (after the edge)")
+            lines += _charge_pulses("IRR", "vb", "a", s, k, option.q_rr, design.bridge.t_edge, plan.t_stop,
+                                    after_edge=True)
     lines += [f"* C_boot: {_n(option.c)} F nominal, {_n(circ.c)} F effective at the '{corner}' corner",
               f"CBOOT vb cb {_n(circ.c)} IC=0",
               f"RESR cb vs {_n(max(option.esr, R_MIN))}"]
