@@ -676,3 +676,20 @@ def test_clamped_interval_against_solve_ivp(junction, v0, dt):
     assert ints["q_d"][0] == pytest.approx(q, rel=1e-7, abs=1e-18)
     assert ints["int_v"][0] == pytest.approx(iv, rel=1e-9)
     assert ints["e_clamp"][0] == pytest.approx(e_clamp, rel=1e-6, abs=1e-15)
+
+
+def test_no_duty_holds_when_one_pulse_empties_the_rail():
+    # hand-worked (charge conservation, Q = C·ΔV): an invented 15 nF capacitor (no DC-bias loss) charged
+    # at best to V_DD − V_F = 11.45 V gives Q_G + Q_LS = 61 nC per pulse a drop of 4.07 V, to 7.38 V, below
+    # the 8.5 V requirement: no HS pulse at any duty holds. Only duties below the driver's shortest pulse
+    # (100 ns = 2 % at 200 kHz), where the HS never turns on, keep the rail, and those are not a range
+    # the leg can run (the limit once read 2.0 % … 1.99 %, "V_out ≤ 954 mV")
+    d = _design(**{"options[0].c": 15e-9, "bridge.v_undershoot": 0.0, "gate.q_g": 60e-9,
+                   "options[0].dc_bias": None})
+    o = d.options[0]
+    assert bootstrap_circuit(d, o).c == pytest.approx(15e-9)
+    assert 12.0 - 0.55 - (60e-9 + 1e-9) / 15e-9 < 8.5
+    r = evaluate_option(d, o)
+    assert not r.feasible
+    assert r.duty.max is None and r.duty.min is None
+    assert r.duty.topology["v_out_max"] is None

@@ -1297,6 +1297,9 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
     refreshed, v_min, v_max = steady.refreshed, steady.v_min, steady.v_max
     h_need, h_uvlo = duty_limit(design, circ, [need, drv.uvlo_off])
     h_min = min(1.0, drv.t_on_min / _period(design))
+    # below the driver's shortest pulse the HS never turns on, so a rail that holds only there holds no
+    # duty the leg can run: no limit (not a range from h_min down to a lower h_need)
+    h_need, h_uvlo = (None if h is not None and h < h_min else h for h in (h_need, h_uvlo))
     # hold-up at 100 % duty from the steady-state maximum (the full charge target if never refreshed)
     v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
     if circ.v_clamp is not None:
