@@ -693,3 +693,17 @@ def test_no_duty_holds_when_one_pulse_empties_the_rail():
     assert not r.feasible
     assert r.duty.max is None and r.duty.min is None
     assert r.duty.topology["v_out_max"] is None
+
+
+@pytest.mark.parametrize("v_clamp, below", [(11.0, True), (11.8, False)])
+def test_clamp_below_the_charge_target_is_named(v_clamp, below):
+    # KVL around the charging loop: with SW low the rail charges toward V_DD − V_F = 12 − 0.55 = 11.45 V
+    # (hand-worked), so an invented 11 V clamp conducts at every refresh (about (11.45 − 11)/R = 0.17 A
+    # for most of the low-side time) while an 11.8 V one takes only the dead-time overcharge
+    d = _design(**{"options[0].v_clamp": v_clamp, "bridge.v_undershoot": 2.0, "bridge.dead_time": 100e-9})
+    r = evaluate_option(d, d.options[0])
+    assert r.losses["clamp"] > 0
+    named = any("below the rail's ordinary charge target" in w for w in r.warnings)
+    assert named == below
+    if below:
+        assert r.losses["clamp"] > 0.5 * r.p_drawn  # the clamp takes most of what is drawn

@@ -1335,6 +1335,17 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
     return duty, {"hold_up_uvlo_off": hold_uvlo, "duty_max_uvlo_off": h_uvlo, "t_refresh_at_limit": window}
 
 
+def _clamp_words(circ: BootstrapCircuit, power: _PowerPart) -> list[str]:
+    """A clamp below the ordinary charge target conducts at every refresh, not only after an overcharge."""
+    p = (power.losses or {}).get("clamp", 0.0)
+    target = circ.v_dd - circ.v_sw_low - float(circ.drop(circ.i_q))
+    if circ.v_clamp is None or p <= 0.0 or circ.v_clamp >= target:
+        return []
+    return [f"the clamp across C_boot ({_fmt(circ.v_clamp, 'V')}) sits below the rail's ordinary charge target "
+            f"V_DD − V_F − V_SW(low) = {_fmt(target, 'V')}, so it conducts at every refresh and takes "
+            f"{_fmt(p, 'W')}; a clamp against the dead-time overcharge belongs above that target"]
+
+
 def overcharge_ceiling(v_dd: float, v_f: float, v_sw_lowest: float, v_clamp: float | None = None) -> float:
     """Highest rail the bootstrap can charge to [V]: V_DD − V_F − (lowest switch-node level), clamp-limited.
 
@@ -1511,6 +1522,7 @@ def evaluate_option(design: Design, option: BootstrapOption, *, corner: str = "n
     duty, duty_details = _duty_part(design, circ, steady, ss.schedule, need, warn)
     caps, stress_details = _stress_part(design, option, circ, steady, ss, start, su_details["startup_v_max"])
     power = _power_part(design, circ, ss, steady, "v_min_model" in steady.details)
+    warn += _clamp_words(circ, power)
     checks = _checks_part(design, option, steady, need, caps[0].v_max, stress_details["diode_v_reverse"], su)
     feasible, verdict = verdict_from(checks, warn)
     details = BootstrapDetails(c_eff=circ.c, required_rail=need, **steady.details, **su_details, **duty_details,
