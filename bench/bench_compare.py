@@ -3,6 +3,7 @@
 Prints figures for docs/performance.md. Run: python bench/bench_compare.py
 """
 
+import os
 import warnings
 
 import numpy as np
@@ -73,6 +74,12 @@ def main():
     t = median_time(lambda: sweep(d, {"bridge.f_sw": np.geomspace(50e3, 1e6, 10), "duty": np.linspace(0.1, 0.9, 10)}), n=1)
     print(f"general sweep 10x10 points (f_sw x duty), all {len(d.options)} options: {t:.2f} s = {100 / t:.0f} points/s "
           f"(issue 16: >= 1e4 points/s)")
+    axes = {"bridge.f_sw": np.geomspace(50e3, 1e6, 20), "duty": np.linspace(0.1, 0.9, 20)}
+    for w in sorted({1, os.cpu_count() or 1}):
+        memo.clear()
+        t = median_time(lambda: sweep(d, axes, workers=w), n=1)
+        print(f"general sweep 20x20 points (f_sw x duty), workers={w}, from an empty memory: {t:.2f} s = "
+              f"{400 / t:.0f} points/s")
     for n in (10, 100, 200):  # factorised: each option over its own axes only (sweep's notes)
         axes = {"options[0].c": np.geomspace(100e-9, 1e-6, n), "options[1].c_fly.c": np.geomspace(47e-9, 470e-9, n)}
 

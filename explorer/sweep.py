@@ -23,6 +23,7 @@ path, :func:`margin_map`.
 from __future__ import annotations
 
 import dataclasses
+import os
 import warnings
 from dataclasses import dataclass, field
 from typing import Callable
@@ -169,7 +170,8 @@ def _check_axis(design: Design, path: str, values: np.ndarray) -> None:
 
 
 def sweep(design, axes: dict, *, labels=None, figures=None,
-          progress: Callable[[int, int], None] | None = None, factorise: bool = True) -> Sweep:
+          progress: Callable[[int, int], None] | None = None, factorise: bool = True,
+          workers: int | None = 1) -> Sweep:
     """Evaluate the design over a 1-D or 2-D grid of field values.
 
     Parameters
@@ -190,6 +192,11 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
         each axis instead of one per point. False: every point evaluated in full. Both give the
         same figures and the same ``invalid`` reasons (a point's design is valid when its common
         fields and each option are; the reason is the first the loader would give).
+    workers : int or None
+        Processes that evaluate the points (default 1: this one; None: one per CPU). The figures,
+        ``invalid`` and ``warnings`` are the same as with one (each point is evaluated on its own);
+        each extra process pays its start (about a third of a second to import), so it pays off
+        for grids of some hundred points and more. Progress is reported as parts finish.
 
     Examples
     --------
@@ -199,6 +206,7 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
     (2,)
     """
     d0 = load_design(design)
+    workers = _check_workers(workers)
     if not isinstance(axes, dict) or not 1 <= len(axes) <= 2:
         raise DesignError("axes", "expected one or two {field path: values} entries", axes)
     names = list(figures or FIGURES)
@@ -219,30 +227,87 @@ def sweep(design, axes: dict, *, labels=None, figures=None,
     keep = tuple(o.label in labs for o in d0.options)  # trimmed after the change: paths index d0's options
     owners = [_owner(p) for p in paths]
     if factorise and any(o is not None for o in owners):
-        out, invalid, caught = _factorised(d0, paths, vals, owners, keep, names, progress)
+        out, invalid, caught = _factorised(d0, paths, vals, owners, keep, names, progress, workers)
         _summarise(caught, d0, paths, vals)
         return Sweep(paths, vals, {lab: out[lab] for lab in labs}, invalid, _texts(caught))
     out = {lab: {n: np.full(shape, np.nan) for n in names} for lab in labs}
     invalid, caught = {}, {}
     total = int(np.prod(shape))
-    for count, idx in enumerate(np.ndindex(shape)):
-        assign = [(p, vals[k][i]) for k, (p, i) in enumerate(zip(paths, idx))]
-        try:
-            dp = _point(d0, assign)
-            res, w = _recorded(evaluate, dataclasses.replace(dp, options=tuple(o for o, k in zip(dp.options, keep)
-                                                                                if k)))
-        except DesignError as e:
-            invalid[idx] = str(e)
+    chosen = tuple(j for j, k in enumerate(keep) if k)
+    items = [(idx, [(p, vals[k][i]) for k, (p, i) in enumerate(zip(paths, idx))], chosen)
+             for idx in np.ndindex(shape)]
+    for count, (idx, error, figs, w) in enumerate(_run(d0, items, names, workers)):
+        if error is not None:
+            invalid[idx] = error
             continue
         if w:
             caught[idx] = w
-        for r in res.options:
-            for n in names:
-                out[r.label][n][idx] = FIGURES[n](r)
+        for lab, row in figs.items():
+            for n, x in zip(names, row):
+                out[lab][n][idx] = x
         if progress:
             progress(count + 1, total)
     _summarise(caught, d0, paths, vals)
     return Sweep(paths, vals, out, invalid, _texts(caught))
+
+
+def _check_workers(workers) -> int:
+    """The number of processes of a sweep (None: one per CPU), or a DesignError naming the argument."""
+    if workers is None:
+        return max(1, os.cpu_count() or 1)
+    if isinstance(workers, bool) or not isinstance(workers, (int, np.integer)) or workers < 1:
+        raise DesignError("workers", "expected a whole number of processes \u2265 1, or None (one per CPU)",
+                          workers)
+    return int(workers)
+
+
+def _evaluate_item(d0: Design, item, names):
+    """One point of a sweep: (key, error text or None, {label: figure values in ``names`` order}, warnings).
+
+    ``item`` is (key, assignments, option indices to evaluate); with no indices the point's design is
+    only validated. The figures leave as plain numbers (an OptionResult is far larger to send between
+    processes).
+    """
+    key, assign, chosen = item
+    try:
+        dp = _point(d0, assign)
+        if not chosen:
+            return key, None, {}, ()
+        res, w = _recorded(evaluate, dataclasses.replace(dp, options=tuple(dp.options[j] for j in chosen)))
+    except DesignError as e:
+        return key, str(e), {}, ()
+    return key, None, {r.label: [FIGURES[n](r) for n in names] for r in res.options}, w
+
+
+def _evaluate_chunk(d0: Design, items, names) -> list:
+    """Points of a sweep evaluated in a worker process (module level, so that a spawned process finds it)."""
+    return [_evaluate_item(d0, item, names) for item in items]
+
+
+def _run(d0: Design, items: list, names, workers: int):
+    """The points' outcomes (:func:`_evaluate_item`), here or in ``workers`` processes (in finishing order
+    of parts of the list; each outcome carries its key)."""
+    if workers <= 1 or len(items) < 2:
+        for item in items:
+            yield _evaluate_item(d0, item, names)
+        return
+    import multiprocessing
+    from concurrent.futures import ProcessPoolExecutor, as_completed
+    n_parts = min(len(items), 4 * workers)
+    parts = [items[i::n_parts] for i in range(n_parts)]
+    # fresh interpreters ("spawn"): a forked child can deadlock in a BLAS thread pool the parent started
+    from concurrent.futures.process import BrokenProcessPool
+    try:
+        with ProcessPoolExecutor(max_workers=min(workers, n_parts),
+                                 mp_context=multiprocessing.get_context("spawn")) as pool:
+            futures = [pool.submit(_evaluate_chunk, d0, part, names) for part in parts]
+            for fut in as_completed(futures):
+                yield from fut.result()
+    except BrokenProcessPool:
+        raise DesignError("workers", "a worker process stopped before it finished: each one imports the "
+                          "calling script afresh, so a script that sweeps with workers > 1 must start its work "
+                          "under `if __name__ == \"__main__\":` (a notebook needs nothing); or use workers=1",
+                          workers) from None
 
 
 def _recorded(fn, *args):
@@ -290,7 +355,7 @@ def _owner(path: str) -> int | None:
     return parts[1] if parts[0] == "options" else None
 
 
-def _factorised(d0: Design, paths, vals, owners, keep, names, progress):
+def _factorised(d0: Design, paths, vals, owners, keep, names, progress, workers: int = 1):
     """:func:`sweep` with each option evaluated over its own sub-grid (the common axes and its own).
 
     Returns (figures by label, invalid, warnings by grid index). A point is invalid when its common fields or any option's
@@ -307,29 +372,26 @@ def _factorised(d0: Design, paths, vals, owners, keep, names, progress):
     bad_first = np.full(shape, -1)  # the lowest failing group's index, per point
     reasons: dict = {}
     sub_caught: dict = {}
+    items = [((j, sub), [(paths[a], vals[a][i]) for a, i in zip(rel[j], sub)], (j,) if keep[j] else ())
+             for j in groups for sub in np.ndindex(tuple(shape[a] for a in rel[j]))]
+    figs_of = {j: {n: np.full(tuple(shape[a] for a in rel[j]), np.nan) for n in names} for j in groups}
+    bad_of = {j: np.zeros(tuple(shape[a] for a in rel[j]), dtype=bool) for j in groups}
+    for (j, sub), error, row, w in _run(d0, items, names, workers):
+        done += 1
+        if error is not None:
+            bad_of[j][sub] = True
+            reasons[(j, sub)] = error
+            continue
+        if w:
+            sub_caught[(j, sub)] = w
+        for vals_j in row.values():
+            for n, x in zip(names, vals_j):
+                figs_of[j][n][sub] = x
+        if progress:
+            progress(max(1, done * total // work), total)
     for j in reversed(groups):  # the lowest index written last, so it wins
         axes_j = rel[j]
-        sub_shape = tuple(shape[a] for a in axes_j)
-        figs = {n: np.full(sub_shape, np.nan) for n in names}
-        bad = np.zeros(sub_shape, dtype=bool)
-        for sub in np.ndindex(sub_shape):
-            assign = [(paths[a], vals[a][i]) for a, i in zip(axes_j, sub)]
-            done += 1
-            try:
-                dp = _point(d0, assign)
-            except DesignError as e:
-                bad[sub] = True
-                reasons[(j, sub)] = str(e)
-                continue
-            if keep[j]:
-                res, w = _recorded(evaluate, dataclasses.replace(dp, options=(dp.options[j],)))
-                r = res.options[0]
-                if w:
-                    sub_caught[(j, sub)] = w
-                for n in names:
-                    figs[n][sub] = FIGURES[n](r)
-            if progress:
-                progress(max(1, done * total // work), total)
+        figs, bad = figs_of[j], bad_of[j]
         expand = tuple(a for a in range(n_ax) if a not in axes_j)
         if keep[j]:
             out[d0.options[j].label] = {n: np.array(np.broadcast_to(np.expand_dims(f, expand), shape))

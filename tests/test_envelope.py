@@ -85,6 +85,37 @@ def test_factorised_sweep_equals_one_evaluation_per_point(axes):
     _same_sweep(sweep(d, axes, labels=["pump 1:1"]), sweep(d, axes, labels=["pump 1:1"], factorise=False))
 
 
+@pytest.mark.filterwarnings("ignore::explorer.errors.ModelValidityWarning")
+def test_sweep_in_worker_processes_equals_one_process():
+    # consistency of the two ways of running a grid (no outside source: the figures are checked against
+    # evaluate above): every figure, invalid point and warning text the same, whole grid and factorised
+    d = load_design(DEMO)
+    axes = {"bridge.f_sw": [200e3, 700e3], "duty": [0.2, 0.5, 0.99]}  # warnings at 700 kHz, duty 0.99 fails
+    _same_sweep(sweep(d, axes, workers=2), sweep(d, axes))
+    axes = {"bridge.v_out": [12.0, 60.0], "options[2].c_fly.c": [100e-9, 220e-9]}  # an invalid common field
+    _same_sweep(sweep(d, axes, workers=2), sweep(d, axes))
+    done = []
+    sweep(d, {"bridge.f_sw": [150e3, 200e3, 250e3]}, figures=["rail_min"], workers=2,
+          progress=lambda k, n: done.append((k, n)))
+    assert done[-1] == (3, 3)
+    for bad in (0, -1, 1.5, True, "2"):
+        with pytest.raises(DesignError, match="workers"):
+            sweep(d, {"bridge.f_sw": [1e5]}, workers=bad)
+
+
+def test_sweep_workers_from_a_script_without_a_main_guard_says_what_to_do(tmp_path):
+    # each spawned worker imports the calling script afresh (Python's multiprocessing, "spawn" start
+    # method); a script that sweeps at its top level starts workers from within workers, which stop
+    import subprocess
+    import sys
+    script = tmp_path / "no_guard.py"
+    script.write_text("import explorer\nfrom explorer.sweep import sweep\n"
+                      "sweep(explorer.demo_design(), {'bridge.f_sw': [1e5, 2e5]}, figures=['rail_min'], workers=2)\n")
+    run = subprocess.run([sys.executable, "-W", "ignore", str(script)], capture_output=True, text=True, timeout=300)
+    assert run.returncode != 0
+    assert "DesignError: workers:" in run.stderr and 'if __name__ == "__main__":' in run.stderr
+
+
 def test_sweep_gives_one_summary_warning_per_category_and_keeps_every_points_warnings():
     # the per-point texts are those evaluate gives at that point (consistency with evaluate, no outside
     # source: the warnings' conditions are checked in the model tests)
