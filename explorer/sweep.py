@@ -293,10 +293,10 @@ def _run(d0: Design, items: list, names, workers: int):
         return
     import multiprocessing
     from concurrent.futures import ProcessPoolExecutor, as_completed
+    from concurrent.futures.process import BrokenProcessPool
     n_parts = min(len(items), 4 * workers)
     parts = [items[i::n_parts] for i in range(n_parts)]
     # fresh interpreters ("spawn"): a forked child can deadlock in a BLAS thread pool the parent started
-    from concurrent.futures.process import BrokenProcessPool
     try:
         with ProcessPoolExecutor(max_workers=min(workers, n_parts),
                                  mp_context=multiprocessing.get_context("spawn")) as pool:

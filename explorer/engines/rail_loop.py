@@ -29,7 +29,7 @@ from dataclasses import dataclass
 import numpy as np
 
 __all__ = ["K_B", "Q_E", "broadcast_as", "thermal_voltage", "Loop", "LOOP_ARRAYS", "broadcast_loop", "take_loop",
-           "map_loop", "unclamped"]
+           "loop_fields", "map_loop", "unclamped"]
 
 
 #: Boltzmann constant [J/K] (SI 2019 exact value, BIPM SI Brochure 9th ed.).
@@ -108,19 +108,20 @@ class Loop:
 LOOP_ARRAYS = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
 
 
-def _fields(loop: Loop) -> tuple:
+def loop_fields(loop: Loop) -> tuple:
+    """The names of the loop's array fields: :data:`LOOP_ARRAYS`, and ``v_clamp`` where it is set."""
     return LOOP_ARRAYS if loop.v_clamp is None else LOOP_ARRAYS + ("v_clamp",)
 
 
 def broadcast_loop(loop: Loop) -> Loop:
-    names = _fields(loop)
+    names = loop_fields(loop)
     arrs = np.broadcast_arrays(*[np.asarray(getattr(loop, k), dtype=float) for k in names])
     return Loop(**dict(zip(names, arrs)), diode=loop.diode)
 
 
 def map_loop(loop: Loop, fn) -> Loop:
     """The loop with ``fn`` applied to each of its array fields (the clamp too, where set)."""
-    return Loop(**{k: fn(getattr(loop, k)) for k in _fields(loop)}, diode=loop.diode)
+    return Loop(**{k: fn(getattr(loop, k)) for k in loop_fields(loop)}, diode=loop.diode)
 
 
 def take_loop(loop: Loop, idx) -> Loop:

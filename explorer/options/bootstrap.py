@@ -61,7 +61,7 @@ from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..engines.rail_integrals import crossing_time, interval_integrals
 from ..engines.rail_junction import junction_current
 from ..engines.rail_linear import off_time_to
-from ..engines.rail_loop import LOOP_ARRAYS, Loop, map_loop, thermal_voltage
+from ..engines.rail_loop import Loop, loop_fields, map_loop, thermal_voltage
 from ..engines.rail_orbit import OrbitSolution, propagate, solve_orbit, steady_rail
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
@@ -407,8 +407,8 @@ def orbit_contraction(ss: SteadyState) -> float:
 
     The product of the interval maps' slopes dv_end/dv_start at the orbit (the charge steps shift a
     map, they do not change its slope): ρ = Π_k s_k, so a rail δ off the orbit is ρ·δ off one period
-    later and settles with e-fold time T/(−ln ρ). 1 where the rail is never refreshed; NaN when the
-    orbit has no finite solution.
+    later and settles with e-fold time T/(−ln ρ). At most 1 (the maps are contractions); NaN when the
+    orbit has no finite solution (a rail never refreshed).
     """
     from ..engines.rail_orbit import interval_map
     v0 = ss.orbit.v_start
@@ -691,9 +691,9 @@ def _rotated_orbit(loop: Loop, steady: SteadyState) -> OrbitSolution | None:
     L = loop.dt.shape[-1]
     if ref.dt.shape != loop.dt.shape or ref.diode != loop.diode:
         return None
-    if (ref.v_clamp is None) != (loop.v_clamp is None):
+    names = loop_fields(ref)
+    if names != loop_fields(loop):
         return None
-    names = LOOP_ARRAYS if ref.v_clamp is None else LOOP_ARRAYS + ("v_clamp",)
     for r in range(L):
         if all(np.array_equal(np.roll(getattr(ref, k), -r), getattr(loop, k)) for k in names):
             o = steady.orbit
