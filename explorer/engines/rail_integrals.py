@@ -305,8 +305,9 @@ def _clamped_integrals(v0, loop: Loop, r_ext) -> dict:
     v1_free = (linear_map(v_in, free)[0] if loop.diode == "linear" else junction_map(v_in, free)[0])
     hit = v1_free > vc
     t_c = dt
-    if np.any(hit):
-        t_x = crossing_time(v_in, vc, free)
+    if np.any(hit):  # the crossing, solved where the rail reaches the clamp only
+        t_x = np.array(dt, dtype=float)
+        t_x[hit] = crossing_time(v_in[hit], vc[hit], take_loop(free, hit))
         t_c = np.where(hit & np.isfinite(t_x), np.minimum(t_x, dt), dt)
         hit &= t_c < dt
     out = interval_integrals(v_in, dataclasses.replace(free, dt=t_c), r_ext=r_ext)
