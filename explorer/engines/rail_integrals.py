@@ -314,11 +314,12 @@ def _clamped_integrals(v0, loop: Loop, r_ext) -> dict:
     R = loop.r
     r_ext = np.broadcast_to(R if r_ext is None else r_ext, dt.shape)
     held = np.where(hit, dt - t_c, 0.0)
-    if loop.diode == "linear":
-        i_d = np.maximum((loop.v_src - loop.v_f - vc) / R, 0.0)
-    else:
-        i_d = np.where(loop.v_src > vc, junction_current(np.minimum(vc, loop.v_src), free), 0.0)
-    i_d = np.where(hit, i_d, 0.0)
+    i_d = np.zeros(dt.shape)  # the diode current while the clamp holds the rail
+    if np.any(hit):
+        if loop.diode == "linear":
+            i_d[hit] = np.maximum((loop.v_src[hit] - loop.v_f[hit] - vc[hit]) / R[hit], 0.0)
+        else:
+            i_d[hit] = junction_current(vc[hit], take_loop(free, hit))
     i_z = i_d - loop.i_load - loop.g_load * vc  # the clamp's share while it holds the rail
     e_step = np.where(v0 > vc, 0.5 * loop.c * (v0 * v0 - vc * vc), 0.0)
     q_step = np.where(v0 > vc, loop.c * (v0 - vc), 0.0)

@@ -142,7 +142,10 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
             if v_init is None:  # periodic rows: a miss is amplified by 1/(1 − S)
                 share = share * np.clip(1.0 - np.prod(s, axis=-1, keepdims=True), 0.0, 1.0)
             with np.errstate(invalid="ignore"):  # inf·0 where a never-linearised interval did not move
-                moved &= ~((curv * step * step <= share * tol_v) & (span <= local) & (step <= span))
+                smooth = (curv * step * step <= share * tol_v) & (span <= local) & (step <= span)
+            if loop.v_clamp is not None:  # the clamp is a kink, not a curvature: those keep the plain rule
+                smooth &= ~((s == 0.0) | (v1 + s * (v0 - v_lin) >= loop.v_clamp))
+            moved &= ~smooth
         moved &= np.isfinite(v0)
         if not moved.any():
             converged = True
@@ -172,7 +175,10 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
                 passes += 1
                 break
     # end values on the tangents (exact for affine maps, within tol² otherwise)
-    return u, v0, v1 + s * (v0 - v_lin), passes, converged
+    v_end = v1 + s * (v0 - v_lin)
+    if loop.v_clamp is not None:
+        v_end = np.minimum(v_end, loop.v_clamp)
+    return u, v0, v_end, passes, converged
 
 
 def _surrogate(loop: Loop) -> Loop:
