@@ -57,7 +57,21 @@ from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_sta
                        periods_per_fundamental, topology_of)
 
 __all__ = ["Schedule", "edge_kinds", "ls_dropped", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
-           "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill"]
+           "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "longest_run"]
+
+
+def longest_run(dt, mask, periodic: bool = True) -> float:
+    """Longest stretch of consecutive intervals where ``mask`` holds [s], wrapping round from the last to
+    the first when ``periodic`` (the whole length when it always holds; 0 when it never does)."""
+    dt = np.asarray(dt, dtype=float)
+    mask = np.asarray(mask, dtype=bool)
+    if mask.all():
+        return float(dt.sum())
+    k = int(np.flatnonzero(~mask)[0]) if periodic else 0  # a cyclic scan starts at an interval outside
+    d, m = np.roll(dt, -k), np.roll(mask, -k)
+    c = np.cumsum(np.where(m, d, 0.0))
+    base = np.maximum.accumulate(np.where(m, 0.0, c))  # the running total where each stretch began
+    return float(np.max(c - base))
 
 
 @dataclass(frozen=True)

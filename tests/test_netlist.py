@@ -147,11 +147,12 @@ def test_default_span_starts_after_a_hold_up_that_began_unsettled(ngspice):
 def test_longest_run_is_cyclic():
     # hand-worked: stretches of the mask [T, F, T, T, F] over durations 1..5 are {1}, {3, 4}: longest 7;
     # [T, F, F, T, T] wraps around: 4 + 5 + 1 = 10
-    from explorer.options.bootstrap import longest_run
+    from explorer.schedule import longest_run
     assert longest_run([1, 2, 3, 4, 5], [True, False, True, True, False]) == 7.0
     assert longest_run([1, 2, 3, 4, 5], [True, False, False, True, True]) == 10.0
     assert longest_run([1, 2], [True, True]) == 3.0
     assert longest_run([1, 2], [False, False]) == 0.0
+    assert longest_run([1, 2, 3, 4, 5], [True, False, False, True, True], periodic=False) == 9.0
 
 
 @pytest.mark.ngspice

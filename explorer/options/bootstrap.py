@@ -67,8 +67,8 @@ from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import (QUASI_STATIC_PERIODS, Schedule, ls_dropped, hs_duty_per_period, is_standstill, nominal_duty,
-                        period_schedule, periods_per_fundamental, startup_schedule)
+from ..schedule import (QUASI_STATIC_PERIODS, Schedule, longest_run, ls_dropped, hs_duty_per_period, is_standstill,
+                        nominal_duty, period_schedule, periods_per_fundamental, startup_schedule)
 from ..topology import analysis_frequency, light_load, peak_span, topology_of
 from .details import BootstrapDetails
 from .base import SupplyModel
@@ -387,19 +387,6 @@ def post_step(orb: OrbitSolution, loop: Loop) -> np.ndarray:
     without a clamp; with one, V_pre − q/C (a step that would end above the clamp hands it the excess,
     which the interval integrals count as the clamp's)."""
     return orb.v_start if loop.v_clamp is None else orb.v_pre - loop.q_step / loop.c
-
-
-def longest_run(dt, mask) -> float:
-    """Longest cyclic stretch of consecutive intervals where ``mask`` holds [s] (the period if it always does)."""
-    dt = np.asarray(dt, dtype=float)
-    mask = np.asarray(mask, dtype=bool)
-    if mask.all():
-        return float(dt.sum())
-    k = int(np.flatnonzero(~mask)[0])  # start the scan at an interval outside the mask
-    d, m = np.roll(dt, -k), np.roll(mask, -k)
-    c = np.cumsum(np.where(m, d, 0.0))
-    base = np.maximum.accumulate(np.where(m, 0.0, c))  # the running total where each stretch began
-    return float(np.max(c - base))
 
 
 def orbit_contraction(ss: SteadyState) -> float:
@@ -1338,7 +1325,7 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
 def _clamp_words(circ: BootstrapCircuit, power: _PowerPart) -> list[str]:
     """A clamp below the ordinary charge target conducts at every refresh, not only after an overcharge."""
     p = (power.losses or {}).get("clamp", 0.0)
-    target = circ.v_dd - circ.v_sw_low - float(circ.drop(circ.i_q))
+    target = overcharge_ceiling(circ.v_dd, float(circ.drop(circ.i_q)), circ.v_sw_low)
     if circ.v_clamp is None or p <= 0.0 or circ.v_clamp >= target:
         return []
     return [f"the clamp across C_boot ({_fmt(circ.v_clamp, 'V')}) sits below the rail's ordinary charge target "

@@ -88,7 +88,7 @@ from ..loads import charge_per_turn_off, charge_per_turn_on, load_power, require
 from ..memo import memoised
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import period_schedule
+from ..schedule import longest_run, period_schedule
 from ..topology import analysis_frequency, frequency_limit_key
 from .details import ChargePumpDetails
 from .base import SupplyModel
@@ -551,17 +551,9 @@ def longest_on_time(schedule) -> float:
     schedule : explorer.schedule.Schedule
     """
     on = np.asarray(schedule.hs_on, bool)
-    dt = np.asarray(schedule.dt, float)
-    if not on.any():
-        return 0.0
-    if on.all():
-        return math.inf if schedule.periodic else float(dt.sum())
-    grp = np.cumsum(~on)  # a run of on-intervals shares the count of off-intervals before it
-    runs = np.bincount(grp[on], weights=dt[on])
-    best = float(runs.max())
-    if schedule.periodic and on[0] and on[-1]:  # the last run continues into the first
-        best = max(best, float(runs[grp[0]] + runs[grp[-1]]))
-    return best
+    if on.size and on.all() and schedule.periodic:
+        return math.inf
+    return longest_run(schedule.dt, on, periodic=schedule.periodic)
 
 
 def pump_validity(design: Design, option: ChargePumpOption, *, tau_loop: float, r_th: float, c_out: float,
