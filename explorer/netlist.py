@@ -340,19 +340,20 @@ def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
     return lines
 
 
-def _sw_high_pwl(design: Design, plan: NetlistPlan, v_hold: float) -> list:
+def _startup_masks(circ, plan: NetlistPlan):
+    """The bootstrap model's own interval masks of the start-up it simulates (:func:`explorer.options.
+    bootstrap.loop_masks`, as the model's start-up builds them: SW resting at ``v_rest`` before)."""
+    from .options.bootstrap import loop_masks
+    s = plan.schedule
+    return loop_masks(circ, s.dt, s.sw_levels(plan.delivered), plan.delivered, periodic=False, v_prev0=s.v_rest)
+
+
+def _sw_high_pwl(design: Design, plan: NetlistPlan, circ) -> list:
     """1 where the bootstrap diode is reverse-biased (SW + the presumed rail ``v_hold`` at or above V_DD), else 0."""
     s = plan.schedule
-    rev, _ = _reverse_biased(design, s, s.sw_levels(plan.delivered), v_hold)
-    rest, _ = _reverse_biased(design, s, np.array([s.v_rest]), v_hold)
-    return _steps(s.t_start, s.dt, rev.astype(float), design.bridge.t_edge, float(rest[0]), plan.t_stop, 0.5)
-
-
-def _reverse_biased(design: Design, s, v_sw, v_hold: float):
-    """The bootstrap model's rule (:func:`explorer.options.bootstrap.reverse_biased`) on start-up levels."""
-    from .options.bootstrap import reverse_biased
-    prev = np.concatenate(([s.v_rest], v_sw[:-1]))
-    return reverse_biased(v_sw, prev, np.ones(v_sw.shape, dtype=bool), design.aux.v_dd, v_hold)
+    rev = _startup_masks(circ, plan).rev
+    rest = float(s.v_rest >= circ.v_dd - circ.v_hold)  # the rule of bootstrap.reverse_biased at the rest level
+    return _steps(s.t_start, s.dt, rev.astype(float), design.bridge.t_edge, rest, plan.t_stop, 0.5)
 
 
 # --------------------------------------------------------------------------- options
@@ -388,13 +389,11 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
                   f".model DBOOT D(IS={_n(SHARP_IS)} N={_n(SHARP_N)}{cj})"]
     if option.i_leak > 0:
         lines += ["* diode reverse leakage while it is reverse-biased (from vb back to the anode)",
-                  f"VHI swhi 0 {_pwl(_sw_high_pwl(design, plan, circ.v_hold))}",
+                  f"VHI swhi 0 {_pwl(_sw_high_pwl(design, plan, circ))}",
                   f"GLK vb a swhi 0 {_n(option.i_leak)}"]
     if option.q_rr > 0:
         s = plan.schedule
-        v_sw = s.sw_levels(plan.delivered)
-        _, onset = _reverse_biased(design, s, v_sw, circ.v_hold)
-        k = np.flatnonzero(onset & (s.dt > 0))
+        k = np.flatnonzero(_startup_masks(circ, plan).onset)  # onsets are live intervals
         if k.size:
             # just after the edge, at the full reverse voltage, as the model prices it (an upper bound: a
             # recovery during the rise sees less of the bus)
