@@ -28,7 +28,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-__all__ = ["K_B", "Q_E", "broadcast_as", "thermal_voltage", "Loop", "LOOP_ARRAYS", "broadcast_loop", "take_loop",
+__all__ = ["K_B", "Q_E", "broadcast_as", "thermal_voltage", "Loop", "LOOP_ARRAYS", "broadcast_loop", "full_as", "take_loop",
            "loop_fields", "map_loop", "unclamped"]
 
 
@@ -113,9 +113,25 @@ def loop_fields(loop: Loop) -> tuple:
     return LOOP_ARRAYS if loop.v_clamp is None else LOOP_ARRAYS + ("v_clamp",)
 
 
+def full_as(x, shape) -> np.ndarray:
+    """``x`` as a float array of ``shape``: itself where it already is one, else a broadcast copy (one
+    fill is cheaper than a broadcast view on the short arrays of a schedule)."""
+    if type(x) is np.ndarray and x.shape == shape and x.dtype == np.float64:
+        return x
+    out = np.empty(shape)
+    out[...] = x
+    return out
+
+
 def broadcast_loop(loop: Loop) -> Loop:
+    """The loop with every array field a float array of the common shape (the loop itself where they
+    already are)."""
     names = loop_fields(loop)
-    arrs = np.broadcast_arrays(*[np.asarray(getattr(loop, k), dtype=float) for k in names])
+    vals = [getattr(loop, k) for k in names]
+    shape = np.broadcast(*vals).shape
+    arrs = [full_as(v, shape) for v in vals]
+    if all(a is v for a, v in zip(arrs, vals)):
+        return loop
     return Loop(**dict(zip(names, arrs)), diode=loop.diode)
 
 

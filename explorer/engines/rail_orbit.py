@@ -251,7 +251,7 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
     shape = loop.dt.shape
     n = shape[-1]
     rows = int(np.prod(shape[:-1], dtype=np.int64))
-    flat = map_loop(loop, lambda a: np.reshape(a, (rows, n)))
+    flat = loop if len(shape) == 2 else map_loop(loop, lambda a: a.reshape(rows, n))
     vi = None if v_init is None else np.broadcast_to(np.asarray(v_init, dtype=float), shape[:-1]).reshape(rows)
     u = np.empty((rows, n))
     v0 = np.empty((rows, n))
@@ -260,7 +260,7 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
     converged = True
     for r0 in range(0, rows, _BLOCK_ROWS):
         sl = slice(r0, min(rows, r0 + _BLOCK_ROWS))
-        blk = take_loop(flat, sl)
+        blk = flat if rows <= _BLOCK_ROWS else take_loop(flat, sl)
         vg = None if v_guess is None or loop.diode == "linear" else np.reshape(v_guess, (rows, n))[sl]
         u[sl], v0[sl], v1[sl], p, ok = _solve_block(blk, None if vi is None else vi[sl], tol, vg)
         passes = max(passes, p)

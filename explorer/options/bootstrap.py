@@ -189,13 +189,22 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
 
 # --------------------------------------------------------------------------- loops
 
+def _previous(a: np.ndarray, first) -> np.ndarray:
+    """Each entry's predecessor along the last axis: the last entry (``first`` None, cyclic) or ``first``
+    before the first."""
+    out = np.empty(a.shape, dtype=a.dtype)
+    out[..., 1:] = a[..., :-1]
+    out[..., 0] = a[..., -1] if first is None else first
+    return out
+
+
 def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool):
     """Level and HS state of the previous interval of non-zero length (zero-length ones are skipped)."""
     n = dt.shape[-1]
-    v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
-    hs_on = np.broadcast_to(np.asarray(hs_on, dtype=bool), dt.shape)
+    v_sw = _as_shape(v_sw, dt.shape, float)
+    hs_on = _as_shape(hs_on, dt.shape, bool)
     zero = dt <= 0
-    if np.any(zero):
+    if zero.any():
         # zero-length intervals inherit the state of the nearest earlier live interval (cyclically when
         # periodic, else the state before the first): an index forward fill, no loop over intervals
         idx = np.where(zero, -1, np.arange(n))
@@ -210,16 +219,17 @@ def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool
             lev = np.where(last < 0, v_prev0, np.take_along_axis(v_sw, safe, axis=-1))
             hs = np.where(last < 0, hs_prev0, np.take_along_axis(hs_on, safe, axis=-1))
     else:
-        lev = np.array(v_sw, dtype=float)
-        hs = np.array(hs_on, dtype=bool)
-    if periodic:
-        prev_l = np.roll(lev, 1, axis=-1)
-        prev_h = np.roll(hs, 1, axis=-1)
-    else:
-        shp = lev.shape[:-1] + (1,)
-        prev_l = np.concatenate((np.full(shp, v_prev0), lev[..., :-1]), axis=-1)
-        prev_h = np.concatenate((np.full(shp, hs_prev0), hs[..., :-1]), axis=-1)
+        lev, hs = np.array(v_sw, dtype=float), hs_on
+    prev_l = _previous(lev, None if periodic else v_prev0)
+    prev_h = _previous(hs, None if periodic else hs_prev0)
     return lev, prev_l, prev_h
+
+
+def _as_shape(x, shape, dtype) -> np.ndarray:
+    """``x`` as an array of ``dtype`` broadcast to ``shape`` (``x`` itself where it already is one)."""
+    if type(x) is np.ndarray and x.shape == shape and x.dtype == dtype:
+        return x
+    return np.broadcast_to(np.asarray(x, dtype=dtype), shape)
 
 
 def reverse_biased(lev, prev_l, live, v_dd, v_hold=0.0):
@@ -312,8 +322,8 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
         always, i_leak while the diode is reverse-biased, 1/R_GS while the HS is on.
     """
     dt = np.asarray(dt, dtype=float)
-    v_sw = np.broadcast_to(np.asarray(v_sw, dtype=float), dt.shape)
-    hs_on = np.broadcast_to(np.asarray(hs_on, dtype=bool), dt.shape)
+    v_sw = _as_shape(v_sw, dt.shape, float)
+    hs_on = _as_shape(hs_on, dt.shape, bool)
     m = masks or loop_masks(circ, dt, v_sw, hs_on, periodic=periodic, v_prev0=v_prev0, hs_prev0=hs_prev0)
     lev, prev_l = m.lev, m.prev_l
     turn_on = m.live & hs_on & ~m.prev_h
@@ -681,11 +691,14 @@ def _rotated_orbit(loop: Loop, steady: SteadyState) -> OrbitSolution | None:
     names = loop_fields(ref)
     if names != loop_fields(loop):
         return None
+    a = np.stack([getattr(ref, k) for k in names])
+    b = np.stack([getattr(loop, k) for k in names])
     for r in range(L):
-        if all(np.array_equal(np.roll(getattr(ref, k), -r), getattr(loop, k)) for k in names):
+        idx = (np.arange(L) + r) % L  # np.roll(x, -r) is x[idx]
+        if np.array_equal(a[..., idx], b):
             o = steady.orbit
-            return dataclasses.replace(o, v_pre=np.roll(o.v_pre, -r), v_start=np.roll(o.v_start, -r),
-                                       v_end=np.roll(o.v_end, -r))
+            return dataclasses.replace(o, v_pre=o.v_pre[..., idx], v_start=o.v_start[..., idx],
+                                       v_end=o.v_end[..., idx])
     return None
 
 
