@@ -57,7 +57,8 @@ from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_sta
                        periods_per_fundamental, topology_of)
 
 __all__ = ["Schedule", "edge_kinds", "ls_dropped", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
-           "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "longest_run"]
+           "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "longest_run",
+           "previous"]
 
 
 def longest_run(dt, mask, periodic: bool = True) -> float:
@@ -68,7 +69,7 @@ def longest_run(dt, mask, periodic: bool = True) -> float:
     if mask.all():
         return float(dt.sum())
     k = int(np.flatnonzero(~mask)[0]) if periodic else 0  # a cyclic scan starts at an interval outside
-    d, m = np.roll(dt, -k), np.roll(mask, -k)
+    d, m = np.concatenate((dt[k:], dt[:k])), np.concatenate((mask[k:], mask[:k]))  # np.roll by −k
     c = np.cumsum(np.where(m, d, 0.0))
     base = np.maximum.accumulate(np.where(m, 0.0, c))  # the running total where each stretch began
     return float(np.max(c - base))
@@ -138,11 +139,7 @@ class Schedule:
     @property
     def hs_turn_off(self) -> np.ndarray:
         """The HS turns off at the start of the interval (it was on in the interval before)."""
-        if self.periodic:
-            prev = np.roll(self.hs_on, 1)
-        else:
-            prev = np.concatenate(([False], self.hs_on[:-1]))
-        return prev & ~self.hs_on
+        return previous(self.hs_on, None if self.periodic else False) & ~self.hs_on
 
     def sw_levels(self, delivered) -> np.ndarray:
         """Switch-node level per interval with the HS pulses not in ``delivered`` withheld [V]."""
@@ -158,7 +155,10 @@ class Schedule:
     @property
     def t_start(self) -> np.ndarray:
         """Start time of each interval [s]."""
-        return np.concatenate(([0.0], np.cumsum(self.dt)[:-1]))
+        out = np.empty(max(self.dt.size, 1))
+        out[0] = 0.0
+        np.cumsum(self.dt[:-1], out=out[1:])
+        return out
 
     @property
     def n_cycles(self) -> int:
@@ -211,6 +211,15 @@ def hs_duty_per_period(bridge: Bridge, k: np.ndarray, ramp: np.ndarray):
 
 # --------------------------------------------------------------------------- assembly
 
+def previous(a: np.ndarray, first=None) -> np.ndarray:
+    """Each interval's predecessor along the last axis: cyclically the last (``first`` None, a periodic
+    schedule) or ``first`` before the first (a start-up)."""
+    out = np.empty(a.shape, dtype=a.dtype)
+    out[..., 1:] = a[..., :-1]
+    out[..., 0] = a[..., -1] if first is None else first
+    return out
+
+
 def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic: bool,
               pre: float = 0.0, hold=None, hold_words: str = "") -> Schedule:
     """Build the interval arrays from per-period slot times (vectorised)."""
@@ -220,12 +229,18 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     K = t_hs.size
     full_on = t_ls <= 0.0
     dropped = (t_hs <= 0.0) | (t_hs < driver.t_on_min)
-    dt = np.empty((K, 4))
+    # flat interval arrays, a low-side pre-charge pulse first where there is one; the periods are a
+    # (K, 4) view of the rest, one row per period
+    p = 1 if pre > 0.0 else 0
+    n = 4 * K + p
+    dt_f, v_f, vh_f = np.empty(n), np.empty(n), np.empty(n)
+    hs_f, on_f = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
+    cyc_f = np.empty(n, dtype=int)
+    dt, v, vh, hs, cyc, on_slot = (x[p:].reshape(K, 4) for x in (dt_f, v_f, vh_f, hs_f, cyc_f, on_f))
     dt[:, 0] = t_hs
     dt[:, 1] = td
     dt[:, 2] = t_ls
     dt[:, 3] = td
-    v = np.empty((K, 4))
     v[:, 0] = bridge.v_bus
     v[:, 1] = lvl_a
     v[:, 2] = bridge.v_sw_low
@@ -244,41 +259,29 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     # whole-period HS on (LS slot vanished) or HS pulse dropped (too short)
     dt[full_on] = (T, 0.0, 0.0, 0.0)
     dt[dropped & ~full_on] = (0.0, 0.0, T, 0.0)
-    hs = np.zeros((K, 4), dtype=bool)
     hs[:, 0] = True
-    cyc = np.repeat(np.arange(K), 4).reshape(K, 4)
+    cyc[:] = np.arange(K)[:, None]
     duty = dt[:, 0] / dt.sum(axis=1)
-    vh = v.copy()
+    vh[:] = v
     if hold is not None:
         vh[:, 0] = hold
-    on_slot = np.tile([True, False, True, False], (K, 1))  # an edge into HS or LS on-time is forced
+    on_slot[:, 0] = True  # an edge into HS or LS on-time is forced
     on_slot[:, 2] = ~ls_off
-    dt, v, vh, hs, cyc, on_slot = dt.ravel(), v.ravel(), vh.ravel(), hs.ravel(), cyc.ravel(), on_slot.ravel()
-    if pre > 0.0:  # low-side pre-charge pulse before the first period
-        dt = np.concatenate(([pre], dt))
-        v = np.concatenate(([bridge.v_sw_low], v))
-        vh = np.concatenate(([bridge.v_sw_low], vh))
-        hs = np.concatenate(([False], hs))
-        cyc = np.concatenate(([-1], cyc))
-        on_slot = np.concatenate(([True], on_slot))
-    keep = dt > 0.0
-    dt, v, vh, hs, cyc, on_slot = dt[keep], v[keep], vh[keep], hs[keep], cyc[keep], on_slot[keep]
+    if p:  # low-side pre-charge pulse before the first period
+        dt_f[0], v_f[0], vh_f[0], hs_f[0], cyc_f[0], on_f[0] = pre, bridge.v_sw_low, bridge.v_sw_low, False, -1, True
+    keep = dt_f > 0.0
+    dt, v, vh, hs, cyc, on_slot = dt_f[keep], v_f[keep], vh_f[keep], hs_f[keep], cyc_f[keep], on_f[keep]
     high = v > 0.5 * bridge.v_bus
-    if periodic:
-        prev_high, prev_hs = np.roll(high, 1), np.roll(hs, 1)
-    else:
-        prev_high = np.concatenate(([False], high[:-1]))
-        prev_hs = np.concatenate(([False], hs[:-1]))
-    prev_v = np.roll(v, 1) if periodic else np.concatenate(([bridge.v_sw_low if hold is None else
-                                                            float(np.ravel(hold)[0]) if np.size(hold) else 0.0],
-                                                           v[:-1]))
+    v_rest = bridge.v_sw_low if hold is None else float(np.ravel(hold)[0]) if np.size(hold) else 0.0
+    first = None if periodic else False
+    prev_high, prev_hs = previous(high, first), previous(hs, first)
+    prev_v = previous(v, None if periodic else v_rest)
     edge_hard = edge_kinds(bridge, on_slot, v > prev_v)
     return Schedule(dt=dt, v_sw=v, hs_on=hs, hs_turn_on=hs & ~prev_hs, sw_rise=high & ~prev_high,
                     sw_fall=~high & prev_high, cycle=cyc, duty=duty,
                     t_switch=T * (1 + (bridge.skip_cycles if skipping else 0)),
                     v_bus=bridge.v_bus, periodic=periodic, v_hold=None if hold is None else vh,
-                    hold_words=hold_words, edge_hard=edge_hard,
-                    v_rest=bridge.v_sw_low if hold is None else float(np.ravel(hold)[0]) if np.size(hold) else 0.0)
+                    hold_words=hold_words, edge_hard=edge_hard, v_rest=v_rest)
 
 
 def ls_dropped(t_ls, t_on_min_ls: float) -> np.ndarray:

@@ -68,7 +68,8 @@ from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, longest_run, ls_dropped, hs_duty_per_period, is_standstill,
-                        nominal_duty, period_schedule, periods_per_fundamental, startup_schedule)
+                        nominal_duty, period_schedule, periods_per_fundamental, previous,
+                        startup_schedule)
 from ..topology import analysis_frequency, light_load, peak_span, topology_of
 from .details import BootstrapDetails
 from .base import SupplyModel
@@ -189,15 +190,6 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
 
 # --------------------------------------------------------------------------- loops
 
-def _previous(a: np.ndarray, first) -> np.ndarray:
-    """Each entry's predecessor along the last axis: the last entry (``first`` None, cyclic) or ``first``
-    before the first."""
-    out = np.empty(a.shape, dtype=a.dtype)
-    out[..., 1:] = a[..., :-1]
-    out[..., 0] = a[..., -1] if first is None else first
-    return out
-
-
 def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool):
     """Level and HS state of the previous interval of non-zero length (zero-length ones are skipped)."""
     n = dt.shape[-1]
@@ -220,8 +212,8 @@ def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool
             hs = np.where(last < 0, hs_prev0, np.take_along_axis(hs_on, safe, axis=-1))
     else:
         lev, hs = np.array(v_sw, dtype=float), hs_on
-    prev_l = _previous(lev, None if periodic else v_prev0)
-    prev_h = _previous(hs, None if periodic else hs_prev0)
+    prev_l = previous(lev, None if periodic else v_prev0)
+    prev_h = previous(hs, None if periodic else hs_prev0)
     return lev, prev_l, prev_h
 
 
@@ -756,29 +748,39 @@ def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period):
     period : array broadcasting to ``(..., K)`` [s]
     """
     b = design.bridge
-    t_hs, t_ls, lvl_a, lvl_b, period = np.broadcast_arrays(*[np.asarray(x, dtype=float)
-                                                             for x in (t_hs, t_ls, lvl_a, lvl_b, period)])
-    td = np.broadcast_to(b.dead_time, t_hs.shape)
-    dt = np.stack([t_hs, td, t_ls, td], axis=-1)
-    v = np.stack([np.full(t_hs.shape, b.v_bus), lvl_a, np.full(t_hs.shape, b.v_sw_low), lvl_b], axis=-1)
+    shape = np.broadcast(t_hs, t_ls, lvl_a, lvl_b, period).shape
+    td = b.dead_time
+    dt = np.empty(shape + (4,))
+    dt[..., 0] = t_hs
+    dt[..., 1] = td
+    dt[..., 2] = t_ls
+    dt[..., 3] = td
+    v = np.empty(shape + (4,))
+    v[..., 0] = b.v_bus
+    v[..., 1] = lvl_a
+    v[..., 2] = b.v_sw_low
+    v[..., 3] = lvl_b
     if light_load(b):
         span = period * (1 + b.skip_cycles)
         dt[..., 2] = b.ls_pulse
-        dt[..., 3] = np.maximum(span - t_hs - td - b.ls_pulse, 0.0)
+        dt[..., 3] = np.maximum(span - dt[..., 0] - td - b.ls_pulse, 0.0)
         v[..., 3] = b.v_out
-        full_on = np.zeros(t_hs.shape, dtype=bool)
+        full_on = np.zeros(shape, dtype=bool)
     else:
-        full_on = t_ls <= 0.0
+        full_on = dt[..., 2] <= 0.0
+    t_hs = dt[..., 0]
     dropped = ((t_hs <= 0.0) | (t_hs < design.driver.t_on_min)) & ~full_on
     ls_off = ls_dropped(dt[..., 2], design.driver.t_on_min_ls) & ~full_on & ~dropped
-    v[..., 2] = np.where(ls_off, lvl_a, v[..., 2])
-    dt = np.where(full_on[..., None], np.stack([period, 0 * td, 0 * td, 0 * td], axis=-1), dt)
-    dt = np.where(dropped[..., None], np.stack([0 * td, 0 * td, period, 0 * td], axis=-1), dt)
-    dt = np.maximum(dt, 0.0)
+    v[..., 2] = np.where(ls_off, v[..., 1], v[..., 2])
+    for whole, slot in ((full_on, 0), (dropped, 2)):  # the period in one slot, the others empty
+        if whole.any():
+            dt[whole] = 0.0
+            dt[..., slot] = np.where(whole, period, dt[..., slot])
+    np.maximum(dt, 0.0, out=dt)
     hs = np.zeros(dt.shape, dtype=bool)
     hs[..., 0] = True
     shp = dt.shape[:-2] + (dt.shape[-2] * 4,)
-    return dt.reshape(shp), v.reshape(shp), np.broadcast_to(hs, dt.shape).reshape(shp)
+    return dt.reshape(shp), v.reshape(shp), hs.reshape(shp)
 
 
 def _levels(design: Design):
