@@ -261,16 +261,16 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     dt[dropped & ~full_on] = (0.0, 0.0, T, 0.0)
     hs[:, 0] = True
     cyc[:] = np.arange(K)[:, None]
-    duty = dt[:, 0] / dt.sum(axis=1)
-    vh[:] = v
+    duty = dt[:, 0] / (((dt[:, 0] + dt[:, 1]) + dt[:, 2]) + dt[:, 3])  # the period summed in order
     if hold is not None:
+        vh[:] = v
         vh[:, 0] = hold
     on_slot[:, 0] = True  # an edge into HS or LS on-time is forced
     on_slot[:, 2] = ~ls_off
     if p:  # low-side pre-charge pulse before the first period
         dt_f[0], v_f[0], vh_f[0], hs_f[0], cyc_f[0], on_f[0] = pre, bridge.v_sw_low, bridge.v_sw_low, False, -1, True
     keep = dt_f > 0.0
-    dt, v, vh, hs, cyc, on_slot = dt_f[keep], v_f[keep], vh_f[keep], hs_f[keep], cyc_f[keep], on_f[keep]
+    dt, v, hs, cyc, on_slot = dt_f[keep], v_f[keep], hs_f[keep], cyc_f[keep], on_f[keep]
     high = v > 0.5 * bridge.v_bus
     v_rest = bridge.v_sw_low if hold is None else float(np.ravel(hold)[0]) if np.size(hold) else 0.0
     first = None if periodic else False
@@ -280,7 +280,7 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     return Schedule(dt=dt, v_sw=v, hs_on=hs, hs_turn_on=hs & ~prev_hs, sw_rise=high & ~prev_high,
                     sw_fall=~high & prev_high, cycle=cyc, duty=duty,
                     t_switch=T * (1 + (bridge.skip_cycles if skipping else 0)),
-                    v_bus=bridge.v_bus, periodic=periodic, v_hold=None if hold is None else vh,
+                    v_bus=bridge.v_bus, periodic=periodic, v_hold=None if hold is None else vh_f[keep],
                     hold_words=hold_words, edge_hard=edge_hard, v_rest=v_rest)
 
 

@@ -562,8 +562,10 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
             restarts += 1
         window = _next_window(window, bool(bad.size), restarts, stop, enabled, t_uvlo is not None, p_new, n)
         p += stop
-    loop_all = schedule_loop(circ, s.dt, s.sw_levels(delivered), delivered, periodic=False, v_prev0=s.v_rest)
-    i_start = _diode_current(v_start, loop_all, circ)
+    # the diode current depends on the loop's source and diode only, not on its loads and steps
+    src = Loop(dt=s.dt, v_src=circ.v_dd - s.sw_levels(delivered), c=circ.c, r=circ.r_tot, v_f=circ.v_f,
+               i_s=circ.i_s, n_vt=circ.n_vt, diode=circ.diode)
+    i_start = _diode_current(v_start, src, circ)
     return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments, k_settled)
 
 
@@ -578,7 +580,8 @@ def _uvlo_crossing(circ: BootstrapCircuit, s: Schedule, uvlo_on: float, orb: Orb
     kk = p + j
     sub = schedule_loop(circ, s.dt[kk:kk + 1], vsw[j:j + 1], hs[j:j + 1], periodic=False)
     dtc = crossing_time(orb.v_start[j:j + 1], uvlo_on, sub)[0]
-    return float(s.t_start[kk] + (dtc if np.isfinite(dtc) else s.dt[kk])), int(kk)
+    t_kk = float(np.cumsum(s.dt[:kk])[-1]) if kk else 0.0  # s.t_start[kk], summed over the intervals before only
+    return float(t_kk + (dtc if np.isfinite(dtc) else s.dt[kk])), int(kk)
 
 
 def _settle(s: Schedule, tail: tuple, orb_t: OrbitSolution | None, enabled: bool, p_new: int,
@@ -1231,12 +1234,24 @@ def _steady_part(ss: SteadyState, warn: list) -> _SteadyPart:
         details["v_min_model"] = v_min
         v_min = 0.0
         v_max, v_mean = max(v_max, 0.0), max(v_mean, 0.0)
-    t_wave = np.repeat(sched.t_start, 2)
-    v_wave = np.column_stack((orb.v_pre, orb.v_start)).ravel()
-    t_wave = np.append(t_wave, T)
-    v_wave = np.append(v_wave, orb.v_end[-1])
+    t_wave, v_wave = _waveform(sched.t_start, T, orb.v_pre, orb.v_start, orb.v_end[-1])
     return _SteadyPart(refreshed=True, rail=RailStats(v_min, v_max, v_mean), v_min=v_min, v_max=v_max, ints=ints,
                        t_wave=t_wave, v_wave=v_wave, details=details)
+
+
+def _waveform(t_start, t_end: float, v_pre, v_start, v_last: float):
+    """The rail as a polyline through the interval boundaries: each start twice (before and after its step),
+    then the end (times [s], rail [V])."""
+    n = len(t_start)
+    t = np.empty(2 * n + 1)
+    v = np.empty(2 * n + 1)
+    t[0:-1:2] = t_start
+    t[1:-1:2] = t_start
+    t[-1] = t_end
+    v[0:-1:2] = v_pre
+    v[1:-1:2] = v_start
+    v[-1] = v_last
+    return t, v
 
 
 def _startup_part(design: Design, option: BootstrapOption, circ: BootstrapCircuit, su: StartupSolution,
@@ -1249,15 +1264,15 @@ def _startup_part(design: Design, option: BootstrapOption, circ: BootstrapCircui
     i_first = float(su.i_start[first_live[0]]) if first_live.size else 0.0
     on_idx = np.flatnonzero(su.delivered)
     k_w = int(on_idx[0]) if on_idx.size else len(s2) - 1
-    t_w = float(s2.t_start[k_w]) if on_idx.size else s2.period
+    t0 = s2.t_start
+    t_w = float(t0[k_w]) if on_idx.size else s2.period
     v_w = float(su.v_pre[k_w]) if on_idx.size else float(su.v_end[-1])
     q_w = circ.c * v_w + circ.i_q * t_w  # charge drawn from the aux rail until the first delivered pulse
     v_dd_dip = q_w / (aux.c_dd + circ.c)  # charge sharing with the aux decoupling (no regulator help)
     cycles = None
     if su.k_uvlo is not None:
         cycles = int(max(s2.cycle[su.k_uvlo], -1) + 1)
-    t_su = np.append(np.repeat(s2.t_start, 2), s2.period)
-    v_su = np.append(np.column_stack((su.v_pre, su.v_start)).ravel(), su.v_end[-1])
+    t_su, v_su = _waveform(t0, s2.period, su.v_pre, su.v_start, su.v_end[-1])
     start = Startup(t_uvlo=su.t_uvlo, cycles_uvlo=cycles, i_peak=i_peak_su, v_dd_dip=v_dd_dip, t=t_su, v=v_su)
     details = {"i_first_pulse": i_first, "startup_segments": su.segments,
                "startup_v_max": float(np.max(su.v_start, initial=0.0)),
