@@ -15,7 +15,7 @@ import numpy as np
 from .rail_junction import (LoadedJunction, junction_current, junction_map, loaded_junction_integrals, separated_phi,
                             w_of_v, wright_omega)
 from .rail_linear import linear_map, off_params, off_time_to
-from .rail_loop import LOOP_ARRAYS, Loop, broadcast_loop, take_loop, unclamped
+from .rail_loop import LOOP_ARRAYS, Loop, broadcast_loop, full_as, take_loop, unclamped
 
 __all__ = ["bose_moments", "junction_integrals", "interval_integrals", "crossing_time"]
 
@@ -235,8 +235,8 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
     if loop.v_clamp is not None:
         return _clamped_integrals(v0, loop, r_ext)
     c, dt, i_load, g_load, R = loop.c, loop.dt, loop.i_load, loop.g_load, loop.r
-    v0 = np.broadcast_to(v0, dt.shape)
-    r_ext = np.broadcast_to(R if r_ext is None else r_ext, dt.shape)
+    v0 = full_as(v0, dt.shape)
+    r_ext = full_as(R if r_ext is None else r_ext, dt.shape)
     rate_off, veq_off = off_params(i_load, g_load, c)
     k_lin = i_load / c
     if loop.diode == "linear":
@@ -245,7 +245,7 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
         v_inf = loop.v_src - loop.v_f
         rate_on = (g + g_load) / c
         veq_on = (g * v_inf - i_load) / (g + g_load)
-        t_star = np.where(reg == 2, off_time_to(v0, v_inf, i_load, g_load, c), 0.0)
+        t_star = np.where(reg == 2, off_time_to(v0, v_inf, i_load, g_load, c, params=(rate_off, veq_off)), 0.0)
         t_off = np.where(reg == 1, dt, t_star)
         t_on = dt - t_off
         v_on0 = np.where(reg == 2, v_inf, v0)
@@ -300,7 +300,7 @@ def _clamped_integrals(v0, loop: Loop, r_ext) -> dict:
     """:func:`interval_integrals` of a clamped loop (its notes): the free loop up to the clamp, then held."""
     free = unclamped(loop)
     vc, dt = loop.v_clamp, loop.dt
-    v0 = np.broadcast_to(np.asarray(v0, dtype=float), dt.shape)
+    v0 = full_as(v0, dt.shape)
     v_in = np.minimum(v0, vc)
     v1_free = (linear_map(v_in, free)[0] if loop.diode == "linear" else junction_map(v_in, free)[0])
     hit = v1_free > vc
@@ -312,7 +312,7 @@ def _clamped_integrals(v0, loop: Loop, r_ext) -> dict:
         hit &= t_c < dt
     out = interval_integrals(v_in, dataclasses.replace(free, dt=t_c), r_ext=r_ext)
     R = loop.r
-    r_ext = np.broadcast_to(R if r_ext is None else r_ext, dt.shape)
+    r_ext = full_as(R if r_ext is None else r_ext, dt.shape)
     held = np.where(hit, dt - t_c, 0.0)
     i_d = np.zeros(dt.shape)  # the diode current while the clamp holds the rail
     if np.any(hit):
@@ -342,8 +342,8 @@ def crossing_time(v0, v_th, loop: Loop):
     within the interval.
     """
     loop = broadcast_loop(loop)
-    v0 = np.broadcast_to(np.asarray(v0, dtype=float), loop.dt.shape)
-    v_th = np.broadcast_to(np.asarray(v_th, dtype=float), loop.dt.shape)
+    v0 = full_as(v0, loop.dt.shape)
+    v_th = full_as(v_th, loop.dt.shape)
     c, i_load, g_load, R = loop.c, loop.i_load, loop.g_load, loop.r
     with np.errstate(divide="ignore", invalid="ignore"):
         if loop.diode == "linear":

@@ -144,9 +144,10 @@ def junction_map(v0, loop: Loop, v1_guess=None):
     shape = np.broadcast(v0, dt, loop.v_src, c, R, i_load, g_load, th, i_s).shape
     v0 = broadcast_as(v0, shape)
     # cut-off intervals
-    rate_off, _ = off_params(i_load, g_load, c)
-    v1_off = off_value(v0, dt, i_load, g_load, c)
-    s_off = broadcast_as(np.exp(-rate_off * dt), shape)
+    off = off_params(i_load, g_load, c)
+    e_off = np.exp(-off[0] * dt)
+    v1_off = off_value(v0, dt, i_load, g_load, c, params=off, decay=e_off)
+    s_off = broadcast_as(e_off, shape)
     v1 = np.array(v1_off, dtype=float)
     slope = np.array(s_off, dtype=float)
     if able.any():

@@ -25,32 +25,36 @@ from .rail_loop import Loop, unclamped
 __all__ = ["off_params", "off_value", "off_time_to", "linear_map", "affine_maps", "clamped_map"]
 
 
-def _expo(v0, veq, rate, t):
-    """V(t) of dV/dt = −rate·(V − veq); rate may be 0 (then veq holds the slope, see callers)."""
-    return veq + (v0 - veq) * np.exp(-rate * t)
-
-
 def off_params(i_load, g_load, c):
     """Rate and equilibrium of the cut-off regime (rate 0: straight line of slope −I/C)."""
     rate = g_load / c
+    pos = g_load > 0
     with np.errstate(divide="ignore", invalid="ignore"):
-        veq = np.where(g_load > 0, -i_load / np.where(g_load > 0, g_load, 1.0), 0.0)
+        veq = np.where(pos, -i_load / np.where(pos, g_load, 1.0), 0.0)
     return rate, veq
 
 
-def off_value(v0, t, i_load, g_load, c):
-    rate, veq = off_params(i_load, g_load, c)
-    return np.where(rate > 0, _expo(v0, veq, rate, t), v0 - i_load / c * t)
+def off_value(v0, t, i_load, g_load, c, *, params=None, decay=None):
+    """V(t) of the cut-off regime: exponential toward ``veq`` (dV/dt = −rate·(V − veq)), or the straight
+    line of slope −I/C where rate = 0. ``params`` (:func:`off_params` of the same loads) and ``decay``
+    (exp(−rate·t)) when already at hand."""
+    rate, veq = off_params(i_load, g_load, c) if params is None else params
+    e = np.exp(-rate * t) if decay is None else decay
+    return np.where(rate > 0, veq + (v0 - veq) * e, v0 - i_load / c * t)
 
 
-def off_time_to(v0, v_target, i_load, g_load, c):
-    """Time for the cut-off regime to fall from v0 to v_target (inf if never)."""
-    rate, veq = off_params(i_load, g_load, c)
+def off_time_to(v0, v_target, i_load, g_load, c, *, params=None):
+    """Time for the cut-off regime to fall from v0 to v_target (inf if never); ``params`` as in
+    :func:`off_value`."""
+    rate, veq = off_params(i_load, g_load, c) if params is None else params
+    pos = rate > 0
+    gap = v_target - veq
     with np.errstate(divide="ignore", invalid="ignore"):
-        t_exp = np.log((v0 - veq) / (v_target - veq)) / np.where(rate > 0, rate, 1.0)
-        t_exp = np.where((v_target - veq) > 0, t_exp, np.inf)
-        t_lin = np.where(i_load > 0, (v0 - v_target) * c / np.where(i_load > 0, i_load, 1.0), np.inf)
-    return np.where(rate > 0, t_exp, t_lin)
+        t_exp = np.log((v0 - veq) / gap) / np.where(pos, rate, 1.0)
+        t_exp = np.where(gap > 0, t_exp, np.inf)
+        loaded = i_load > 0
+        t_lin = np.where(loaded, (v0 - v_target) * c / np.where(loaded, i_load, 1.0), np.inf)
+    return np.where(pos, t_exp, t_lin)
 
 
 def linear_map(v0, loop: Loop):
@@ -80,17 +84,18 @@ def linear_map(v0, loop: Loop):
     g = 1.0 / loop.r
     v_inf = loop.v_src - loop.v_f
     able = v_inf > 0
-    rate_on = (g + g_load) / c
-    veq_on = (g * v_inf - i_load) / (g + g_load)
+    gg = g + g_load
+    rate_on = gg / c
+    veq_on = (g * v_inf - i_load) / gg
     e_on = np.exp(-rate_on * dt)
     # A
     v1_a = veq_on + (v0 - veq_on) * e_on
     # B
-    rate_off, _ = off_params(i_load, g_load, c)
-    v1_b = off_value(v0, dt, i_load, g_load, c)
-    s_b = np.exp(-rate_off * dt)
+    off = off_params(i_load, g_load, c)
+    s_b = np.exp(-off[0] * dt)
+    v1_b = off_value(v0, dt, i_load, g_load, c, params=off, decay=s_b)
     # C
-    t_star = off_time_to(v0, v_inf, i_load, g_load, c)
+    t_star = off_time_to(v0, v_inf, i_load, g_load, c, params=off)
     with np.errstate(invalid="ignore", over="ignore"):
         v1_c = veq_on + (v_inf - veq_on) * np.exp(-rate_on * (dt - t_star))
         num = g * (v_inf - v1_c) - i_load - g_load * v1_c

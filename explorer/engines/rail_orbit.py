@@ -19,6 +19,7 @@ broadcast, so a margin map over an ``f_sw × duty`` grid is one call;
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -26,7 +27,7 @@ import numpy as np
 from .affine import affine_scan
 from .rail_junction import junction_map
 from .rail_linear import affine_maps, linear_map
-from .rail_loop import Loop, broadcast_loop, map_loop, take_loop
+from .rail_loop import Loop, broadcast_loop, full_as, map_loop, take_loop
 
 __all__ = ["interval_map", "OrbitSolution", "solve_orbit", "steady_rail", "propagate"]
 
@@ -91,7 +92,7 @@ def _fixed_point(s, b, q, v_init):
         with np.errstate(divide="ignore", invalid="ignore"):
             u0 = np.where(1.0 - S > 0, O / (1.0 - S), np.nan)
     else:
-        u0 = np.broadcast_to(np.asarray(v_init, dtype=float)[..., None], A[..., -1:].shape)
+        u0 = full_as(np.asarray(v_init, dtype=float)[..., None], A[..., -1:].shape)
     return np.concatenate((u0, A[..., :-1] * u0 + B[..., :-1]), axis=-1)
 
 
@@ -250,9 +251,9 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
     """
     shape = loop.dt.shape
     n = shape[-1]
-    rows = int(np.prod(shape[:-1], dtype=np.int64))
+    rows = math.prod(shape[:-1])
     flat = loop if len(shape) == 2 else map_loop(loop, lambda a: a.reshape(rows, n))
-    vi = None if v_init is None else np.broadcast_to(np.asarray(v_init, dtype=float), shape[:-1]).reshape(rows)
+    vi = None if v_init is None else full_as(v_init, shape[:-1]).reshape(rows)
     u = np.empty((rows, n))
     v0 = np.empty((rows, n))
     v1 = np.empty((rows, n))

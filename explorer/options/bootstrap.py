@@ -61,7 +61,7 @@ from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..engines.rail_integrals import crossing_time, interval_integrals
 from ..engines.rail_junction import junction_current
 from ..engines.rail_linear import off_time_to
-from ..engines.rail_loop import Loop, loop_fields, map_loop, thermal_voltage
+from ..engines.rail_loop import Loop, loop_fields, map_loop, take_loop, thermal_voltage
 from ..engines.rail_orbit import OrbitSolution, propagate, solve_orbit, steady_rail
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
@@ -524,7 +524,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         pred = _predict_enabled(state, s.cycle, p, q_end, enabled)
         hs = s.hs_on[sl] & pred
         vsw = np.where(s.hs_on[sl] & ~pred, s.v_hold[sl], s.v_sw[sl])
-        loop = schedule_loop(circ, s.dt[sl], vsw, hs, periodic=False, v_prev0=prev_l, hs_prev0=prev_h)
+        loop = _bc(schedule_loop(circ, s.dt[sl], vsw, hs, periodic=False, v_prev0=prev_l, hs_prev0=prev_h))
         orb = propagate(loop, v, tol=STARTUP_TOL)
         segments += 1
         # the UVLO rule, sampled at interval boundaries: an enabled driver drops out when the rail is
@@ -545,7 +545,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
             prev_h = bool(hs[live[-1]])
         v = float(orb.v_end[stop - 1])
         if t_uvlo is None:
-            hit = _uvlo_crossing(circ, s, drv.uvlo_on, orb, ~pred[:stop] & nxt[:stop], p, vsw, hs)
+            hit = _uvlo_crossing(s, drv.uvlo_on, orb, ~pred[:stop] & nxt[:stop], p, loop)
             if hit is not None:
                 t_uvlo, k_uvlo = hit
         enabled = bool(nxt[stop - 1])
@@ -569,16 +569,17 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
     return StartupSolution(s, v_pre, v_start, v_end, delivered, i_start, t_uvlo, k_uvlo, segments, k_settled)
 
 
-def _uvlo_crossing(circ: BootstrapCircuit, s: Schedule, uvlo_on: float, orb: OrbitSolution, up: np.ndarray,
-                   p: int, vsw: np.ndarray, hs: np.ndarray) -> tuple[float, int] | None:
-    """(t_uvlo [s], interval) of the first interval of a solved piece (starting at interval ``p``) in which a
-    driver held in UVLO sees the rail reach UVLO-on (``up`` marks them), exact within the interval; or None."""
+def _uvlo_crossing(s: Schedule, uvlo_on: float, orb: OrbitSolution, up: np.ndarray, p: int,
+                   loop: Loop) -> tuple[float, int] | None:
+    """(t_uvlo [s], interval) of the first interval of a solved piece (starting at interval ``p``, its
+    broadcast interval loop ``loop``) in which a driver held in UVLO sees the rail reach UVLO-on (``up``
+    marks them), exact within the interval; or None."""
     up = np.flatnonzero(up)
     if not up.size:
         return None
     j = int(up[0])
     kk = p + j
-    sub = schedule_loop(circ, s.dt[kk:kk + 1], vsw[j:j + 1], hs[j:j + 1], periodic=False)
+    sub = take_loop(loop, slice(j, j + 1))  # the crossing needs the interval's source and loads, not its step
     dtc = crossing_time(orb.v_start[j:j + 1], uvlo_on, sub)[0]
     t_kk = float(np.cumsum(s.dt[:kk])[-1]) if kk else 0.0  # s.t_start[kk], summed over the intervals before only
     return float(t_kk + (dtc if np.isfinite(dtc) else s.dt[kk])), int(kk)
