@@ -14,7 +14,7 @@ import numpy as np
 
 from .rail_junction import (LoadedJunction, junction_current, junction_map, loaded_junction_integrals, separated_phi,
                             w_of_v, wright_omega)
-from .rail_linear import linear_map, off_params, off_time_to
+from .rail_linear import linear_map, linear_parts, off_params
 from .rail_loop import LOOP_ARRAYS, Loop, broadcast_loop, full_as, take_loop, unclamped
 
 __all__ = ["bose_moments", "junction_integrals", "interval_integrals", "crossing_time"]
@@ -23,17 +23,21 @@ __all__ = ["bose_moments", "junction_integrals", "interval_integrals", "crossing
 def _seg(v0, veq, rate, L, slope_lin):
     """∫V, ∫V², ∫(dV/dt)² over one smooth segment (exponential or, for rate 0, straight line)."""
     pos = rate > 0
-    rr = np.where(pos, rate, 1.0)
-    e1 = np.where(pos, -np.expm1(-rate * L) / rr, L)
-    e2 = np.where(pos, -np.expm1(-2 * rate * L) / (2 * rr), L)
-    d = v0 - veq
-    iv_e = veq * L + d * e1
-    iv2_e = veq ** 2 * L + 2 * veq * d * e1 + d ** 2 * e2
-    idv2_e = rr ** 2 * d ** 2 * e2
-    iv_l = v0 * L - 0.5 * slope_lin * L ** 2
-    iv2_l = v0 ** 2 * L - v0 * slope_lin * L ** 2 + slope_lin ** 2 * L ** 3 / 3
-    idv2_l = slope_lin ** 2 * L
-    return (np.where(pos, iv_e, iv_l), np.where(pos, iv2_e, iv2_l), np.where(pos, idv2_e, idv2_l))
+    some, every = pos.any(), pos.all()  # the form that no interval takes is not evaluated
+    if some:
+        rr = rate if every else np.where(pos, rate, 1.0)
+        e1 = -np.expm1(-rate * L) / rr  # (only where rate > 0 is this form taken)
+        e2 = -np.expm1(-2 * rate * L) / (2 * rr)
+        d = v0 - veq
+        exp_form = (veq * L + d * e1, veq ** 2 * L + 2 * veq * d * e1 + d ** 2 * e2, rr ** 2 * d ** 2 * e2)
+        if every:
+            return exp_form
+    lin_form = (v0 * L - 0.5 * slope_lin * L ** 2,
+                v0 ** 2 * L - v0 * slope_lin * L ** 2 + slope_lin ** 2 * L ** 3 / 3,
+                slope_lin ** 2 * L)
+    if not some:
+        return tuple(full_as(x, pos.shape) for x in lin_form)
+    return tuple(np.where(pos, x, y) for x, y in zip(exp_form, lin_form))
 
 
 #: Nodes of the short-range Gauss–Legendre rule of :func:`bose_moments`.
@@ -237,15 +241,12 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
     c, dt, i_load, g_load, R = loop.c, loop.dt, loop.i_load, loop.g_load, loop.r
     v0 = full_as(v0, dt.shape)
     r_ext = full_as(R if r_ext is None else r_ext, dt.shape)
-    rate_off, veq_off = off_params(i_load, g_load, c)
     k_lin = i_load / c
     if loop.diode == "linear":
-        v1, _, reg = linear_map(v0, loop)
-        g = 1.0 / R
-        v_inf = loop.v_src - loop.v_f
-        rate_on = (g + g_load) / c
-        veq_on = (g * v_inf - i_load) / (g + g_load)
-        t_star = np.where(reg == 2, off_time_to(v0, v_inf, i_load, g_load, c, params=(rate_off, veq_off)), 0.0)
+        m = linear_parts(v0, loop)  # the map's own intermediates
+        v1, reg, g, v_inf, rate_on, veq_on = m["v1"], m["regime"], m["g"], m["v_inf"], m["rate_on"], m["veq_on"]
+        rate_off, veq_off = m["off"]
+        t_star = np.where(reg == 2, m["t_star"], 0.0)
         t_off = np.where(reg == 1, dt, t_star)
         t_on = dt - t_off
         v_on0 = np.where(reg == 2, v_inf, v0)
@@ -261,6 +262,7 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
         e_d = loop.v_f * q_d + (R - r_ext) * i2_d
         i_d0 = np.where(reg == 0, g * (v_inf - v0), 0.0)
     else:
+        rate_off, veq_off = off_params(i_load, g_load, c)
         v1, _ = junction_map(v0, loop)
         able = loop.v_src > 0
         iv_off, iv2_off, idv2_off = _seg(v0, veq_off, rate_off, dt, k_lin)

@@ -22,7 +22,8 @@ import numpy as np
 
 from .rail_loop import Loop, unclamped
 
-__all__ = ["off_params", "off_value", "off_time_to", "linear_map", "affine_maps", "clamped_map"]
+__all__ = ["off_params", "off_value", "off_time_to", "linear_map", "linear_parts", "affine_maps",
+           "clamped_map"]
 
 
 def off_params(i_load, g_load, c):
@@ -80,6 +81,14 @@ def linear_map(v0, loop: Loop):
     """
     if loop.v_clamp is not None:
         return clamped_map(v0, loop, lambda v, lp: linear_map(v, lp))
+    m = linear_parts(v0, loop)
+    return m["v1"], m["slope"], m["regime"]
+
+
+def linear_parts(v0, loop: Loop) -> dict:
+    """:func:`linear_map` of a loop without a clamp, with the intermediates the interval integrals reuse:
+    ``v1``, ``slope``, ``regime``, ``g`` = 1/R, ``v_inf``, ``rate_on``, ``veq_on``, ``off`` (:func:`off_params`)
+    and ``t_star`` (:func:`off_time_to` V_∞, the cut-off time of regime C)."""
     c, dt, i_load, g_load = loop.c, loop.dt, loop.i_load, loop.g_load
     g = 1.0 / loop.r
     v_inf = loop.v_src - loop.v_f
@@ -108,7 +117,8 @@ def linear_map(v0, loop: Loop):
     v1 = np.where(in_a, v1_a, np.where(in_c, v1_c, v1_b))
     slope = np.where(in_a, e_on, np.where(in_c, s_c, s_b))
     regime = np.where(in_a, 0, np.where(in_c, 2, 1)).astype(np.int8)
-    return v1, slope, regime
+    return {"v1": v1, "slope": slope, "regime": regime, "g": g, "v_inf": v_inf, "rate_on": rate_on,
+            "veq_on": veq_on, "off": off, "t_star": t_star}
 
 
 def affine_maps(loop: Loop):
