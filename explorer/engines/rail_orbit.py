@@ -209,7 +209,8 @@ def _solve_block(loop: Loop, v_init, tol, v_guess=None):
             bad |= ((v0 > loop.v_clamp) | (a * v0 + b > loop.v_clamp)).any(axis=-1)
         passes = 1
         converged = True
-        if np.any(bad):
+        v1 = a * v0 + b  # exact where the affine regime holds
+        if bad.any():
             rows = np.nonzero(bad)[0]
             sub = take_loop(loop, rows)
             vi = None if v_init is None else np.asarray(v_init)[rows]
@@ -218,12 +219,7 @@ def _solve_block(loop: Loop, v_init, tol, v_guess=None):
             v0[rows] = v0_s
             passes = 1 + p
             converged = ok
-        v1 = np.where(able & (v0 <= v_inf), 0.0, np.nan)  # placeholder, filled below
-        a_end = a * v0 + b  # exact where the affine regime holds
-        if np.any(bad):
-            v1_s, _, _ = linear_map(v0[rows], take_loop(loop, rows))
-            a_end[rows] = v1_s
-        v1 = a_end
+            v1[rows] = linear_map(v0_s, sub)[0]
         return u, v0, v1, passes, converged
     seeded = None if v_guess is None else np.isfinite(v_guess).all(axis=-1)
     if seeded is not None and seeded.all():
@@ -268,16 +264,16 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
         converged &= ok
     if loop.v_clamp is not None:  # a step that would lift the rail above the clamp ends at it
         v0 = np.minimum(v0, flat.v_clamp)
-    v_min = v1[:, -1].copy()
-    v_max = v1[:, -1].copy()
-    if n <= 32:  # column loop: much faster than a reduction over a short last axis
+    if n <= 32 and rows > 256:  # column loop: much faster than a reduction over a short last axis
+        v_min = v1[:, -1].copy()
+        v_max = v1[:, -1].copy()
         for k in range(n):
             for x in (u[:, k], v0[:, k]):
                 np.minimum(v_min, x, out=v_min)
                 np.maximum(v_max, x, out=v_max)
     else:
-        v_min = np.minimum(np.minimum(v0.min(axis=-1), u.min(axis=-1)), v_min)
-        v_max = np.maximum(np.maximum(v0.max(axis=-1), u.max(axis=-1)), v_max)
+        v_min = np.minimum(np.minimum(v0.min(axis=-1), u.min(axis=-1)), v1[:, -1])
+        v_max = np.maximum(np.maximum(v0.max(axis=-1), u.max(axis=-1)), v1[:, -1])
     return OrbitSolution(v_pre=u.reshape(shape), v_start=v0.reshape(shape), v_end=v1.reshape(shape),
                          v_min=v_min.reshape(shape[:-1]), v_max=v_max.reshape(shape[:-1]),
                          passes=passes, converged=bool(converged))

@@ -61,7 +61,7 @@ from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..engines.rail_integrals import crossing_time, interval_integrals
 from ..engines.rail_junction import junction_current
 from ..engines.rail_linear import off_time_to
-from ..engines.rail_loop import Loop, loop_fields, map_loop, take_loop, thermal_voltage
+from ..engines.rail_loop import Loop, full_as, loop_fields, map_loop, take_loop, thermal_voltage
 from ..engines.rail_orbit import OrbitSolution, propagate, solve_orbit, steady_rail
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
@@ -204,17 +204,26 @@ def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool
         if periodic:
             wrap = last[..., -1:]
             last = np.where(last < 0, np.where(wrap < 0, n - 1, wrap), last)
-            lev = np.take_along_axis(v_sw, last, axis=-1)
-            hs = np.take_along_axis(hs_on, last, axis=-1)
+            lev = _take_last(v_sw, last)
+            hs = _take_last(hs_on, last)
         else:
             safe = np.maximum(last, 0)
-            lev = np.where(last < 0, v_prev0, np.take_along_axis(v_sw, safe, axis=-1))
-            hs = np.where(last < 0, hs_prev0, np.take_along_axis(hs_on, safe, axis=-1))
+            lev = np.where(last < 0, v_prev0, _take_last(v_sw, safe))
+            hs = np.where(last < 0, hs_prev0, _take_last(hs_on, safe))
     else:
         lev, hs = np.array(v_sw, dtype=float), hs_on
     prev_l = previous(lev, None if periodic else v_prev0)
     prev_h = previous(hs, None if periodic else hs_prev0)
     return lev, prev_l, prev_h
+
+
+def _take_last(a: np.ndarray, idx: np.ndarray) -> np.ndarray:
+    """``np.take_along_axis(a, idx, axis=-1)`` for ``idx`` shaped like ``a`` (one fancy index, rows × columns)."""
+    if a.ndim == 1:
+        return a[idx]
+    n = a.shape[-1]
+    a2 = a.reshape(-1, n)
+    return a2[np.arange(a2.shape[0])[:, None], idx.reshape(-1, n)].reshape(idx.shape)
 
 
 def _as_shape(x, shape, dtype) -> np.ndarray:
@@ -803,7 +812,7 @@ def _period(design: Design) -> float:
 
 
 def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner: str = "nominal",
-                 circ: BootstrapCircuit | None = None, full: bool = False, v_guess=None):
+                 circ: BootstrapCircuit | None = None, full: bool = False, v_guess=None, levels=None):
     """Steady-state rail minimum over a grid of switching frequency × HS duty [V].
 
     Each point is one switching period ``[HS duty·T][dead][LS][dead]`` with the
@@ -823,6 +832,8 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         Starting trajectory shaped ``broadcast(f_sw, duty) + (4,)`` (the
         ``v_start`` of a nearby map); speeds up the junction diode's iteration
         without changing the answer beyond its tolerance.
+    levels : (float, float) [V], optional
+        The dead-time levels (``_levels(design)``) when already at hand.
 
     Returns
     -------
@@ -839,11 +850,10 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
     (2, 2)
     """
     circ = circ or bootstrap_circuit(design, option, corner)
-    f_sw, duty = np.broadcast_arrays(np.asarray(f_sw, dtype=float), np.asarray(duty, dtype=float))
-    shape = f_sw.shape
-    f_flat = f_sw.reshape(-1)
-    h_flat = np.clip(duty.reshape(-1), 0.0, 1.0)
-    la, lb = _levels(design)
+    shape = np.broadcast(f_sw, duty).shape
+    f_flat = full_as(f_sw, shape).reshape(-1)
+    h_flat = np.clip(full_as(duty, shape).reshape(-1), 0.0, 1.0)
+    la, lb = _levels(design) if levels is None else levels
     td = design.bridge.dead_time
     n_pts = f_flat.size
     out = np.empty(n_pts)
@@ -853,7 +863,7 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         T = 1.0 / f_flat[a:a + _MAP_BLOCK, None]
         t_hs = h_flat[a:a + _MAP_BLOCK, None] * T
         dt, v, hs = duty_slots(design, t_hs, T - t_hs - 2 * td, la, lb, T)
-        loop = schedule_loop(circ, dt, v, hs, periodic=True)
+        loop = _bc(schedule_loop(circ, dt, v, hs, periodic=True))
         orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
                           g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
                           n_vt=loop.n_vt, v_guess=None if g_flat is None else g_flat[a:a + _MAP_BLOCK],
@@ -862,8 +872,8 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         if full:
             parts.append(orb)
     if full:
-        cat = {k: np.concatenate([getattr(o, k) for o in parts]) for k in
-               ("v_pre", "v_start", "v_end", "v_min", "v_max")}
+        cat = {k: (getattr(parts[0], k) if len(parts) == 1 else np.concatenate([getattr(o, k) for o in parts]))
+               for k in ("v_pre", "v_start", "v_end", "v_min", "v_max")}
         n = cat["v_pre"].shape[-1]
         return OrbitSolution(**{k: (v.reshape(shape + (n,)) if v.ndim == 2 else v.reshape(shape))
                                 for k, v in cat.items()},
@@ -886,7 +896,8 @@ def duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
     f = analysis_frequency(design.bridge)
     th = np.asarray(thresholds, dtype=float)
     grid = np.linspace(h_lo, h_hi, DUTY_GRID + 1)
-    coarse = rail_min_map(design, None, f, grid, circ=circ, full=True)
+    levels = _levels(design)
+    coarse = rail_min_map(design, None, f, grid, circ=circ, full=True, levels=levels)
     vm = _reported_min(coarse.v_min)
     vm = np.where(np.isfinite(vm), vm, -np.inf)
     out: list = [None] * th.size
@@ -910,7 +921,7 @@ def duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
         j_hi = np.rint((hi[idx] - h_lo) / (grid[1] - grid[0])).astype(int)
         frac = np.linspace(0.0, 1.0, 33)[None, :, None]
         guess = (coarse.v_start[j_hi - 1][:, None, :] * (1.0 - frac) + coarse.v_start[j_hi][:, None, :] * frac)
-        m = rail_min_map(design, None, f, g, circ=circ, v_guess=guess)
+        m = rail_min_map(design, None, f, g, circ=circ, v_guess=guess, levels=levels)
         m = np.where(np.isfinite(m), m, -np.inf)
         okg = m >= th[idx, None]
         j = np.where(okg.all(axis=-1), 32, np.argmax(~okg, axis=-1))
