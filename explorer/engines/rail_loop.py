@@ -128,11 +128,11 @@ def broadcast_loop(loop: Loop) -> Loop:
     already are)."""
     names = loop_fields(loop)
     vals = [getattr(loop, k) for k in names]
-    shape = np.broadcast(*vals).shape
-    arrs = [full_as(v, shape) for v in vals]
-    if all(a is v for a, v in zip(arrs, vals)):
+    shape = loop.dt.shape if type(loop.dt) is np.ndarray else None
+    if all(type(v) is np.ndarray and v.shape == shape and v.dtype == np.float64 for v in vals):
         return loop
-    return Loop(**dict(zip(names, arrs)), diode=loop.diode)
+    shape = np.broadcast(*vals).shape
+    return Loop(**{k: full_as(v, shape) for k, v in zip(names, vals)}, diode=loop.diode)
 
 
 def map_loop(loop: Loop, fn) -> Loop:

@@ -696,14 +696,15 @@ def _rotated_orbit(loop: Loop, steady: SteadyState) -> OrbitSolution | None:
     names = loop_fields(ref)
     if names != loop_fields(loop):
         return None
-    a = np.stack([getattr(ref, k) for k in names])
-    b = np.stack([getattr(loop, k) for k in names])
+    a = np.array([getattr(ref, k) for k in names])
+    b = np.array([getattr(loop, k) for k in names])
+    k = np.arange(L)
     for r in range(L):
-        idx = (np.arange(L) + r) % L  # np.roll(x, -r) is x[idx]
-        if np.array_equal(a[..., idx], b):
+        idx = (k + r) % L  # np.roll(x, -r) is x[idx]
+        if (a[:, idx] == b).all():
             o = steady.orbit
-            return dataclasses.replace(o, v_pre=o.v_pre[..., idx], v_start=o.v_start[..., idx],
-                                       v_end=o.v_end[..., idx])
+            return OrbitSolution(v_pre=o.v_pre[idx], v_start=o.v_start[idx], v_end=o.v_end[idx], v_min=o.v_min,
+                                 v_max=o.v_max, passes=o.passes, converged=o.converged)
     return None
 
 
@@ -891,6 +892,11 @@ def _reported_min(v_min):
 _MAP_BLOCK = 8192
 
 
+#: The 33 points of a bisection bracket as shares of it (a fixed grid, see :func:`duty_limit`).
+_FRAC_33 = np.linspace(0.0, 1.0, 33)
+_FRAC_33.flags.writeable = False
+
+
 def duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
     """Largest HS duty whose steady-state minimum stays at or above each threshold (None: none)."""
     f = analysis_frequency(design.bridge)
@@ -919,7 +925,7 @@ def duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
         g = np.linspace(lo[idx], hi[idx], 33, axis=-1)
         # start each refined orbit from the coarse orbits on either side, interpolated in duty
         j_hi = np.rint((hi[idx] - h_lo) / (grid[1] - grid[0])).astype(int)
-        frac = np.linspace(0.0, 1.0, 33)[None, :, None]
+        frac = _FRAC_33[None, :, None]
         guess = (coarse.v_start[j_hi - 1][:, None, :] * (1.0 - frac) + coarse.v_start[j_hi][:, None, :] * frac)
         m = rail_min_map(design, None, f, g, circ=circ, v_guess=guess, levels=levels)
         m = np.where(np.isfinite(m), m, -np.inf)
@@ -1441,38 +1447,38 @@ def _power_part(design: Design, circ: BootstrapCircuit, ss: SteadyState, steady:
     m = ss.masks  # the interval loop's own masks
     lev, prev_l, rev, rise = m.lev, m.prev_l, m.rev, m.onset
     n_rise = int(np.count_nonzero(rise))
-    t_rev = float(np.sum(sched.dt[rev]))
-    q_d = float(np.sum(ints["q_d"]))
+    t_rev = float(sched.dt[rev].sum())
+    q_d = float(ints["q_d"].sum())
     q_ret = circ.q_rr * n_rise + circ.i_leak * t_rev
     p_aux = circ.v_dd * (q_d - q_ret) / T
-    e_sw = -float(np.sum(sched.v_sw * ints["q_d"]))  # energy the switch node adds while below ground
+    e_sw = -float((sched.v_sw * ints["q_d"]).sum())  # energy the switch node adds while below ground
     # rail voltage of a charge step: Q·(V_pre + V_post)/2, V_post the step's own end (a step that would
     # end above a clamp hands the clamp the excess: ints["e_clamp"])
     v_step = 0.5 * (orb.v_pre + post_step(orb, loop))
     # recovery and leakage flow from the cathode, V_B = V_SW + v, back to the anode at V_DD: the bus
     # gives Q·V_SW, C_boot gives Q·v (a step at each rise, a current over the reverse-biased intervals),
     # V_DD takes Q·V_DD back (q_ret, credited to the aux draw); the diode dissipates the difference
-    e_rr_bus = circ.q_rr * float(np.sum(lev[rise]))
-    e_rr = e_rr_bus + circ.q_rr * float(np.sum(v_step[rise])) - circ.v_dd * circ.q_rr * n_rise
+    e_rr_bus = circ.q_rr * float(lev[rise].sum())
+    e_rr = e_rr_bus + circ.q_rr * float(v_step[rise].sum()) - circ.v_dd * circ.q_rr * n_rise
     cj_edges = capacitive_edge_power(circ.c_j, sched)  # ½·C_j·ΔV² per hard edge, ~0 per ZVS edge
     e_cj = cj_edges.dissipated * T
-    e_lk_bus = circ.i_leak * float(np.sum(lev[rev] * sched.dt[rev]))
-    e_lk = e_lk_bus + circ.i_leak * float(np.sum(ints["int_v"][rev])) - circ.v_dd * circ.i_leak * t_rev
+    e_lk_bus = circ.i_leak * float((lev[rev] * sched.dt[rev]).sum())
+    e_lk = e_lk_bus + circ.i_leak * float(ints["int_v"][rev].sum()) - circ.v_dd * circ.i_leak * t_rev
     p_bus = (e_rr_bus + e_cj + e_lk_bus + e_sw) / T
     # C_j's charge leaves C_boot at one edge and returns at the next at another rail voltage (the rail
     # droops in between): Q·(V_pre + V_post)/2 per step, the energy of a capacitor's charge step. The
     # sum is what the rail hands the power stage through C_j; drawn, not delivered, not dissipated here.
-    e_cj_rail = float(np.sum(circ.c_j * (lev - prev_l) * v_step))
-    e_gate = float(np.sum((circ.q_on * sched.hs_turn_on + circ.q_off * sched.hs_turn_off)
-                          * v_step))  # gate and both level-shift pulses
-    e_q = circ.i_q * float(np.sum(ints["int_v"]))
-    e_g = float(np.sum(ints["e_load"] - loop.i_load * ints["int_v"]))
+    e_cj_rail = float((circ.c_j * (lev - prev_l) * v_step).sum())
+    e_gate = float(((circ.q_on * sched.hs_turn_on + circ.q_off * sched.hs_turn_off)
+                          * v_step).sum())  # gate and both level-shift pulses
+    e_q = circ.i_q * float(ints["int_v"].sum())
+    e_g = float((ints["e_load"] - loop.i_load * ints["int_v"]).sum())
     p_del = (e_gate + e_q + e_g) / T
-    losses = {"resistor": float(np.sum(ints["e_r"])) / T, "diode": float(np.sum(ints["e_d"])) / T,
+    losses = {"resistor": float(ints["e_r"].sum()) / T, "diode": float(ints["e_d"].sum()) / T,
               "recovery": e_rr / T, "junction": e_cj / T, "leakage": e_lk / T,
               "junction_exchange": e_cj_rail / T}
     if "e_clamp" in ints:  # the clamp across C_boot, while it holds the rail
-        losses["clamp"] = float(np.sum(ints["e_clamp"])) / T
+        losses["clamp"] = float(ints["e_clamp"].sum()) / T
     eff = p_del / (p_aux + p_bus) if (p_aux + p_bus) > 0 else None
     return _PowerPart(p_aux=p_aux, p_bus=p_bus, p_del=p_del, efficiency=eff, losses=losses,
                       details={"q_diode_per_period": q_d, "energy_switch_node": e_sw / T,
