@@ -273,17 +273,17 @@ def interval_integrals(v0, loop: Loop, *, r_ext=None) -> dict:
         i2_c = c ** 2 * idv2_off
         e_d = np.zeros(dt.shape)
         i_d0 = np.zeros(dt.shape)
-        if np.any(able):
+        if able.any():
             sub = Loop(**{k: getattr(loop, k)[able] for k in LOOP_ARRAYS}, diode="junction")
             loaded = sub.g_load > 0  # the pull-down loads the rail while the diode conducts
             out = {k: np.zeros(sub.dt.shape) for k in ("q_d", "i2_d", "int_v", "int_v2", "i2_c", "e_d", "i_d0")}
             v1_able = np.array(v1[able], dtype=float)
-            if np.any(~loaded):
+            if (~loaded).any():
                 out_0 = junction_integrals(v0[able][~loaded], v1_able[~loaded], take_loop(sub, ~loaded),
                                             r_ext[able][~loaded])
                 for name in out:
                     out[name][~loaded] = out_0[name]
-            if np.any(loaded):
+            if loaded.any():
                 out_g = loaded_junction_integrals(v0[able][loaded], take_loop(sub, loaded), r_ext[able][loaded])
                 for name in out:
                     out[name][loaded] = out_g[name]
@@ -307,7 +307,7 @@ def _clamped_integrals(v0, loop: Loop, r_ext) -> dict:
     v1_free = (linear_map(v_in, free)[0] if loop.diode == "linear" else junction_map(v_in, free)[0])
     hit = v1_free > vc
     t_c = dt
-    if np.any(hit):  # the crossing, solved where the rail reaches the clamp only
+    if hit.any():  # the crossing, solved where the rail reaches the clamp only
         t_x = np.array(dt, dtype=float)
         t_x[hit] = crossing_time(v_in[hit], vc[hit], take_loop(free, hit))
         t_c = np.where(hit & np.isfinite(t_x), np.minimum(t_x, dt), dt)
@@ -317,7 +317,7 @@ def _clamped_integrals(v0, loop: Loop, r_ext) -> dict:
     r_ext = full_as(R if r_ext is None else r_ext, dt.shape)
     held = np.where(hit, dt - t_c, 0.0)
     i_d = np.zeros(dt.shape)  # the diode current while the clamp holds the rail
-    if np.any(hit):
+    if hit.any():
         if loop.diode == "linear":
             i_d[hit] = np.maximum((loop.v_src[hit] - loop.v_f[hit] - vc[hit]) / R[hit], 0.0)
         else:
@@ -367,7 +367,7 @@ def crossing_time(v0, v_th, loop: Loop):
             t = R * c * (separated_phi(s0, sg0, w0, w_i) - separated_phi(s1, sg1, w1, w_i))
             ok = (sg0 == sg1) & (sg0 > 0) & (v0 <= v_th) & (loop.v_src > 0)
             loaded = (g_load > 0) & (loop.v_src > 0) & (v0 < v_th)
-            if np.any(loaded):  # with the pull-down: the elapsed-time integral of LoadedJunction
+            if loaded.any():  # with the pull-down: the elapsed-time integral of LoadedJunction
                 sub = take_loop(loop, loaded)
                 jg = LoadedJunction(sub)
                 d0 = jg.lam_of_v(v0[loaded]) - jg.lam_e

@@ -166,12 +166,12 @@ def _newton_orbit(loop: Loop, v0, v_init, tol):
         v1[moved] = v1_m
         s[moved] = s_m
         v_lin[moved] = v0[moved]
-        if linear and passes == 1 and np.all(reg != 2):
+        if linear and passes == 1 and (reg != 2).all():
             # only affine regimes, re-linearised where they changed: the next composition is exact
             u = _fixed_point(s, v1 - s * v_lin, q, v_init)
             v0 = u - q
             _, _, reg_chk = linear_map(v0, loop)
-            if np.all((reg_chk == reg) | ~np.isfinite(v0)):
+            if ((reg_chk == reg) | ~np.isfinite(v0)).all():
                 converged = True
                 passes += 1
                 break

@@ -388,7 +388,7 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
     if not orb.converged:
         warnings.warn("bootstrap steady state: the orbit iteration did not converge; figures are approximate",
                       ModelValidityWarning, stacklevel=2)
-    ints = (interval_integrals(post_step(orb, loop), loop, r_ext=circ.r_ext) if np.all(np.isfinite(orb.v_start))
+    ints = (interval_integrals(post_step(orb, loop), loop, r_ext=circ.r_ext) if np.isfinite(orb.v_start).all()
             else {})
     return SteadyState(s, loop, orb, ints, circ, masks)
 
@@ -428,10 +428,10 @@ def _presumption_holds(circ: BootstrapCircuit, m: LoopMasks, orb) -> bool:
     """
     if circ.v_hold <= 0.0 or (circ.i_leak <= 0.0 and circ.q_rr <= 0.0):
         return True
-    if not (np.all(np.isfinite(orb.v_start)) and np.all(np.isfinite(orb.v_end))):
+    if not (np.isfinite(orb.v_start).all() and np.isfinite(orb.v_end).all()):
         return False
     low = np.minimum(orb.v_start, orb.v_end)
-    return not np.any(m.rev & m.live & (m.lev + low < circ.v_dd))
+    return not (m.rev & m.live & (m.lev + low < circ.v_dd)).any()
 
 
 def _bc(loop: Loop) -> Loop:
@@ -540,7 +540,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         # below UVLO-off at either end of an interval; a disabled one restarts once it ends at UVLO-on
         nxt = np.where(pred, ~((orb.v_start < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)),
                        orb.v_end >= drv.uvlo_on)
-        bad = np.flatnonzero(nxt[:-1] != pred[1:])
+        bad = (nxt[:-1] != pred[1:]).nonzero()[0]
         stop = int(bad[0]) + 1 if bad.size else q_end - p
         k = slice(p, p + stop)
         v_pre[k] = orb.v_pre[:stop]
@@ -548,7 +548,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         v_end[k] = orb.v_end[:stop]
         delivered[k] = hs[:stop]
         state[k] = pred[:stop]
-        live = np.flatnonzero(s.dt[p:p + stop] > 0)
+        live = (s.dt[p:p + stop] > 0).nonzero()[0]
         if live.size:
             prev_l = float(vsw[live[-1]])
             prev_h = bool(hs[live[-1]])
@@ -583,7 +583,7 @@ def _uvlo_crossing(s: Schedule, uvlo_on: float, orb: OrbitSolution, up: np.ndarr
     """(t_uvlo [s], interval) of the first interval of a solved piece (starting at interval ``p``, its
     broadcast interval loop ``loop``) in which a driver held in UVLO sees the rail reach UVLO-on (``up``
     marks them), exact within the interval; or None."""
-    up = np.flatnonzero(up)
+    up = up.nonzero()[0]
     if not up.size:
         return None
     j = int(up[0])
@@ -605,7 +605,7 @@ def _settle(s: Schedule, tail: tuple, orb_t: OrbitSolution | None, enabled: bool
     p_b = j1 + ((p_new - j1) // L) * L  # last pattern boundary reached
     u0 = orb_t.v_pre[0] if orb_t is not None else np.nan
     v_b = v_end[p_b - 1]
-    if not (orb_t is not None and np.all(state[p_b - L:p_new] == enabled)
+    if not (orb_t is not None and (state[p_b - L:p_new] == enabled).all()
             and abs(v_b - u0) <= STARTUP_TOL * (1.0 + abs(u0))):
         return None
     reps = -(-(n - p_b) // L)
@@ -653,7 +653,7 @@ def _periodic_tail(s: Schedule) -> tuple[int, int] | None:
     if L <= 0 or n < 3 * L + _SETTLE_PATTERNS * L:
         return None
     same = (s.dt[:-L] == s.dt[L:]) & (s.v_sw[:-L] == s.v_sw[L:]) & (s.hs_on[:-L] == s.hs_on[L:])
-    diff = np.flatnonzero(~same)
+    diff = (~same).nonzero()[0]
     j0 = int(diff[-1]) + 1 if diff.size else 0
     j1 = j0 + L
     if j1 + _SETTLE_PATTERNS * L >= n:
@@ -677,13 +677,13 @@ def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: b
     if orb is None:
         orb = solve_orbit(loop)
     vals = np.concatenate((orb.v_start, orb.v_end))
-    if not (orb.converged and np.all(np.isfinite(vals))):
+    if not (orb.converged and np.isfinite(vals).all()):
         return None
     m = 2.0 * STARTUP_TOL * (1.0 + np.abs(vals))
     if enabled:
-        ok = np.all(vals >= drv.uvlo_off + m)
+        ok = (vals >= drv.uvlo_off + m).all()
     else:
-        ok = np.all(orb.v_end < drv.uvlo_on - m[L:])
+        ok = (orb.v_end < drv.uvlo_on - m[L:]).all()
     return orb if ok else None
 
 
@@ -722,7 +722,7 @@ def _predict_enabled(state, cycle, p, q_end, enabled):
     if p == 0:
         return pred
     h = state[max(0, p - 8192):p]
-    rise = np.flatnonzero(h[1:] & ~h[:-1])
+    rise = (h[1:] & ~h[:-1]).nonzero()[0]
     if rise.size >= 2:  # period of the drop-out pattern: the distance between the last two restarts
         period = int(rise[-1] - rise[-2])
     else:  # else the last switching period, if the state changed in it
@@ -1245,7 +1245,7 @@ def _steady_part(ss: SteadyState, warn: list) -> _SteadyPart:
                            t_wave=np.zeros(0), v_wave=np.zeros(0), details=details)
     ints = ss.integrals
     v_min, v_max = float(orb.v_min), float(orb.v_max)
-    v_mean = float(np.sum(ints["int_v"]) / T)
+    v_mean = float(ints["int_v"].sum() / T)
     if v_min < 0.0:
         warn.append("the rail collapses to 0 V in steady state (below 0 V the model's constant load "
                     "current no longer holds; the minimum is shown as 0 V)")
@@ -1278,9 +1278,9 @@ def _startup_part(design: Design, option: BootstrapOption, circ: BootstrapCircui
     drv, aux = design.driver, design.aux
     s2 = su.schedule
     i_peak_su = float(su.i_start.max(initial=0.0))
-    first_live = np.flatnonzero(su.i_start > 0)
+    first_live = (su.i_start > 0).nonzero()[0]
     i_first = float(su.i_start[first_live[0]]) if first_live.size else 0.0
-    on_idx = np.flatnonzero(su.delivered)
+    on_idx = su.delivered.nonzero()[0]
     k_w = int(on_idx[0]) if on_idx.size else len(s2) - 1
     t0 = s2.t_start
     t_w = float(t0[k_w]) if on_idx.size else s2.period
@@ -1293,7 +1293,7 @@ def _startup_part(design: Design, option: BootstrapOption, circ: BootstrapCircui
     t_su, v_su = _waveform(t0, s2.period, su.v_pre, su.v_start, su.v_end[-1])
     start = Startup(t_uvlo=su.t_uvlo, cycles_uvlo=cycles, i_peak=i_peak_su, v_dd_dip=v_dd_dip, t=t_su, v=v_su)
     details = {"i_first_pulse": i_first, "startup_segments": su.segments,
-               "startup_v_max": float(np.max(su.v_start, initial=0.0)),
+               "startup_v_max": float(su.v_start.max(initial=0.0)),
                "startup_v_sw_hold": _first_hold(s2), "startup_sw_hold": s2.hold_words}
     if su.t_uvlo is None:
         warn.append(f"the rail does not reach UVLO-on ({_fmt(drv.uvlo_on, 'V')}) within the "
@@ -1322,7 +1322,7 @@ def refresh_window(design: Design, h: float) -> float:
     t_hs = h * T
     dt, v, _ = duty_slots(design, np.array([t_hs]), np.array([T - t_hs - 2 * b.dead_time]), la, lb, T)
     low = v <= max(b.v_sw_low, 0.0) + 1e-9
-    return float(np.sum(dt[low]))
+    return float(dt[low].sum())
 
 
 def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sched: Schedule, need: float,
@@ -1357,7 +1357,7 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
     topo = topology_terms(design, circ, h_need, need, v_min)
     duty = DutyLimits(min=h_min if h_need is not None else None, max=h_need, hold_up=hold,
                       t_ls_min=t_ls_min, topology=topo, hold_up_threshold=need, hold_up_to=HOLD_UP_TO)
-    op_duty = float(np.max(sched.duty))
+    op_duty = float(sched.duty.max())
     f_txt = _fmt(analysis_frequency(b), "Hz")
     if refreshed and v_min < drv.uvlo_off:
         where = (f"at HS duty above {h_uvlo:.3g}" if h_uvlo is not None else "at every HS duty")
@@ -1405,8 +1405,8 @@ def _stress_part(design: Design, option: BootstrapOption, circ: BootstrapCircuit
     if refreshed:
         turn_on = ss.loop.q_step  # charge per interval start
         q2 = np.sum(np.asarray(turn_on) ** 2) / b.t_edge
-        i_rms = math.sqrt((float(np.sum(ints["i2_c"])) + q2) / ss.schedule.period)
-        i_pk_ss = float(np.max(ints["i_d0"], initial=0.0))
+        i_rms = math.sqrt((float(ints["i2_c"].sum()) + q2) / ss.schedule.period)
+        i_pk_ss = float(ints["i_d0"].max(initial=0.0))
     else:
         i_rms, i_pk_ss = 0.0, 0.0
     i_peak_su = start.i_peak
@@ -1505,7 +1505,7 @@ def _checks_part(design: Design, option: BootstrapOption, steady: _SteadyPart, n
     if option.v_rrm is not None:
         checks.append(Check("diode_v_rrm", v_rev, option.v_rrm * design.checks.diode_derating, "max", "V",
                             "diode V_RRM covers V_bus + V_DD after derating"))
-    checks.append(startup_uvlo_check(design, float(np.max(su.v_end, initial=0.0)),
+    checks.append(startup_uvlo_check(design, float(su.v_end.max(initial=0.0)),
                                      "the rail reaches UVLO-on during start-up"))
     if design.bridge.v_undershoot > 0:  # the dead-time excursion overcharges: against both ratings
         limit = min(design.gate.v_gs_max, design.driver.v_bs_max)
@@ -1585,7 +1585,7 @@ def _is_refreshed(ss: SteadyState) -> bool:
     fixed point (the load's own, V = −I·R_GS, below 0 V), which is a decay to nothing, not a
     refreshed orbit.
     """
-    if not np.all(np.isfinite(ss.orbit.v_start)):
+    if not np.isfinite(ss.orbit.v_start).all():
         return False
     return bool(_refresh_mask(ss.loop, ss.orbit))
 
@@ -1600,7 +1600,7 @@ def _refresh_mask(loop: Loop, orb: OrbitSolution) -> np.ndarray:
     lp = _bc(loop)
     level = lp.v_src - (lp.v_f if loop.diode == "linear" else 0.0)
     low = np.minimum(orb.v_start, orb.v_end)
-    return np.any((low < level) & (lp.dt > 0), axis=-1)
+    return ((low < level) & (lp.dt > 0)).any(axis=-1)
 
 
 def hold_up_time(v_top: float, q_edge: float, v_threshold: float, *, i_load: float, g_load: float,
@@ -1624,9 +1624,9 @@ def hold_up_time(v_top: float, q_edge: float, v_threshold: float, *, i_load: flo
 
 def _first_hold(s: Schedule) -> float | None:
     """Switch-node level of the first withheld HS pulse of a start-up schedule [V] (None: no HS slot)."""
-    if s.v_hold is None or not np.any(s.hs_on):
+    if s.v_hold is None or not s.hs_on.any():
         return None
-    return float(s.v_hold[np.flatnonzero(s.hs_on)[0]])
+    return float(s.v_hold[s.hs_on.nonzero()[0][0]])
 
 
 def _ls_pulse_min(design, circ, need):
