@@ -127,10 +127,14 @@ def broadcast_loop(loop: Loop) -> Loop:
     """The loop with every array field a float array of the common shape (the loop itself where they
     already are)."""
     names = loop_fields(loop)
-    vals = [getattr(loop, k) for k in names]
     shape = loop.dt.shape if type(loop.dt) is np.ndarray else None
-    if all(type(v) is np.ndarray and v.shape == shape and v.dtype == np.float64 for v in vals):
+    for k in names:
+        v = getattr(loop, k)
+        if not (type(v) is np.ndarray and v.shape == shape and v.dtype == np.float64):
+            break
+    else:
         return loop
+    vals = [getattr(loop, k) for k in names]
     shape = np.broadcast(*vals).shape
     return Loop(**{k: full_as(v, shape) for k, v in zip(names, vals)}, diode=loop.diode)
 

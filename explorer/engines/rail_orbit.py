@@ -27,7 +27,7 @@ import numpy as np
 from .affine import affine_scan
 from .rail_junction import junction_map
 from .rail_linear import affine_maps, linear_map
-from .rail_loop import Loop, broadcast_loop, full_as, map_loop, take_loop
+from .rail_loop import Loop, broadcast_loop, full_as, loop_fields, take_loop
 
 __all__ = ["interval_map", "OrbitSolution", "solve_orbit", "steady_rail", "propagate"]
 
@@ -248,7 +248,8 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
     shape = loop.dt.shape
     n = shape[-1]
     rows = math.prod(shape[:-1])
-    flat = loop if len(shape) == 2 else map_loop(loop, lambda a: a.reshape(rows, n))
+    flat = loop if len(shape) == 2 else Loop(**{k: getattr(loop, k).reshape(rows, n) for k in loop_fields(loop)},
+                                              diode=loop.diode)
     vi = None if v_init is None else full_as(v_init, shape[:-1]).reshape(rows)
     u = np.empty((rows, n))
     v0 = np.empty((rows, n))

@@ -379,16 +379,18 @@ def steady_state(design: Design, option: BootstrapOption, corner: str = "nominal
     s = period_schedule(design)
     masks = loop_masks(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
     loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True, masks=masks)
-    orb = solve_orbit(_bc(loop))
+    lp = _bc(loop)  # the same loop broadcast, for the solver and the integrals
+    orb = solve_orbit(lp)
     if not _presumption_holds(circ, masks, orb):
         circ = dataclasses.replace(circ, v_hold=0.0)
         masks = loop_masks(circ, s.dt, s.v_sw, s.hs_on, periodic=True)
         loop = schedule_loop(circ, s.dt, s.v_sw, s.hs_on, periodic=True, masks=masks)
-        orb = solve_orbit(_bc(loop))
+        lp = _bc(loop)
+        orb = solve_orbit(lp)
     if not orb.converged:
         warnings.warn("bootstrap steady state: the orbit iteration did not converge; figures are approximate",
                       ModelValidityWarning, stacklevel=2)
-    ints = (interval_integrals(post_step(orb, loop), loop, r_ext=circ.r_ext) if np.isfinite(orb.v_start).all()
+    ints = (interval_integrals(post_step(orb, loop), lp, r_ext=circ.r_ext) if np.isfinite(orb.v_start).all()
             else {})
     return SteadyState(s, loop, orb, ints, circ, masks)
 
@@ -608,11 +610,11 @@ def _settle(s: Schedule, tail: tuple, orb_t: OrbitSolution | None, enabled: bool
     if not (orb_t is not None and (state[p_b - L:p_new] == enabled).all()
             and abs(v_b - u0) <= STARTUP_TOL * (1.0 + abs(u0))):
         return None
-    reps = -(-(n - p_b) // L)
     k = slice(p_b, n)
-    v_pre[k] = np.tile(orb_t.v_pre, reps)[:n - p_b]
-    v_start[k] = np.tile(orb_t.v_start, reps)[:n - p_b]
-    v_end[k] = np.tile(orb_t.v_end, reps)[:n - p_b]
+    rep = np.arange(n - p_b) % L  # the orbit repeated to the end
+    v_pre[k] = orb_t.v_pre[rep]
+    v_start[k] = orb_t.v_start[rep]
+    v_end[k] = orb_t.v_end[rep]
     delivered[k] = s.hs_on[k] & enabled
     state[k] = enabled
     return p_b
