@@ -128,12 +128,13 @@ def affine_maps(loop: Loop):
     v_inf = loop.v_src - loop.v_f
     able = v_inf > 0
     gg = g + g_load
-    e_on = np.exp(-(gg / c) * dt)
-    b_on = (g * v_inf - i_load) / gg * (1.0 - e_on)
-    e_off = np.exp(-(g_load / c) * dt)
+    # each interval takes one regime, so one exponential each: rate (g + G)/C in A, G/C in B
+    a = np.exp(-(np.where(able, gg, g_load) / c) * dt)
+    one_a = 1.0 - a
+    b_on = (g * v_inf - i_load) / gg * one_a
     with np.errstate(divide="ignore", invalid="ignore"):
-        b_off = np.where(g_load > 0, -i_load / g_load * (1.0 - e_off), -i_load / c * dt)
-    return np.where(able, e_on, e_off), np.where(able, b_on, b_off), able, v_inf
+        b_off = np.where(g_load > 0, -i_load / g_load * one_a, -i_load / c * dt)
+    return a, np.where(able, b_on, b_off), able, v_inf
 
 
 def clamped_map(v0, loop: Loop, free_map):
