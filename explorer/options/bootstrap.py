@@ -925,10 +925,13 @@ def duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
         # interpolation of the (smooth) minimum inside the final bracket
         idx = np.array(open_)
         g = np.linspace(lo[idx], hi[idx], 33, axis=-1)
-        # start each refined orbit from the coarse orbits on either side, interpolated in duty
-        j_hi = np.rint((hi[idx] - h_lo) / (grid[1] - grid[0])).astype(int)
-        frac = _FRAC_33[None, :, None]
-        guess = (coarse.v_start[j_hi - 1][:, None, :] * (1.0 - frac) + coarse.v_start[j_hi][:, None, :] * frac)
+        # start each refined orbit from the coarse orbits on either side, interpolated in duty (the
+        # junction's Newton iteration; the straight-line diode's orbit is solved without a start)
+        guess = None
+        if circ.diode != "linear":
+            j_hi = np.rint((hi[idx] - h_lo) / (grid[1] - grid[0])).astype(int)
+            frac = _FRAC_33[None, :, None]
+            guess = (coarse.v_start[j_hi - 1][:, None, :] * (1.0 - frac) + coarse.v_start[j_hi][:, None, :] * frac)
         m = rail_min_map(design, None, f, g, circ=circ, v_guess=guess, levels=levels)
         m = np.where(np.isfinite(m), m, -np.inf)
         okg = m >= th[idx, None]
