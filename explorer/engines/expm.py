@@ -8,10 +8,19 @@
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 
-__all__ = ["expm", "phi12", "phi1"]
+__all__ = ["expm", "phi12", "phi1", "identity"]
+
+
+@lru_cache(maxsize=32)
+def identity(n: int) -> np.ndarray:
+    """The n×n identity, read-only (kept per size: tiny matrices are built often; broadcasts over batches)."""
+    out = np.eye(n)
+    out.flags.writeable = False
+    return out
 
 
 #: Padé(13) coefficients b_0..b_13 of the scaling-and-squaring matrix exponential (Higham 2005, eq. 2.4).
@@ -42,7 +51,7 @@ def expm(a: np.ndarray) -> np.ndarray:
     s = np.maximum(0, np.ceil(np.log2(np.maximum(norm, 1e-300) / _THETA13))).astype(int)
     x = a / (2.0 ** s)[..., None, None]
     b = _PADE13
-    eye = np.broadcast_to(np.eye(n), x.shape)
+    eye = identity(n)  # broadcasts over the batch in the sums below
     x2 = x @ x
     x4 = x2 @ x2
     x6 = x4 @ x2
@@ -92,8 +101,8 @@ _SERIES_C2 = np.array([1.0 / math.factorial(k + 2) for k in range(10)])
 def phi1(x: np.ndarray) -> np.ndarray:
     """(e^x − 1)/x, 1 at x = 0 (expm1 keeps full relative accuracy for small x, so only x = 0 is special)."""
     x = np.asarray(x, dtype=float)
+    if x.all():  # no zero (the usual case): one reduction instead of a comparison and one
+        return np.expm1(x) / x
     zero = x == 0.0
-    if zero.any():
-        xs = np.where(zero, 1.0, x)
-        return np.where(zero, 1.0, np.expm1(xs) / xs)
-    return np.expm1(x) / x
+    xs = np.where(zero, 1.0, x)
+    return np.where(zero, 1.0, np.expm1(xs) / xs)
