@@ -10,10 +10,12 @@ from __future__ import annotations
 
 from dataclasses import dataclass
 
+import math
+
 import numpy as np
 
 from ..errors import DesignError
-from .expm import expm, phi1, phi12
+from .expm import expm, identity, phi1, phi12
 from .expsum import exp_sum_roots
 from .network import Network, cycle_map, solve_checked
 
@@ -238,17 +240,17 @@ def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarra
     # Van Loan's block exponential on a short step h = t/2^k (its −Fᵀ block grows as e^{|F|h},
     # so h is kept where that is harmless), then doubling: G(2h) = G(h) + E(h)·G(h)·E(h)ᵀ.
     norm = np.abs(F).sum(axis=-1).max(axis=-1)  # (P,) row-sum norm
-    k = int(max(0, np.ceil(np.log2(max(float((norm * d).max(initial=0.0)), 1e-300) / 0.25))))
-    h = d / 2.0 ** k
+    k = max(0, math.ceil(math.log2(max(float((norm * d).max(initial=0.0)), 1e-300) / 0.25)))
+    h = (d / 2.0 ** k)[..., None, None]
     H = np.zeros(d.shape + (2 * nz, 2 * nz))
-    H[..., :nz, :nz] = F * h[..., None, None]
-    H[..., :nz, nz:] = np.einsum("...i,...j->...ij", z0, z0) * h[..., None, None]
-    H[..., nz:, nz:] = -np.swapaxes(F, -1, -2) * h[..., None, None]
+    H[..., :nz, :nz] = F * h
+    H[..., :nz, nz:] = z0[..., :, None] * z0[..., None, :] * h
+    H[..., nz:, nz:] = -F.swapaxes(-1, -2) * h
     B = expm(H)
     E = B[..., :nz, :nz]
-    G = B[..., :nz, nz:] @ np.swapaxes(E, -1, -2)  # ∫_0^h e^{Fs} z zᵀ e^{Fᵀs} ds
+    G = B[..., :nz, nz:] @ E.swapaxes(-1, -2)  # ∫_0^h e^{Fs} z zᵀ e^{Fᵀs} ds
     for _ in range(k):
-        G = G + E @ G @ np.swapaxes(E, -1, -2)
+        G = G + E @ G @ E.swapaxes(-1, -2)
         E = E @ E
     return np.einsum("...pmi,...pij,...pmj->...pm", K, G, K)
 
@@ -271,22 +273,27 @@ def periodic_steady_state(net: Network, durations, u) -> PeriodicSolution:
         phase ever changes, so its steady state is undefined).
     """
     E, S, tot = cycle_map(net, durations, integrals=False)  # S only without the modal form
-    nx = net.n_x
+    nx, P = net.n_x, net.n_phases
     u = np.asarray(u, dtype=float)
     d = np.asarray(durations, dtype=float)
-    u = np.broadcast_to(u, np.broadcast_shapes(d.shape[:-1], net.batch_shape, u.shape[:-1]) + (net.n_u,))
+    batch = u.shape[:-1] if d.ndim == 1 and net.batch_shape == () else np.broadcast_shapes(
+        d.shape[:-1], net.batch_shape, u.shape[:-1])
+    if u.shape != batch + (net.n_u,):
+        u = np.broadcast_to(u, batch + (net.n_u,))
     Phi = tot[..., :nx, :nx]
     Gam = tot[..., :nx, nx:]
-    A = np.eye(nx) - Phi
+    A = identity(nx) - Phi
     if nx:
         x0 = solve_checked(A, Gam @ u[..., None], 1e12, "the cycle has no unique periodic steady state "
                             "(a capacitor's charge is never changed by any phase)")[..., 0]
     else:
         x0 = np.zeros(u.shape[:-1] + (0,))
     z = np.concatenate([x0, u], axis=-1)
-    zs = []
-    for p in range(net.n_phases):
-        zs.append(z)
-        z = np.einsum("...ij,...j->...i", E[..., p, :, :], z)
-    return PeriodicSolution(net=net, durations=np.broadcast_to(d, u.shape[:-1] + d.shape[-1:]),
-                            z0=np.stack(zs, axis=-2), E=E, S=S)
+    z0 = np.empty(z.shape[:-1] + (P, z.shape[-1]))
+    for p in range(P):
+        z0[..., p, :] = z
+        if p + 1 < P:
+            z = np.einsum("...ij,...j->...i", E[..., p, :, :], z)
+    if d.shape != batch + (P,):
+        d = np.broadcast_to(d, batch + (P,))
+    return PeriodicSolution(net=net, durations=d, z0=z0, E=E, S=S)
