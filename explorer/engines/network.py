@@ -163,7 +163,8 @@ class _Stamps:
     goes (phase, row) and which element value it is (capacitor ESRs and resistances in element
     order); ``k_rows`` (P, n_probes): each probe's row in [W; 0; I_{n_z}]; ``cap_rows`` (P, n_x):
     each capacitor's branch-current row of W; ``tail`` (P, 1 + n_z, n_z): the rows [0; I_{n_z}] below W;
-    ``ph`` (P, 1): the phase index that goes with ``k_rows`` and ``cap_rows``.
+    ``ph`` (P, 1): the phase index that goes with ``k_rows`` and ``cap_rows``; ``res_val_list``:
+    ``res_val`` as a tuple.
     """
 
     size: int
@@ -177,6 +178,7 @@ class _Stamps:
     cap_rows: np.ndarray
     tail: np.ndarray
     ph: np.ndarray
+    res_val_list: tuple
 
 
 _STAMPS: dict = {}
@@ -309,7 +311,7 @@ def _stamps(topology: tuple) -> _Stamps:
     tail[:, 1:, :] = identity(n_z)
     out = _Stamps(size=n, Y0=Y0, R0=R0, real=real, res_p=np.array(res_p, np.intp),
                   res_row=np.array(res_row, np.intp), res_val=np.array(res_val, np.intp), k_rows=k_rows,
-                  cap_rows=cap_rows, tail=tail, ph=np.arange(P)[:, None])
+                  cap_rows=cap_rows, tail=tail, ph=np.arange(P)[:, None], res_val_list=tuple(res_val))
     for a in (Y0, R0, real, k_rows, cap_rows, tail, out.ph):
         a.flags.writeable = False
     if len(_STAMPS) > 256:
@@ -508,8 +510,11 @@ class Network:
         if n:
             Y = st.Y0.copy() if bs == () else np.array(np.broadcast_to(st.Y0, bs + st.Y0.shape))
             if st.res_p.size:
-                v = _stack_values(self._values[1], bs)
-                Y[..., st.res_p, st.res_row, st.res_row] = -v[..., st.res_val]
+                rs = self._values[1]
+                if bs == ():  # plain floats: −R of each stamp without two numpy calls
+                    Y[st.res_p, st.res_row, st.res_row] = [-float(rs[i]) for i in st.res_val_list]
+                else:
+                    Y[..., st.res_p, st.res_row, st.res_row] = -_stack_values(rs, bs)[..., st.res_val]
             W = _solve_phases(Y, st.R0, st.real, 1e13, "has a loop of capacitors without ESR and voltage "
                               "sources with no resistance in it (no unique solution)")
         else:

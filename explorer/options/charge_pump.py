@@ -201,6 +201,9 @@ def pump_durations(f_cp, dead_time_cp=0.0) -> np.ndarray:
     dead_time_cp : float or array [s]
         Dead time between the phases (each of two per cycle).
     """
+    if type(f_cp) in (float, int) and type(dead_time_cp) in (float, int):  # one clock: the same arithmetic
+        half = 0.5 / f_cp - dead_time_cp
+        return np.array([half, dead_time_cp, half, dead_time_cp], dtype=float)
     f = np.asarray(f_cp, dtype=float)
     td = np.asarray(dead_time_cp, dtype=float)
     half = 0.5 / f - td
@@ -772,20 +775,20 @@ class _Load:
 def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
     """Average load and pulse charge; ``k_q``, ``k_i`` scale Q_G and I_Q per sample (as apply_factors)."""
     t_a = sched.period
-    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    on, turn_off = sched.hs_turn_on, sched.hs_turn_off
+    n_on = int(np.count_nonzero(on))
     q_g = design.gate.q_g if k_q is None else design.gate.q_g * k_q
     i_q = design.driver.i_q if k_i is None else design.driver.i_q * k_i
     q_pulse = q_g + design.driver.q_ls if k_q is not None else charge_per_turn_on(design)
     t_on = float(sched.dt[sched.hs_on].sum())
-    n_off = int(np.count_nonzero(sched.hs_turn_off))
+    n_off = int(np.count_nonzero(turn_off))
     q_off = charge_per_turn_off(design)  # the level shifter's reset pulse at each turn-off
     i0 = i_q + (n_on * q_pulse + n_off * q_off) / t_a
     r_gs = design.gate.r_gs
     g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
     # the pulses where the schedule places them: set pulse (Q_G + Q_LS) at each turn-on, reset pulse at each
     # turn-off (left out when Q_LS = 0)
-    on = sched.hs_turn_on
-    off = sched.hs_turn_off if q_off > 0 else np.zeros_like(on)
+    off = turn_off if q_off > 0 else np.zeros_like(on)
     t0 = sched.t_start
     idx = np.flatnonzero(on | off)
     if type(q_pulse) is not float:
