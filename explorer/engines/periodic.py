@@ -8,9 +8,9 @@ zeros of the probe's closed-form derivative).
 
 from __future__ import annotations
 
-from dataclasses import dataclass
-
 import math
+from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
@@ -128,11 +128,11 @@ class PeriodicSolution:
         """
         K = self._K(names)
         d = self.durations
-        s = d[..., :, None] * np.linspace(0.0, 1.0, n + 1)  # (..., P, n+1): time into each phase
+        s = d[..., :, None] * _fractions(n)  # (..., P, n+1): time into each phase
         if self.net.modes is not None:
             lam, w, gv, k, ku = self._modal_rows(K)
             modal = _modal_state(lam[..., None, :], w[..., None, :], gv[..., None, :], s[..., None])
-            y = np.moveaxis(modal @ np.swapaxes(k, -1, -2) + ku[..., None, :], -1, -3)  # (..., m, P, n+1)
+            y = (modal @ k.swapaxes(-1, -2) + ku[..., None, :]).swapaxes(-1, -2).swapaxes(-2, -3)  # (..., m, P, n+1)
         else:
             # every sample instant's exact phase map at once (not n steps of one map), the instants on a
             # leading axis so that they broadcast with the network's batch: (n+1, ..., P, nz, nz)
@@ -208,6 +208,14 @@ class PeriodicSolution:
         """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""
         zend = np.einsum("...pij,...pj->...pi", self.E, self.z0)
         return np.einsum("...pmj,...pj->...mp", self._K(names), zend)
+
+
+@lru_cache(maxsize=8)
+def _fractions(n: int) -> np.ndarray:
+    """The n+1 sample points 0, 1/n, …, 1 of a phase, read-only (kept per n: value-independent)."""
+    out = np.linspace(0.0, 1.0, n + 1)
+    out.flags.writeable = False
+    return out
 
 
 def _modal_state(lam, w, g, s):

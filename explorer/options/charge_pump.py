@@ -453,7 +453,7 @@ def pulse_schedule_extremes(t_k, q_k, c_out, r_th, t_a):
     y_min, y_max : float or array (...) [V]
     """
     if (type(q_k) is tuple and len(q_k) <= _SCALAR_PULSES and type(c_out) is float and type(r_th) is float
-            and type(t_a) is float and all(type(v) is float for v in q_k)):
+            and type(t_a) is float and all([type(v) is float for v in q_k])):
         return _pulse_schedule_scalar(t_k, q_k, c_out, r_th, t_a)
     t = np.asarray(t_k, dtype=float)
     q = np.asarray(q_k, dtype=float)
@@ -768,7 +768,7 @@ class _Load:
         turn-ons, q_off at the turn-offs."""
         q_on = self.q_pulse if q_on is None else q_on
         if type(q_on) is float:
-            return tuple(q_on if on else self.q_off for on in self.on_pulse)
+            return tuple([q_on if on else self.q_off for on in self.on_pulse])
         return np.where(np.array(self.on_pulse, dtype=bool), np.asarray(q_on, dtype=float)[..., None], self.q_off)
 
 
