@@ -343,11 +343,13 @@ def r_out_engine(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0
 
     net = pump_network(ratio, c_fly=col(c_fly), r_on=col(r_on), esr_fly=col(esr_fly), output="source")
     d = pump_durations(f_cp, dead_time_cp)
-    # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0); the durations get a
+    # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0); a batch of clocks gets a
     # unit axis that the inputs broadcast over, so the phase maps are computed once for both
-    d2 = d[..., None, :]
     u = np.array([[0.0, 1.0], [1.0, 0.0]])
-    sol = periodic_steady_state(net, d2, np.broadcast_to(u, d2.shape[:-2] + (2, 2)))
+    if d.ndim > 1:
+        d = d[..., None, :]
+        u = np.broadcast_to(u, d.shape[:-2] + (2, 2))
+    sol = periodic_steady_state(net, d, u)
     i = sol.mean(["i(v_out)"])[..., 0]  # current into the output source
     r = -1.0 / i[..., 0]
     m = i[..., 1] * r
@@ -808,8 +810,11 @@ def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
                                    dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
     net = pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
                        c_out=pump.c_out, esr_out=pump.esr_out, r_load=load.r_eq)
-    u = np.stack(np.broadcast_arrays(np.asarray(pump.v_in, dtype=float), np.asarray(load.i0, dtype=float)),
-                 axis=-1)
+    if type(pump.v_in) is float and type(load.i0) is float:
+        u = np.array([pump.v_in, load.i0])
+    else:
+        u = np.stack(np.broadcast_arrays(np.asarray(pump.v_in, dtype=float), np.asarray(load.i0, dtype=float)),
+                     axis=-1)
     return r_out, m_engine, net, periodic_steady_state(net, pump.durations, u)
 
 
