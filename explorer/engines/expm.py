@@ -8,10 +8,19 @@
 from __future__ import annotations
 
 import math
+from functools import lru_cache
 
 import numpy as np
 
-__all__ = ["expm", "phi12", "phi1"]
+__all__ = ["expm", "phi12", "phi1", "identity"]
+
+
+@lru_cache(maxsize=32)
+def identity(n: int) -> np.ndarray:
+    """The n×n identity, read-only (kept per size: tiny matrices are built often; broadcasts over batches)."""
+    out = np.eye(n)
+    out.flags.writeable = False
+    return out
 
 
 #: Padé(13) coefficients b_0..b_13 of the scaling-and-squaring matrix exponential (Higham 2005, eq. 2.4).
@@ -40,21 +49,22 @@ def expm(a: np.ndarray) -> np.ndarray:
         return a.copy()
     norm = np.abs(a).sum(axis=-2).max(axis=-1)  # 1-norm per matrix
     s = np.maximum(0, np.ceil(np.log2(np.maximum(norm, 1e-300) / _THETA13))).astype(int)
-    x = a / (2.0 ** s)[..., None, None]
+    s_max, s_min = int(s.max()), int(s.min())
+    x = a / (2.0 ** s)[..., None, None] if s_max else a  # (a / 1 is a)
     b = _PADE13
-    eye = np.broadcast_to(np.eye(n), x.shape)
+    eye = identity(n)  # broadcasts over the batch in the sums below
     x2 = x @ x
     x4 = x2 @ x2
     x6 = x4 @ x2
     u = x @ (x6 @ (b[13] * x6 + b[11] * x4 + b[9] * x2) + b[7] * x6 + b[5] * x4 + b[3] * x2 + b[1] * eye)
     v = x6 @ (b[12] * x6 + b[10] * x4 + b[8] * x2) + b[6] * x6 + b[4] * x4 + b[2] * x2 + b[0] * eye
     r = np.linalg.solve(v - u, v + u)
-    if s.ndim == 0:
-        for _ in range(int(s)):
+    if s_min == s_max:  # one number of squarings for every matrix (none, usually)
+        for _ in range(s_max):
             r = r @ r
         return r
     flat, sf = r.reshape((-1, n, n)), s.reshape(-1)
-    for k in range(int(sf.max(initial=0))):
+    for k in range(s_max):
         idx = sf > k  # square only the matrices still scaled down
         flat[idx] = flat[idx] @ flat[idx]
     return flat.reshape(r.shape)
@@ -67,22 +77,24 @@ def phi12(x: np.ndarray, second: bool = True) -> tuple[np.ndarray, np.ndarray | 
     small x, so the series is summed there, and only there; ``second=False`` skips it (None).
     """
     x = np.asarray(x, dtype=float)
-    f1 = np.asarray(phi1(x))
+    em1 = np.expm1(x)
+    f1 = np.asarray(_phi1(x, em1))
     if not second:
         return f1, None
     small = np.abs(x) < 0.1
+    if not small.any():
+        return f1, np.asarray((em1 - x) / (x * x))
     xs = np.where(small, 1.0, x)
-    f2 = np.asarray((np.expm1(xs) - xs) / (xs * xs))
-    if small.any():
-        # series Σ x^k/(k+2)!, k = 0..9, as a table of powers (running products) times the coefficients:
-        # a few numpy calls instead of twenty for Horner's rule on tiny arrays; |x| < 0.1, so the terms
-        # fall by 10× each and the sum is good to a few units in the last place
-        xv = x[small]
-        pw = np.empty((xv.size, _SERIES_C2.size))
-        pw[:, 0] = 1.0
-        pw[:, 1:] = xv[:, None]
-        np.cumprod(pw, axis=1, out=pw)
-        f2[small] = pw @ _SERIES_C2
+    f2 = np.asarray((em1 - xs) / (xs * xs))  # where small, replaced by the series below
+    # series Σ x^k/(k+2)!, k = 0..9, as a table of powers (running products) times the coefficients:
+    # a few numpy calls instead of twenty for Horner's rule on tiny arrays; |x| < 0.1, so the terms
+    # fall by 10× each and the sum is good to a few units in the last place
+    xv = x[small]
+    pw = np.empty((xv.size, _SERIES_C2.size))
+    pw[:, 0] = 1.0
+    pw[:, 1:] = xv[:, None]
+    np.cumprod(pw, axis=1, out=pw)
+    f2[small] = pw @ _SERIES_C2
     return f1, f2
 
 
@@ -92,8 +104,12 @@ _SERIES_C2 = np.array([1.0 / math.factorial(k + 2) for k in range(10)])
 def phi1(x: np.ndarray) -> np.ndarray:
     """(e^x − 1)/x, 1 at x = 0 (expm1 keeps full relative accuracy for small x, so only x = 0 is special)."""
     x = np.asarray(x, dtype=float)
+    return _phi1(x, np.expm1(x))
+
+
+def _phi1(x: np.ndarray, em1: np.ndarray) -> np.ndarray:
+    """:func:`phi1` from x and expm1(x) (:func:`phi12` needs expm1(x) for both)."""
+    if x.all():  # no zero (the usual case): one reduction instead of a comparison and one
+        return em1 / x
     zero = x == 0.0
-    if zero.any():
-        xs = np.where(zero, 1.0, x)
-        return np.where(zero, 1.0, np.expm1(xs) / xs)
-    return np.expm1(x) / x
+    return np.where(zero, 1.0, em1 / np.where(zero, 1.0, x))

@@ -66,13 +66,13 @@ capacitors without ESR and voltage sources with no resistance, has no solut
 from __future__ import annotations
 
 from dataclasses import dataclass
-from functools import cached_property
+from functools import cached_property, lru_cache
 
 import numpy as np
 
 from ..errors import DesignError
 from .elements import Cap, GROUND, ISrc, Res, VSrc
-from .expm import expm, phi12
+from .expm import expm, identity, phi12
 
 __all__ = ["PhaseSystem", "solve_checked", "Network", "cycle_map"]
 
@@ -94,7 +94,7 @@ def solve_checked(A: np.ndarray, B: np.ndarray, cond_max: float, problem: str) -
     except np.linalg.LinAlgError:
         raise DesignError("network", problem) from None
     cond = np.abs(A).sum(axis=-2).max(axis=-1) * np.abs(inv).sum(axis=-2).max(axis=-1)
-    if not np.all(cond <= cond_max):
+    if not (cond <= cond_max).all():
         raise DesignError("network", problem)
     return inv @ B
 
@@ -109,11 +109,10 @@ def _modal_maps(modes, nx: int, nu: int, d: np.ndarray, integrals: bool = True):
     x = lam * t  # (..., P, nx)
     e = np.exp(x)
     nz = nx + nu
-    shape = np.broadcast_shapes(lam.shape[:-1], d.shape)
-    iu = np.arange(nx, nz)
-    E = np.zeros(shape + (nz, nz))
+    shape = x.shape[:-1]  # lam's batch and phases broadcast with d's
+    E = np.empty(shape + (nz, nz))
+    E[...] = _input_rows(nx, nu)  # the inputs' rows [0, I]; the states' rows follow
     E[..., :nx, :nx] = (V * e[..., None, :]) @ Vinv
-    E[..., iu, iu] = 1.0
     f1, f2 = phi12(x, second=integrals)
     if not integrals:
         E[..., :nx, nx:] = (V * (f1 * t)[..., None, :]) @ VN
@@ -124,8 +123,19 @@ def _modal_maps(modes, nx: int, nu: int, d: np.ndarray, integrals: bool = True):
     S = np.zeros(shape + (nz, nz))
     S[..., :nx, :nx] = (V * p1[..., None, :]) @ Vinv
     S[..., :nx, nx:] = (V * p2[..., None, :]) @ VN
+    iu = np.arange(nx, nz)
     S[..., iu, iu] = d[..., None]
     return E, S
+
+
+@lru_cache(maxsize=32)
+def _input_rows(nx: int, nu: int) -> np.ndarray:
+    """The (n_z, n_z) matrix whose last n_u rows are [0, I_{n_u}] (the inputs are constant within a phase),
+    zeros above; read-only (value-independent structure, kept per size)."""
+    out = np.zeros((nx + nu, nx + nu))
+    out[nx:, nx:] = identity(nu)
+    out.flags.writeable = False
+    return out
 
 
 def _all_above(x, lo: float, strict: bool) -> bool:
@@ -152,7 +162,9 @@ class _Stamps:
     phase's own unknowns); ``res_p``, ``res_row``, ``res_val``: where each branch resistance
     goes (phase, row) and which element value it is (capacitor ESRs and resistances in element
     order); ``k_rows`` (P, n_probes): each probe's row in [W; 0; I_{n_z}]; ``cap_rows`` (P, n_x):
-    each capacitor's branch-current row of W.
+    each capacitor's branch-current row of W; ``tail`` (P, 1 + n_z, n_z): the rows [0; I_{n_z}] below W;
+    ``ph`` (P, 1): the phase index that goes with ``k_rows`` and ``cap_rows``; ``res_val_list``:
+    ``res_val`` as a tuple.
     """
 
     size: int
@@ -164,6 +176,9 @@ class _Stamps:
     res_val: np.ndarray
     k_rows: np.ndarray
     cap_rows: np.ndarray
+    tail: np.ndarray
+    ph: np.ndarray
+    res_val_list: tuple
 
 
 _STAMPS: dict = {}
@@ -292,10 +307,12 @@ def _stamps(topology: tuple) -> _Stamps:
                 k_rows[p, nn + i] = unit0 + nx + inp[inp_name]
         for k in range(nx):
             k_rows[p, nn + len(els) + k] = unit0 + k
+    tail = np.zeros((P, 1 + n_z, n_z))
+    tail[:, 1:, :] = identity(n_z)
     out = _Stamps(size=n, Y0=Y0, R0=R0, real=real, res_p=np.array(res_p, np.intp),
                   res_row=np.array(res_row, np.intp), res_val=np.array(res_val, np.intp), k_rows=k_rows,
-                  cap_rows=cap_rows)
-    for a in (Y0, R0, real, k_rows, cap_rows):
+                  cap_rows=cap_rows, tail=tail, ph=np.arange(P)[:, None], res_val_list=tuple(res_val))
+    for a in (Y0, R0, real, k_rows, cap_rows, tail, out.ph):
         a.flags.writeable = False
     if len(_STAMPS) > 256:
         _STAMPS.clear()
@@ -315,13 +332,11 @@ def _solve_phases(Y: np.ndarray, R: np.ndarray, real: np.ndarray, cond_max: floa
         inv = np.linalg.inv(Y)
     except np.linalg.LinAlgError:
         inv = None
-    if inv is not None:
-        m = real[:, None, :]  # (P, 1, n): sum over rows, keep the phase's own columns
-        cond = (np.where(m, np.abs(Y).sum(axis=-2)[..., None, :], 0.0).max(axis=-1)
-                * np.where(m, np.abs(inv).sum(axis=-2)[..., None, :], 0.0).max(axis=-1))[..., 0]  # (..., P)
-        bad = ~(cond <= cond_max)
-    if inv is not None and not bad.any():
-        return inv @ R
+    if inv is not None:  # column sums over the rows, the phase's own columns only: (..., P)
+        cond = (np.where(real, np.abs(Y).sum(axis=-2), 0.0).max(axis=-1)
+                * np.where(real, np.abs(inv).sum(axis=-2), 0.0).max(axis=-1))
+        if (cond <= cond_max).all():
+            return inv @ R
     # some phase is singular or ill-conditioned (or only its padded form is, by rounding): phase by phase
     W = np.zeros(np.broadcast_shapes(Y.shape[:-2], R.shape[:-2]) + R.shape[-2:])
     for p in range(Y.shape[-3]):
@@ -370,11 +385,13 @@ class Network:
         for e in self.elements:
             if e.a == e.b:
                 raise DesignError(f"network.{e.name}", "both terminals on the same node", e.a)
-            if isinstance(e, Cap) and not (_all_above(e.c, 0.0, True) and _all_above(e.esr, 0.0, False)):
-                raise DesignError(f"network.{e.name}", "expected c > 0 F and esr \u2265 0 \u03a9", (e.c, e.esr))
-            if isinstance(e, Res) and not _all_above(e.r, 0.0, True):
-                raise DesignError(f"network.{e.name}", "expected r > 0 \u03a9", e.r)
-            if isinstance(e, (VSrc, ISrc)) and e.input not in self.inputs:
+            if isinstance(e, Cap):
+                if not (_all_above(e.c, 0.0, True) and _all_above(e.esr, 0.0, False)):
+                    raise DesignError(f"network.{e.name}", "expected c > 0 F and esr \u2265 0 \u03a9", (e.c, e.esr))
+            elif isinstance(e, Res):
+                if not _all_above(e.r, 0.0, True):
+                    raise DesignError(f"network.{e.name}", "expected r > 0 \u03a9", e.r)
+            elif isinstance(e, (VSrc, ISrc)) and e.input not in self.inputs:
                 raise DesignError(f"network.{e.name}", f"input not declared; inputs: {self.inputs}", e.input)
 
     # ------------------------------------------------------------------ structure
@@ -420,15 +437,24 @@ class Network:
         F, K = self._FK
         return tuple(PhaseSystem(F=F[..., p, :, :], K=K[..., p, :, :]) for p in range(self.n_phases))
 
-    def _shape_of(self, resistive_only: bool) -> tuple:
-        vals = []
+    @cached_property
+    def _values(self) -> tuple[list, list, bool]:
+        """The element values in one pass: (capacitances in state order, branch resistances (capacitor
+        ESRs and resistances in element order), whether all of them are plain numbers)."""
+        cs, rs = [], []
         for e in self.elements:
             if isinstance(e, Cap):
-                vals += [e.esr] if resistive_only else [e.c, e.esr]
+                cs.append(e.c)
+                rs.append(e.esr)
             elif isinstance(e, Res):
-                vals.append(e.r)
-        if all(type(v) in (float, int) for v in vals):
+                rs.append(e.r)
+        return cs, rs, all([type(v) in (float, int) for v in cs + rs])
+
+    def _shape_of(self, resistive_only: bool) -> tuple:
+        cs, rs, plain = self._values
+        if plain:
             return ()
+        vals = rs if resistive_only else cs + rs
         try:
             return np.broadcast_shapes(*(np.shape(v) for v in vals))
         except ValueError:
@@ -482,35 +508,35 @@ class Network:
         nx, nz, P, n = self.n_x, self.n_x + self.n_u, self.n_phases, st.size
         bs = self._g_shape
         if n:
-            Y = np.array(np.broadcast_to(st.Y0, bs + st.Y0.shape))
+            Y = st.Y0.copy() if bs == () else np.array(np.broadcast_to(st.Y0, bs + st.Y0.shape))
             if st.res_p.size:
-                v = _stack_values([e.esr if isinstance(e, Cap) else e.r for e in self.elements
-                                   if isinstance(e, (Cap, Res))], bs)
-                Y[..., st.res_p, st.res_row, st.res_row] = -v[..., st.res_val]
+                rs = self._values[1]
+                if bs == ():  # plain floats: −R of each stamp without two numpy calls
+                    Y[st.res_p, st.res_row, st.res_row] = [-float(rs[i]) for i in st.res_val_list]
+                else:
+                    Y[..., st.res_p, st.res_row, st.res_row] = -_stack_values(rs, bs)[..., st.res_val]
             W = _solve_phases(Y, st.R0, st.real, 1e13, "has a loop of capacitors without ESR and voltage "
                               "sources with no resistance in it (no unique solution)")
         else:
             W = np.zeros(bs + (P, 0, nz))
-        ext = np.concatenate([W, np.zeros(bs + (P, 1, nz)), np.broadcast_to(np.eye(nz), bs + (P, nz, nz))],
-                             axis=-2)
-        ph = np.arange(P)[:, None]
-        K = ext[..., ph, st.k_rows, :]  # (*g, P, n_probes, n_z)
+        ext = np.concatenate([W, st.tail if bs == () else np.broadcast_to(st.tail, bs + st.tail.shape)], axis=-2)
+        K = ext[..., st.ph, st.k_rows, :]  # (*g, P, n_probes, n_z)
         F = np.zeros(self.batch_shape + (P, nz, nz))
         if nx:
-            icap = W[..., ph, st.cap_rows, :]  # (*g, P, nx, n_z)
+            icap = W[..., st.ph, st.cap_rows, :]  # (*g, P, nx, n_z)
             F[..., :nx, :] = icap / self._c[..., None, :, None]
         return F, K
 
     @cached_property
     def _c(self) -> np.ndarray:
         """Capacitances in state order, shape (*batch, n_x) [F]."""
-        return _stack_values([e.c for e in self.caps], self.batch_shape)
+        return _stack_values(self._values[0], self.batch_shape)
 
     @cached_property
     def _topology(self) -> tuple:
         """The network without its element values: what the nodal analysis's structure depends on."""
-        els = tuple((type(e).__name__, e.name, e.a, e.b, getattr(e, "closed", None), getattr(e, "input", None))
-                    for e in self.elements)
+        els = tuple([(type(e).__name__, e.name, e.a, e.b, getattr(e, "closed", None), getattr(e, "input", None))
+                     for e in self.elements])
         return els, self.inputs, self.n_phases
 
     # ------------------------------------------------------------------ maps
@@ -541,7 +567,7 @@ class Network:
         d = np.asarray(durations, dtype=float)
         if d.shape[-1:] != (self.n_phases,):
             raise DesignError("durations", f"expected {self.n_phases} phase durations", d.shape)
-        if np.any(d < 0) or not np.all(np.isfinite(d)):
+        if not ((d >= 0.0).all() and np.isfinite(d).all()):
             raise DesignError("durations", "phase durations must be finite and \u2265 0 s")
         if method not in ("auto", "modal", "expm"):
             raise DesignError("method", "expected 'auto', 'modal' or 'expm'", method)
@@ -580,12 +606,13 @@ class Network:
         c = self._c[..., None, :] if nx else np.ones(self.batch_shape + (1, 0))
         sq = np.sqrt(c)  # (*batch, 1, nx)
         Ms = sq[..., :, None] * M / sq[..., None, :]
-        asym = np.abs(Ms - np.swapaxes(Ms, -1, -2)).max(initial=0.0)
+        Mt = Ms.swapaxes(-1, -2)
+        asym = np.abs(Ms - Mt).max(initial=0.0)
         if asym > 1e-9 * max(np.abs(Ms).max(initial=0.0), 1e-300):
             return None
-        lam, Q = np.linalg.eigh(0.5 * (Ms + np.swapaxes(Ms, -1, -2)))
+        lam, Q = np.linalg.eigh(0.5 * (Ms + Mt))
         V = Q / sq[..., :, None]
-        Vinv = np.swapaxes(Q, -1, -2) * sq[..., None, :]
+        Vinv = Q.swapaxes(-1, -2) * sq[..., None, :]
         return lam, V, Vinv, Vinv @ N
 
     def propagate(self, x0, u, durations):

@@ -8,12 +8,14 @@ zeros of the probe's closed-form derivative).
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
+from functools import lru_cache
 
 import numpy as np
 
 from ..errors import DesignError
-from .expm import expm, phi1, phi12
+from .expm import expm, identity, phi1, phi12
 from .expsum import exp_sum_roots
 from .network import Network, cycle_map, solve_checked
 
@@ -120,18 +122,25 @@ class PeriodicSolution:
     def samples(self, names, n: int = 32):
         """Waveforms sampled at n+1 points per phase (both ends included).
 
-        Returns (t, y) with t shape (..., P·(n+1)) [s] and y shape (..., m, P·(n+1)).
+        Returns (t, y) with t shape (..., P·(n+1)) [s] and y shape (..., m, P·(n+1)). With the
+        modal form every instant is the closed form of :meth:`phase_extrema` (its modal state at
+        that instant times the probe's modal row); without it, each instant's phase map.
         """
         K = self._K(names)
         d = self.durations
-        frac = np.linspace(0.0, 1.0, n + 1).reshape((n + 1,) + (1,) * d.ndim)
-        # every sample instant's exact phase map at once (not n steps of one map), the instants on a
-        # leading axis so that they broadcast with the network's batch: (n+1, ..., P, nz, nz)
-        Es, _ = self.net.phase_maps(frac * d, integrals=False)
-        Z = np.moveaxis((Es @ self.z0[..., None])[..., 0], 0, -2)  # (..., P, n+1, nz)
-        y = np.swapaxes(K @ np.swapaxes(Z, -1, -2), -2, -3)  # (..., m, P, n+1)
+        s = d[..., :, None] * _fractions(n)  # (..., P, n+1): time into each phase
+        if self.net.modes is not None:
+            lam, w, gv, k, ku = self._modal_rows(K)
+            modal = _modal_state(lam[..., None, :], w[..., None, :], gv[..., None, :], s[..., None])
+            y = (modal @ k.swapaxes(-1, -2) + ku[..., None, :]).swapaxes(-1, -2).swapaxes(-2, -3)  # (..., m, P, n+1)
+        else:
+            # every sample instant's exact phase map at once (not n steps of one map), the instants on a
+            # leading axis so that they broadcast with the network's batch: (n+1, ..., P, nz, nz)
+            Es, _ = self.net.phase_maps(np.moveaxis(s, -1, 0), integrals=False)
+            Z = np.moveaxis((Es @ self.z0[..., None])[..., 0], 0, -2)  # (..., P, n+1, nz)
+            y = np.swapaxes(K @ np.swapaxes(Z, -1, -2), -2, -3)  # (..., m, P, n+1)
         t0 = np.concatenate([np.zeros(d.shape[:-1] + (1,)), np.cumsum(d, axis=-1)[..., :-1]], axis=-1)
-        t = t0[..., :, None] + d[..., :, None] * np.linspace(0.0, 1.0, n + 1)
+        t = t0[..., :, None] + s
         sh = y.shape[:-2] + (-1,)
         return t.reshape(t.shape[:-2] + (-1,)), y.reshape(sh)
 
@@ -158,40 +167,62 @@ class PeriodicSolution:
 
         The method of :meth:`extrema`, before the phases are combined.
         """
-        net = self.net
-        modes = net.modes
-        if modes is None:
+        if self.net.modes is None:
             raise DesignError("network", "exact extrema need the modal form of a reciprocal RC network")
-        lam, V, Vinv, VN = modes
-        nx = net.n_x
-        K = self._K(names)
+        lam, w, gv, k, ku = self._modal_rows(self._K(names))
+        b = k * (lam * w + gv)[..., None, :]
+        d = self.durations
+        roots = exp_sum_roots(b, lam[..., None, :], d[..., None])
+        # the phase's two ends do not depend on the probe: their modal states once per phase
+        end = _modal_state(lam, w, gv, d[..., None])
+        y0 = (k @ w[..., None])[..., 0] + ku
+        y1 = (k @ end[..., None])[..., 0] + ku
+        lo, hi = np.minimum(y0, y1), np.maximum(y0, y1)
+        if roots.shape[-1]:
+            t = np.where(np.isnan(roots), 0.0, roots)  # an absent root repeats the phase start
+            modal = _modal_state(lam[..., None, None, :], w[..., None, None, :], gv[..., None, None, :],
+                                 t[..., None])  # (..., P, m, c, nx)
+            y = (modal @ k[..., None])[..., 0] + ku[..., None]
+            lo, hi = np.minimum(lo, y.min(axis=-1)), np.maximum(hi, y.max(axis=-1))
+        return lo, hi
+
+    def _modal_rows(self, K):
+        """The phases in the modes of :attr:`Network.modes`, for the probe rows K (..., P, m, n_z).
+
+        Returns (λ, w, g, k, k_u): λ (..., P, n_x); the modal state w = V⁻¹·x(0) at each phase
+        start and its drive g = V⁻¹·N·u, (..., P, n_x); the probes' modal rows k = K_x·V
+        (..., P, m, n_x) and input parts k_u = K_u·u (..., P, m); a probe s into phase p is
+        k·ŵ(s) + k_u with ŵ(s) from :func:`_modal_state`.
+        """
+        lam, V, Vinv, VN = self.net.modes
+        nx = self.net.n_x
         x0 = self.z0[..., :nx]
         u = self.z0[..., 0, None, nx:, None]  # (..., 1, n_u, 1): matrix products below, not einsum
         w = (Vinv @ x0[..., None])[..., 0]  # (..., P, nx)
         gv = (VN @ u)[..., 0]
         k = K[..., :nx] @ V  # (..., P, m, nx)
         ku = (K[..., nx:] @ u)[..., 0]  # (..., P, m)
-        b = k * (lam * w + gv)[..., None, :]
-        d = self.durations
-        roots = exp_sum_roots(b, lam[..., None, :], d[..., None])
-        # the phase's two ends do not depend on the probe: their modal states once per phase
-        xd = lam * d[..., None]  # (..., P, nx)
-        end = np.exp(xd) * w + phi1(xd) * d[..., None] * gv
-        y0 = (k @ w[..., None])[..., 0] + ku
-        y1 = (k @ end[..., None])[..., 0] + ku
-        lo, hi = np.minimum(y0, y1), np.maximum(y0, y1)
-        if roots.shape[-1]:
-            t = np.where(np.isnan(roots), 0.0, roots)  # an absent root repeats the phase start
-            x = lam[..., None, None, :] * t[..., None]  # (..., P, m, c, nx)
-            modal = np.exp(x) * w[..., None, None, :] + phi1(x) * t[..., None] * gv[..., None, None, :]
-            y = (modal @ k[..., None])[..., 0] + ku[..., None]
-            lo, hi = np.minimum(lo, y.min(axis=-1)), np.maximum(hi, y.max(axis=-1))
-        return lo, hi
+        return lam, w, gv, k, ku
 
     def at_phase_ends(self, names) -> np.ndarray:
         """Each probe at the end of each phase (just before the switching), shape (..., m, P)."""
         zend = np.einsum("...pij,...pj->...pi", self.E, self.z0)
         return np.einsum("...pmj,...pj->...mp", self._K(names), zend)
+
+
+@lru_cache(maxsize=8)
+def _fractions(n: int) -> np.ndarray:
+    """The n+1 sample points 0, 1/n, …, 1 of a phase, read-only (kept per n: value-independent)."""
+    out = np.linspace(0.0, 1.0, n + 1)
+    out.flags.writeable = False
+    return out
+
+
+def _modal_state(lam, w, g, s):
+    """The modal state ŵ(s) = e^{Λs}·w + φ₁(Λs)·s·g a time s into a phase (all arguments broadcast;
+    dŵ/dt = Λ·ŵ + g, ŵ(0) = w)."""
+    x = lam * s
+    return np.exp(x) * w + phi1(x) * s * g
 
 
 def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarray:
@@ -217,17 +248,17 @@ def phase_square_integrals(net: Network, durations, z_start, names) -> np.ndarra
     # Van Loan's block exponential on a short step h = t/2^k (its −Fᵀ block grows as e^{|F|h},
     # so h is kept where that is harmless), then doubling: G(2h) = G(h) + E(h)·G(h)·E(h)ᵀ.
     norm = np.abs(F).sum(axis=-1).max(axis=-1)  # (P,) row-sum norm
-    k = int(max(0, np.ceil(np.log2(max(float((norm * d).max(initial=0.0)), 1e-300) / 0.25))))
-    h = d / 2.0 ** k
+    k = max(0, math.ceil(math.log2(max(float((norm * d).max(initial=0.0)), 1e-300) / 0.25)))
+    h = (d / 2.0 ** k)[..., None, None]
     H = np.zeros(d.shape + (2 * nz, 2 * nz))
-    H[..., :nz, :nz] = F * h[..., None, None]
-    H[..., :nz, nz:] = np.einsum("...i,...j->...ij", z0, z0) * h[..., None, None]
-    H[..., nz:, nz:] = -np.swapaxes(F, -1, -2) * h[..., None, None]
+    H[..., :nz, :nz] = F * h
+    H[..., :nz, nz:] = z0[..., :, None] * z0[..., None, :] * h
+    H[..., nz:, nz:] = -F.swapaxes(-1, -2) * h
     B = expm(H)
     E = B[..., :nz, :nz]
-    G = B[..., :nz, nz:] @ np.swapaxes(E, -1, -2)  # ∫_0^h e^{Fs} z zᵀ e^{Fᵀs} ds
+    G = B[..., :nz, nz:] @ E.swapaxes(-1, -2)  # ∫_0^h e^{Fs} z zᵀ e^{Fᵀs} ds
     for _ in range(k):
-        G = G + E @ G @ np.swapaxes(E, -1, -2)
+        G = G + E @ G @ E.swapaxes(-1, -2)
         E = E @ E
     return np.einsum("...pmi,...pij,...pmj->...pm", K, G, K)
 
@@ -250,22 +281,27 @@ def periodic_steady_state(net: Network, durations, u) -> PeriodicSolution:
         phase ever changes, so its steady state is undefined).
     """
     E, S, tot = cycle_map(net, durations, integrals=False)  # S only without the modal form
-    nx = net.n_x
+    nx, P = net.n_x, net.n_phases
     u = np.asarray(u, dtype=float)
     d = np.asarray(durations, dtype=float)
-    u = np.broadcast_to(u, np.broadcast_shapes(d.shape[:-1], net.batch_shape, u.shape[:-1]) + (net.n_u,))
+    batch = u.shape[:-1] if d.ndim == 1 and net.batch_shape == () else np.broadcast_shapes(
+        d.shape[:-1], net.batch_shape, u.shape[:-1])
+    if u.shape != batch + (net.n_u,):
+        u = np.broadcast_to(u, batch + (net.n_u,))
     Phi = tot[..., :nx, :nx]
     Gam = tot[..., :nx, nx:]
-    A = np.eye(nx) - Phi
+    A = identity(nx) - Phi
     if nx:
         x0 = solve_checked(A, Gam @ u[..., None], 1e12, "the cycle has no unique periodic steady state "
                             "(a capacitor's charge is never changed by any phase)")[..., 0]
     else:
         x0 = np.zeros(u.shape[:-1] + (0,))
     z = np.concatenate([x0, u], axis=-1)
-    zs = []
-    for p in range(net.n_phases):
-        zs.append(z)
-        z = np.einsum("...ij,...j->...i", E[..., p, :, :], z)
-    return PeriodicSolution(net=net, durations=np.broadcast_to(d, u.shape[:-1] + d.shape[-1:]),
-                            z0=np.stack(zs, axis=-2), E=E, S=S)
+    z0 = np.empty(z.shape[:-1] + (P, z.shape[-1]))
+    for p in range(P):
+        z0[..., p, :] = z
+        if p + 1 < P:
+            z = np.einsum("...ij,...j->...i", E[..., p, :, :], z)
+    if d.shape != batch + (P,):
+        d = np.broadcast_to(d, batch + (P,))
+    return PeriodicSolution(net=net, durations=d, z0=z0, E=E, S=S)

@@ -201,6 +201,9 @@ def pump_durations(f_cp, dead_time_cp=0.0) -> np.ndarray:
     dead_time_cp : float or array [s]
         Dead time between the phases (each of two per cycle).
     """
+    if type(f_cp) in (float, int) and type(dead_time_cp) in (float, int):  # one clock: the same arithmetic
+        half = 0.5 / f_cp - dead_time_cp
+        return np.array([half, dead_time_cp, half, dead_time_cp], dtype=float)
     f = np.asarray(f_cp, dtype=float)
     td = np.asarray(dead_time_cp, dtype=float)
     half = 0.5 / f - td
@@ -340,11 +343,13 @@ def r_out_engine(f_cp, c_fly, r_on, *, ratio: str, dead_time_cp=0.0, esr_fly=0.0
 
     net = pump_network(ratio, c_fly=col(c_fly), r_on=col(r_on), esr_fly=col(esr_fly), output="source")
     d = pump_durations(f_cp, dead_time_cp)
-    # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0); the durations get a
+    # two input columns at once: v_out = 1 (v_in = 0) and v_in = 1 (v_out = 0); a batch of clocks gets a
     # unit axis that the inputs broadcast over, so the phase maps are computed once for both
-    d2 = d[..., None, :]
     u = np.array([[0.0, 1.0], [1.0, 0.0]])
-    sol = periodic_steady_state(net, d2, np.broadcast_to(u, d2.shape[:-2] + (2, 2)))
+    if d.ndim > 1:
+        d = d[..., None, :]
+        u = np.broadcast_to(u, d.shape[:-2] + (2, 2))
+    sol = periodic_steady_state(net, d, u)
     i = sol.mean(["i(v_out)"])[..., 0]  # current into the output source
     r = -1.0 / i[..., 0]
     m = i[..., 1] * r
@@ -450,7 +455,7 @@ def pulse_schedule_extremes(t_k, q_k, c_out, r_th, t_a):
     y_min, y_max : float or array (...) [V]
     """
     if (type(q_k) is tuple and len(q_k) <= _SCALAR_PULSES and type(c_out) is float and type(r_th) is float
-            and type(t_a) is float and all(type(v) is float for v in q_k)):
+            and type(t_a) is float and all([type(v) is float for v in q_k])):
         return _pulse_schedule_scalar(t_k, q_k, c_out, r_th, t_a)
     t = np.asarray(t_k, dtype=float)
     q = np.asarray(q_k, dtype=float)
@@ -557,7 +562,7 @@ def longest_on_time(schedule) -> float:
 
 
 def pump_validity(design: Design, option: ChargePumpOption, *, tau_loop: float, r_th: float, c_out: float,
-                  v_mean: float, ripple: float, schedule=None) -> list[str]:
+                  v_mean: float, ripple: float, schedule=None, sag: float | None = None) -> list[str]:
     """Plain-words reasons why a pump design leaves the range the model assumes (empty: none).
 
     The model (module notes) rests on these assumptions; each check flags where one stops holding:
@@ -608,6 +613,8 @@ def pump_validity(design: Design, option: ChargePumpOption, *, tau_loop: float, 
         Rail ripple the model reports (maximum − minimum).
     schedule : explorer.schedule.Schedule, optional
         The design's period schedule (computed if not given).
+    sag : float, optional [V]
+        :func:`pull_down_sag` of these values, when already at hand (computed if not given).
 
     Returns
     -------
@@ -652,7 +659,8 @@ def pump_validity(design: Design, option: ChargePumpOption, *, tau_loop: float, 
                        f"recovery from each gate-charge pulse evenly, which needs at least {PULSE_CYCLES_MIN:g}; "
                        "the rail minimum can be lower than shown by a sizable part of the pulse dip "
                        f"Q/C_out = {f(q_pulse / c_out, 'V')}")
-    sag = pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=c_out)
+    if sag is None:
+        sag = pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=c_out)
     if sag > RGS_RIPPLE_SHARE * ripple:
         out.append(f"the gate pull-down R_GS draws V/R_GS = {f(v_mean / design.gate.r_gs, 'A')} only while the "
                    f"high side is on, which the model averages over the period: over the longest on-time "
@@ -762,27 +770,27 @@ class _Load:
         turn-ons, q_off at the turn-offs."""
         q_on = self.q_pulse if q_on is None else q_on
         if type(q_on) is float:
-            return tuple(q_on if on else self.q_off for on in self.on_pulse)
+            return tuple([q_on if on else self.q_off for on in self.on_pulse])
         return np.where(np.array(self.on_pulse, dtype=bool), np.asarray(q_on, dtype=float)[..., None], self.q_off)
 
 
 def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
     """Average load and pulse charge; ``k_q``, ``k_i`` scale Q_G and I_Q per sample (as apply_factors)."""
     t_a = sched.period
-    n_on = int(np.count_nonzero(sched.hs_turn_on))
+    on, turn_off = sched.hs_turn_on, sched.hs_turn_off
+    n_on = int(np.count_nonzero(on))
     q_g = design.gate.q_g if k_q is None else design.gate.q_g * k_q
     i_q = design.driver.i_q if k_i is None else design.driver.i_q * k_i
     q_pulse = q_g + design.driver.q_ls if k_q is not None else charge_per_turn_on(design)
     t_on = float(sched.dt[sched.hs_on].sum())
-    n_off = int(np.count_nonzero(sched.hs_turn_off))
+    n_off = int(np.count_nonzero(turn_off))
     q_off = charge_per_turn_off(design)  # the level shifter's reset pulse at each turn-off
     i0 = i_q + (n_on * q_pulse + n_off * q_off) / t_a
     r_gs = design.gate.r_gs
     g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
     # the pulses where the schedule places them: set pulse (Q_G + Q_LS) at each turn-on, reset pulse at each
     # turn-off (left out when Q_LS = 0)
-    on = sched.hs_turn_on
-    off = sched.hs_turn_off if q_off > 0 else np.zeros_like(on)
+    off = turn_off if q_off > 0 else np.zeros_like(on)
     t0 = sched.t_start
     idx = np.flatnonzero(on | off)
     if type(q_pulse) is not float:
@@ -802,8 +810,11 @@ def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
                                    dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
     net = pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
                        c_out=pump.c_out, esr_out=pump.esr_out, r_load=load.r_eq)
-    u = np.stack(np.broadcast_arrays(np.asarray(pump.v_in, dtype=float), np.asarray(load.i0, dtype=float)),
-                 axis=-1)
+    if type(pump.v_in) is float and type(load.i0) is float:
+        u = np.array([pump.v_in, load.i0])
+    else:
+        u = np.stack(np.broadcast_arrays(np.asarray(pump.v_in, dtype=float), np.asarray(load.i0, dtype=float)),
+                     axis=-1)
     return r_out, m_engine, net, periodic_steady_state(net, pump.durations, u)
 
 
@@ -1017,26 +1028,28 @@ def _ratio_warnings(design: Design, pump: _Pump, collapsed: bool) -> list:
 
 
 def _validity(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load, ss: _PumpSteady, sched,
-              ripple: float) -> tuple[list, float, float]:
+              ripple: float) -> tuple[list, float, float, float]:
     """Where the model's assumptions stop holding (:func:`pump_validity`), each warned once per evaluation.
 
-    Returns (messages, slowest loop time constant τ_loop [s], Thévenin resistance of the rail [Ω]).
+    Returns (messages, slowest loop time constant τ_loop [s], Thévenin resistance of the rail [Ω],
+    :func:`pull_down_sag` [V]).
     """
     lam = ss.net.modes[0] if ss.net.modes is not None else np.zeros(1)
     rate = float(np.max(-lam, initial=0.0))
     tau_loop = 1.0 / rate if rate > 0.0 else math.inf
     r_out, r_eq = ss.r_out, load.r_eq
     r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
+    sag = pull_down_sag(design, sched, v_mean=ss.v_mean, r_th=r_th, c_out=pump.c_out)
     msgs = pump_validity(design, option, tau_loop=tau_loop, r_th=r_th, c_out=pump.c_out, v_mean=ss.v_mean,
-                         ripple=ripple, schedule=sched)
+                         ripple=ripple, schedule=sched, sag=sag)
     for msg in msgs:
         warnings.warn(f"{option.label}: {msg}", ModelValidityWarning, stacklevel=3)
-    return list(msgs), tau_loop, r_th
+    return list(msgs), tau_loop, r_th, sag
 
 
 def _details(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load, sched, ss: _PumpSteady,
              power: _PumpPower, rail: dict, st: dict, lim: dict, v_block: float, tau_loop: float,
-             r_th: float) -> ChargePumpDetails:
+             sag: float) -> ChargePumpDetails:
     """The pump's own figures (:class:`~explorer.options.details.ChargePumpDetails`)."""
     circ, v_in = pump.circ, pump.v_in
     i0, g_load, v_mean = load.i0, load.g_load, ss.v_mean
@@ -1060,7 +1073,7 @@ def _details(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load,
         switch_i_rms=tuple(float(v) for v in ss.i_sw_rms), switch_i_peak=tuple(float(v) for v in ss.i_peak_ss[:4]),
         startup_i_peak_switch=st["i_peak"],
         tau_loop=tau_loop, pump_cycles_per_turn_on=(pump.f_cp * load.t_a / load.n_on) if load.n_on else None,
-        pull_down_sag=pull_down_sag(design, sched, v_mean=v_mean, r_th=r_th, c_out=pump.c_out),
+        pull_down_sag=sag,
         treatment_async="superposition: pump steady state under the average load plus the gate-charge "
                         "pulse train through R_out and C_out, extremes aligned (worst-case phase)")
 
@@ -1112,10 +1125,10 @@ def evaluate_option(design: Design, option: ChargePumpOption, *, corner: str = "
     checks = [first] + cap_checks + sw_checks + i_checks + shared
     warn += _ratio_warnings(design, pump, power.collapsed)
     warn += flattering_defaults(option)
-    msgs, tau_loop, r_th = _validity(design, option, pump, load, ss, sched, v_max - v_min)
+    msgs, tau_loop, _, sag = _validity(design, option, pump, load, ss, sched, v_max - v_min)
     warn += msgs
     feasible, verdict = verdict_from(checks, warn)
-    details = _details(design, option, pump, load, sched, ss, power, rail, st, lim, v_block, tau_loop, r_th)
+    details = _details(design, option, pump, load, sched, ss, power, rail, st, lim, v_block, tau_loop, sag)
     return OptionResult(
         label=option.label, kind="charge_pump", feasible=feasible, verdict=verdict, warnings=tuple(warn),
         v_rail=RailStats(min=v_min, max=v_max, mean=ss.v_mean), efficiency=power.efficiency,
@@ -1241,29 +1254,32 @@ def _load_limits(design: Design, pump: _Pump, r_out: float, v_pump_min: float, v
     ripple_per_amp = (v_mean - v_pump_min) / i_tot if i_tot > 0 else 0.0
     r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
     i_q = design.driver.i_q
+    q_off_all = load.n_off * load.q_off
+    v_in, ratio, c_out, t_pulse = pump.v_in, pump.circ.ratio, pump.c_out, load.t_pulse
 
     def v_min(q, scale):
         """Rail minimum with charge q per turn-on and the bridge frequency scaled by `scale`."""
-        ia = i_q + (n_on * q + load.n_off * load.q_off) * scale / t_a
-        vm = float(rail_from_r_out(pump.v_in, r_out, ia, ratio=pump.circ.ratio, g_load=g_load))
+        ia = i_q + (n_on * q + q_off_all) * scale / t_a
+        vm = float(rail_from_r_out(v_in, r_out, ia, ratio=ratio, g_load=g_load))
         it = ia + vm * g_load
         charges = load.pulse_charges(float(q))
         if scale == 0:  # pulses far apart: each one a full step of its own charge on C_out
-            dip = max(max(charges, default=0.0), 0.0) / pump.c_out
+            dip = max(max(charges, default=0.0), 0.0) / c_out
         else:
-            dip = -pulse_schedule_extremes(tuple(t / scale for t in load.t_pulse), charges, pump.c_out, r_th,
-                                           t_a / scale)[0]
+            dip = -pulse_schedule_extremes(tuple([t / scale for t in t_pulse]), charges, c_out, r_th, t_a / scale)[0]
         return vm - ripple_per_amp * it - dip
 
     def solve(fn):
-        if fn(0.0) < 0:
+        f_lo = fn(0.0)
+        if f_lo < 0:
             return 0.0
         hi = 1.0
-        while fn(hi) >= 0:
+        while (f_hi := fn(hi)) >= 0:
             hi *= 4.0
             if hi > 1e12:
                 return None
-        return brentq(fn, 0.0, hi, xtol=1e-9 * hi, rtol=1e-10)
+        known = {0.0: f_lo, hi: f_hi}  # Brent's method starts from the bracket's ends: their values are at hand
+        return brentq(lambda x: known.pop(x) if x in known else fn(x), 0.0, hi, xtol=1e-9 * hi, rtol=1e-10)
 
     if n_on == 0:  # no HS turn-on: the gate charge never loads the rail
         return ({"f_sw_max": None, "q_g_max": None} if v_min(load.q_pulse, 0.0) >= req
