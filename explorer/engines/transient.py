@@ -17,7 +17,7 @@ import numpy as np
 from ..errors import DesignError
 from .network import Network, cycle_map
 from .periodic import PeriodicSolution
-from .startup import start_target
+from .startup import cond2, start_target
 from .transient_bounds import RangeBounds
 from .transient_search import MAX_STARTUP_CYCLES, first_reach, search_extremes
 
@@ -96,7 +96,7 @@ class StartupTransient:
         self.xss = start_target(Phi, tot[:nx, nx:] @ self.u)
         self.d0 = x0 - self.xss
         mu, W = np.linalg.eig(Phi) if nx else (np.zeros(0), np.zeros((0, 0)))
-        self.modal = bool(nx == 0 or np.linalg.cond(W) < 1e8)
+        self.modal = bool(nx == 0 or cond2(W) < 1e8)
         if self.modal:
             # real arithmetic when every μ is real (eig then returns real μ and W); otherwise complex, with
             # a pair split off the real axis by rounding only (|Im μ| ≤ 1e-12·|μ|) taken as real
@@ -119,14 +119,13 @@ class StartupTransient:
         """The periodic steady state the start-up tends to (one cycle from x_ss)."""
         return self.one_cycle(self.xss[None, :], self.u)
 
-    @property
+    @cached_property
     def settling_cycles(self) -> float:
         """Cycles per e-fold of the slowest decaying mode, −1/ln ρ with ρ the largest |μ_i| < 1 (0 if none)."""
         if not self.modal:
             r = float(np.max(np.abs(np.linalg.eigvals(self.Phi)), initial=0.0))
         else:
-            m = np.abs(self.mu)
-            r = float(np.max(m[m < 1.0], initial=0.0))
+            r = max((m for m in np.abs(self.mu).tolist() if m < 1.0), default=0.0)
         return 0.0 if r <= 0.0 else -1.0 / math.log(r)
 
     @property

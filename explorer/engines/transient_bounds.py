@@ -40,19 +40,22 @@ def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.nda
     fin = np.isfinite(j)
     if abs(l0 - l1) <= 1e-9 * max(l0, l1, 1e-300):  # equal rates: the curve is the chord, s₂/S₂ = s₁/S₁
         return np.where(fin[:, None, None], 1.0, box)
-    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        S = 1.0 - mj  # (n, 2)
-        # P = t0·l = S − tj·(μ^j·l): solve [l, μ^j·l]·[t0, tj]ᵀ = S
-        a12, a22 = mj[:, 0] * l0, mj[:, 1] * l1
-        det = l0 * a22 - a12 * l1
+    S = 1.0 - mj  # (n, 2)
+    # P = t0·l = S − tj·(μ^j·l): solve [l, μ^j·l]·[t0, tj]ᵀ = S, in the ranges where the triangle can
+    # exist (finite, both S_i > 0, the tangents not parallel), so that nothing divides by zero
+    a12, a22 = mj[:, 0] * l0, mj[:, 1] * l1
+    det = l0 * a22 - a12 * l1
+    i = np.flatnonzero(fin & (S > 0).all(axis=1) & (np.abs(det) > 1e-12 * np.abs(l0 * a22)))
+    S, a12, a22, det = S[i], a12[i], a22[i], det[i]
+    with np.errstate(over="ignore", invalid="ignore"):
         t0 = (S[:, 0] * a22 - S[:, 1] * a12) / det
         tj = (l0 * S[:, 1] - l1 * S[:, 0]) / det
         frac = t0[:, None] * np.array([l0, l1]) / S
-        ok = (fin & np.isfinite(frac).all(axis=1) & (t0 >= 0) & (tj >= 0) & (S > 0).all(axis=1)
-              & (np.abs(det) > 1e-12 * np.abs(l0 * a22)))
-    tri = np.ones(box.shape)
-    tri[:, 1] = tri[:, 2] = frac
-    return np.where(ok[:, None, None], tri, box)
+        ok = np.isfinite(frac).all(axis=1) & (t0 >= 0) & (tj >= 0)
+    out = box.copy()
+    out[i[ok], 0] = 1.0
+    out[i[ok], 1:] = frac[ok, None, :]
+    return out
 
 
 @functools.lru_cache(maxsize=None)
@@ -140,9 +143,9 @@ class RangeBounds:
             ci = tr.corner_modes
             mu = tr.mu.real[ci]
             j = b - 1.0 - a
-            with np.errstate(over="ignore", invalid="ignore"):
-                mj = np.where(np.isinf(j)[:, None], np.where(mu[None, :] < 1.0, 0.0, 1.0),
-                              np.power(mu[None, :], np.where(np.isinf(j), 0.0, j)[:, None]))
+            tail = np.isinf(j)
+            mj = np.power(mu, np.where(tail, 0.0, j)[:, None])
+            mj[tail] = mu >= 1.0  # μ^∞: 0 below 1
             shift = ((1.0 - mj) * np.power(mu[None, :], a[:, None]))[:, :, None] \
                 * (tr.c[ci, None] * tr.W.T[ci]).real[None]  # (n, r, nx)
             sig = np.repeat(_corners(ci.size)[None], n, axis=0)  # (n, corners, r): s_i / S_i
@@ -197,6 +200,12 @@ def split_ranges(a: np.ndarray, b: np.ndarray, extra=None) -> tuple[np.ndarray, 
 
 def initial_ranges(settling_cycles: float) -> tuple[np.ndarray, np.ndarray]:
     """Ranges [0, 1), [1, 2), [2, 4), …, [2^m, ∞) with 2^m beyond 64 e-folds of the slowest mode."""
-    m = int(min(53, max(1, math.ceil(math.log2(64.0 * settling_cycles + 1.0)))))
+    return _doubling_ranges(int(min(53, max(1, math.ceil(math.log2(64.0 * settling_cycles + 1.0))))))
+
+
+@functools.lru_cache(maxsize=None)
+def _doubling_ranges(m: int) -> tuple[np.ndarray, np.ndarray]:
+    """Starts and ends of the ranges [0, 1), [1, 2), [2, 4), …, [2^m, ∞) (read-only: shared)."""
     e = np.concatenate([[0.0], 2.0 ** np.arange(m + 1), [math.inf]])
+    e.flags.writeable = False
     return e[:-1], e[1:]
