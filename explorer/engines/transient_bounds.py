@@ -34,28 +34,28 @@ def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.nda
     rates, an open tail, μ at 0 or 1). Rates equal to 1e-9 give the chord alone.
     """
     with np.errstate(divide="ignore"):
-        l0, l1 = (-np.log(mu)).tolist()
+        l_ = -np.log(mu)
+    l0, l1 = l_.tolist()
     if not (math.isfinite(l0) and math.isfinite(l1)):
         return box
     fin = np.isfinite(j)
     if abs(l0 - l1) <= 1e-9 * max(l0, l1, 1e-300):  # equal rates: the curve is the chord, s₂/S₂ = s₁/S₁
         return np.where(fin[:, None, None], 1.0, box)
     S = 1.0 - mj  # (n, 2)
-    # P = t0·l = S − tj·(μ^j·l): solve [l, μ^j·l]·[t0, tj]ᵀ = S, in the ranges where the triangle can
-    # exist (finite, both S_i > 0, the tangents not parallel), so that nothing divides by zero
-    a12, a22 = mj[:, 0] * l0, mj[:, 1] * l1
-    det = l0 * a22 - a12 * l1
-    i = np.flatnonzero(fin & (S > 0).all(axis=1) & (np.abs(det) > 1e-12 * np.abs(l0 * a22)))
-    S, a12, a22, det = S[i], a12[i], a22[i], det[i]
-    with np.errstate(over="ignore", invalid="ignore"):
-        t0 = (S[:, 0] * a22 - S[:, 1] * a12) / det
-        tj = (l0 * S[:, 1] - l1 * S[:, 0]) / det
-        frac = t0[:, None] * np.array([l0, l1]) / S
-        ok = np.isfinite(frac).all(axis=1) & (t0 >= 0) & (tj >= 0)
-    out = box.copy()
-    out[i[ok], 0] = 1.0
-    out[i[ok], 1:] = frac[ok, None, :]
-    return out
+    m0 = mj[:, 0]
+    dm = m0 - mj[:, 1]
+    with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
+        # P = t0·l = S − tj·(μ^j·l), i.e. t0 = q_i − tj·μ_i^j with q_i = S_i/l_i for both i
+        q = S / l_
+        q0 = q[:, 0]
+        tj = (q0 - q[:, 1]) / dm
+        t0 = q0 - tj * m0
+        frac = t0[:, None] / q  # P_i/S_i
+        ok = (fin & (S > 0).all(axis=1) & (np.abs(dm) > 1e-12 * mj[:, 1]) & (t0 >= 0) & (tj >= 0)
+              & np.isfinite(frac).all(axis=1))  # a finite range, both S_i > 0, the tangents not parallel
+    tri = np.ones(box.shape)
+    tri[:, 1] = tri[:, 2] = frac
+    return np.where(ok[:, None, None], tri, box)
 
 
 @functools.lru_cache(maxsize=None)
@@ -163,11 +163,11 @@ class RangeBounds:
             np.any(x[1:] != x[:-1], axis=1, out=new[1:])
             lo, hi = tr.one_cycle(x[new], tr.u).phase_extrema(names)
             row = np.cumsum(new) - 1  # each state's row among the distinct ones
-            lo, hi = lo[row], hi[row]
             if extra is not None:
-                lo_e, hi_e, lo, hi = lo[nk:], hi[nk:], lo[:nk], hi[:nk]
-            lo, hi = lo.reshape((n, -1) + lo.shape[1:]), hi.reshape((n, -1) + hi.shape[1:])  # (n, corners, P, m)
-            lo_a, hi_a, lo_b, hi_b = lo[:, 0], hi[:, 0], lo.min(axis=1), hi.max(axis=1)
+                lo_e, hi_e = lo[row[nk:]], hi[row[nk:]]
+            row = row[:nk].reshape(n, -1).T  # (corners, n): the corners first, so they reduce as whole blocks
+            lo, hi = lo[row], hi[row]  # (corners, n, P, m)
+            lo_a, hi_a, lo_b, hi_b = lo[0], hi[0], lo.min(axis=0), hi.max(axis=0)
         else:
             xs = xa if extra is None else np.concatenate([xa, extra])
             lo_a, hi_a = tr.one_cycle(xs, tr.u).phase_extrema(names)
