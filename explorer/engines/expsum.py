@@ -22,24 +22,19 @@ def exp_sum_roots(b: np.ndarray, lam: np.ndarray, T: np.ndarray) -> np.ndarray:
     every exponential ≤ 1.
     """
     n = b.shape[-1]
-    shape = np.broadcast_shapes(b.shape[:-1], lam.shape[:-1], np.shape(T))
-    if n <= 1:
-        return np.full(shape + (0,), np.nan)
-    if n == 2:  # the closed form, symmetric in the two terms (no sort needed)
+    if n == 2:  # the closed form, symmetric in the two terms (no sort needed); `ok` has the broadcast shape
         with np.errstate(divide="ignore", invalid="ignore"):
             t = np.log(-b[..., 0] / b[..., 1]) / (lam[..., 1] - lam[..., 0])
             ok = (lam[..., 0] != lam[..., 1]) & (t > 0) & (t < T)
-        return np.broadcast_to(np.where(ok, t, np.nan), shape)[..., None]
+        return np.where(ok, t, np.nan)[..., None]
+    shape = np.broadcast_shapes(b.shape[:-1], lam.shape[:-1], np.shape(T))
+    if n <= 1:
+        return np.full(shape + (0,), np.nan)
     order = np.argsort(-lam, axis=-1)
     lam = np.take_along_axis(np.broadcast_to(lam, shape + (n,)), np.broadcast_to(order, shape + (n,)), -1)
     b = np.take_along_axis(np.broadcast_to(b, shape + (n,)), np.broadcast_to(order, shape + (n,)), -1)
     b1, c, mu = b[..., 0], b[..., 1:], lam[..., 1:] - lam[..., :1]
     T = np.broadcast_to(T, shape)
-    with np.errstate(divide="ignore", invalid="ignore"):
-        if n == 2:
-            t = np.log(-b1 / c[..., 0]) / mu[..., 0]
-            ok = (mu[..., 0] < 0) & (t > 0) & (t < T)
-            return np.where(ok, t, np.nan)[..., None]
 
     def g(t):
         return b1[..., None] + np.sum(c[..., None, :] * np.exp(mu[..., None, :] * t[..., None]), axis=-1)

@@ -8,6 +8,7 @@ answers questions over all cycles (extremes, first crossing) without listing the
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass
 
 import numpy as np
@@ -15,7 +16,7 @@ import numpy as np
 from ..errors import DesignError
 from .network import Network, cycle_map
 
-__all__ = ["StartupSolution", "start_target", "startup"]
+__all__ = ["StartupSolution", "cond2", "start_target", "startup"]
 
 
 @dataclass(frozen=True)
@@ -56,11 +57,18 @@ class StartupSolution:
         return np.einsum("pmj,kpj->mkp", K, zend)
 
 
+def cond2(A: np.ndarray) -> float:
+    """2-norm condition number σ_max/σ_min of one square matrix (∞ if singular), as ``np.linalg.cond(A)``
+    without its handling of NaN (the SVD raises on NaN) and of stacks."""
+    s = np.linalg.svd(A, compute_uv=False)
+    return float(s[0] / s[-1]) if s[-1] > 0.0 else math.inf
+
+
 def start_target(Phi: np.ndarray, b: np.ndarray) -> np.ndarray:
     """The state x_ss = Φ·x_ss + b the recurrence tends to (any consistent one when Φ has an eigenvalue 1)."""
     nx = Phi.shape[0]
     A = np.eye(nx) - Phi
-    if nx and np.linalg.cond(A) > 1e12:
+    if nx and cond2(A) > 1e12:
         # a charge that no phase changes (Φ has an eigenvalue 1): any consistent x_ss will do
         xss = np.linalg.lstsq(A, b, rcond=None)[0]
         if not np.allclose(A @ xss, b, rtol=1e-9, atol=1e-12 * (np.abs(b).max(initial=0.0) + 1.0)):
@@ -76,7 +84,7 @@ def _powers_apply(Phi: np.ndarray, v: np.ndarray, k: np.ndarray) -> np.ndarray:
     if n == 0:
         return np.zeros((k.size, 0))
     lam, V = np.linalg.eig(Phi)
-    if np.linalg.cond(V) < 1e8:
+    if cond2(V) < 1e8:
         c = np.linalg.solve(V, v.astype(complex))
         out = (lam[None, :] ** k[:, None] * c[None, :]) @ V.T
         return out.real

@@ -17,7 +17,7 @@ import numpy as np
 from ..errors import DesignError
 from .network import Network, cycle_map
 from .periodic import PeriodicSolution
-from .startup import start_target
+from .startup import cond2, start_target
 from .transient_bounds import RangeBounds
 from .transient_search import MAX_STARTUP_CYCLES, first_reach, search_extremes
 
@@ -96,15 +96,18 @@ class StartupTransient:
         self.xss = start_target(Phi, tot[:nx, nx:] @ self.u)
         self.d0 = x0 - self.xss
         mu, W = np.linalg.eig(Phi) if nx else (np.zeros(0), np.zeros((0, 0)))
-        self.modal = bool(nx == 0 or np.linalg.cond(W) < 1e8)
+        self.modal = bool(nx == 0 or cond2(W) < 1e8)
         if self.modal:
-            mu = mu.astype(complex)
-            # a pair split off the real axis by rounding only (|Im μ| ≤ 1e-12·|μ|): real
-            self.mu = np.where(np.abs(mu.imag) <= 1e-12 * np.abs(mu), mu.real + 0j, mu)
-            self.W = W.astype(complex)
-            self.c = np.linalg.solve(self.W, self.d0.astype(complex)) if nx else np.zeros(0, complex)
-            self.real_modes = (np.abs(self.mu.imag) == 0) & (self.mu.real >= 0)
-            slow = np.argsort(-np.abs(self.mu))
+            # real arithmetic when every μ is real (eig then returns real μ and W); otherwise complex, with
+            # a pair split off the real axis by rounding only (|Im μ| ≤ 1e-12·|μ|) taken as real
+            if np.iscomplexobj(mu):
+                mu = np.where(np.abs(mu.imag) <= 1e-12 * np.abs(mu), mu.real + 0j, mu)
+            self.mu, self.W = mu, W
+            self.c = np.linalg.solve(W, self.d0.astype(W.dtype)) if nx else np.zeros(0)
+            self.real_modes = (mu.imag == 0) & (mu.real >= 0)
+            self._rate = np.abs(mu.real)  # μ_i of a real mode
+            self._all_real = bool(self.real_modes.all())
+            slow = np.argsort(-np.abs(mu))
             self.corner_modes = np.array([i for i in slow if self.real_modes[i]][:_CORNER_MODES], dtype=int)
             rest = np.ones(nx, bool)
             rest[self.corner_modes] = False
@@ -116,14 +119,13 @@ class StartupTransient:
         """The periodic steady state the start-up tends to (one cycle from x_ss)."""
         return self.one_cycle(self.xss[None, :], self.u)
 
-    @property
+    @cached_property
     def settling_cycles(self) -> float:
         """Cycles per e-fold of the slowest decaying mode, −1/ln ρ with ρ the largest |μ_i| < 1 (0 if none)."""
         if not self.modal:
             r = float(np.max(np.abs(np.linalg.eigvals(self.Phi)), initial=0.0))
         else:
-            m = np.abs(self.mu)
-            r = float(np.max(m[m < 1.0], initial=0.0))
+            r = max((m for m in np.abs(self.mu).tolist() if m < 1.0), default=0.0)
         return 0.0 if r <= 0.0 else -1.0 / math.log(r)
 
     @property
@@ -135,21 +137,23 @@ class StartupTransient:
         """Capacitor voltages x_k at the start of each cycle k, shape (len(cycles), n_x) [V]."""
         k = np.asarray(cycles, dtype=float).reshape(-1)
         if self.modal:
-            mk = np.where(self.real_modes, np.power(np.abs(self.mu.real)[None, :], k[:, None]),
-                          np.power(self.mu[None, :], k[:, None]))
-            return self.xss[None, :] + ((mk * self.c[None, :]) @ self.W.T).real
+            mk = np.power(self._rate, k[:, None])
+            if not self._all_real:
+                mk = np.where(self.real_modes, mk, np.power(self.mu, k[:, None]))
+            return self.xss + ((mk * self.c) @ self.W.T).real
         return self.xss[None, :] + np.stack([np.linalg.matrix_power(self.Phi, int(kk)) @ self.d0 for kk in k])
 
     def one_cycle(self, x, u) -> PeriodicSolution:
         """Cycles starting from the states x (n, n_x) with inputs u, as a batch of one-cycle solutions."""
         x = np.asarray(x, float)
-        z = np.concatenate([x, np.broadcast_to(u, (x.shape[0], self.net.n_u))], axis=1)
-        zs = []
-        for p in range(self.net.n_phases):
-            zs.append(z)
-            z = z @ self.E[p].T
-        d = np.broadcast_to(self.durations, (x.shape[0], self.net.n_phases))
-        return PeriodicSolution(net=self.net, durations=d, z0=np.stack(zs, axis=1), E=self.E, S=self.S)
+        n, nx, P = x.shape[0], self.net.n_x, self.net.n_phases
+        z = np.empty((n, P, nx + self.net.n_u))
+        z[:, 0, :nx] = x
+        z[:, 0, nx:] = u
+        for p in range(P - 1):
+            z[:, p + 1] = z[:, p] @ self.E[p].T
+        return PeriodicSolution(net=self.net, durations=self.durations[None].repeat(n, axis=0), z0=z, E=self.E,
+                                S=self.S)
 
     def cycles(self, cycles) -> PeriodicSolution:
         """The cycles k (any indices) as a batch of one-cycle solutions (phase-start states, integrals, extrema).

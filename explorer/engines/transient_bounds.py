@@ -8,6 +8,7 @@ modes), the other modes by the deviation bound Σ_i A_i·D_i(a, b); see
 
 from __future__ import annotations
 
+import functools
 import math
 from typing import TYPE_CHECKING
 
@@ -32,25 +33,37 @@ def _tangent_triangle(mu: np.ndarray, j: np.ndarray, mj: np.ndarray, box: np.nda
     or the box's other corners ``box`` where the triangle is degenerate (equal
     rates, an open tail, μ at 0 or 1). Rates equal to 1e-9 give the chord alone.
     """
+    with np.errstate(divide="ignore"):
+        l_ = -np.log(mu)
+    l0, l1 = l_.tolist()
+    if not (math.isfinite(l0) and math.isfinite(l1)):
+        return box
+    fin = np.isfinite(j)
+    if abs(l0 - l1) <= 1e-9 * max(l0, l1, 1e-300):  # equal rates: the curve is the chord, s₂/S₂ = s₁/S₁
+        return np.where(fin[:, None, None], 1.0, box)
+    S = 1.0 - mj  # (n, 2)
+    m0 = mj[:, 0]
+    dm = m0 - mj[:, 1]
     with np.errstate(divide="ignore", invalid="ignore", over="ignore"):
-        l_ = -np.log(mu)  # (2,)
-        S = 1.0 - mj  # (n, 2)
-        # P = t0·l = S − tj·(μ^j·l): solve [l, μ^j·l]·[t0, tj]ᵀ = S
-        a11, a21 = l_[0], l_[1]
-        a12, a22 = mj[:, 0] * l_[0], mj[:, 1] * l_[1]
-        det = a11 * a22 - a12 * a21
-        t0 = (S[:, 0] * a22 - S[:, 1] * a12) / det
-        tj = (a11 * S[:, 1] - a21 * S[:, 0]) / det
-        P = t0[:, None] * l_[None, :]
-        frac = P / S
-        ok = (np.isfinite(j) & np.all(np.isfinite(frac), axis=1) & (t0 >= 0) & (tj >= 0)
-              & np.all(np.isfinite(l_)) & np.all(S > 0, axis=1) & (np.abs(det) > 1e-12 * np.abs(a11 * a22)))
-        # equal rates (to 1e-9): the curve is the chord itself, s₂/S₂ = s₁/S₁
-        same = np.isfinite(j) & bool(np.all(np.isfinite(l_)) and abs(l_[0] - l_[1]) <= 1e-9 * max(l_.max(), 1e-300))
-    frac = np.where(same[:, None], 1.0, frac)
-    ok = ok | same
-    tri = np.stack([np.ones_like(frac), np.where(ok[:, None], frac, 0.0), np.where(ok[:, None], frac, 0.0)], axis=1)
+        # P = t0·l = S − tj·(μ^j·l), i.e. t0 = q_i − tj·μ_i^j with q_i = S_i/l_i for both i
+        q = S / l_
+        q0 = q[:, 0]
+        tj = (q0 - q[:, 1]) / dm
+        t0 = q0 - tj * m0
+        frac = t0[:, None] / q  # P_i/S_i
+        ok = (fin & (S > 0).all(axis=1) & (np.abs(dm) > 1e-12 * mj[:, 1]) & (t0 >= 0) & (tj >= 0)
+              & np.isfinite(frac).all(axis=1))  # a finite range, both S_i > 0, the tangents not parallel
+    tri = np.ones(box.shape)
+    tri[:, 1] = tri[:, 2] = frac
     return np.where(ok[:, None, None], tri, box)
+
+
+@functools.lru_cache(maxsize=None)
+def _corners(r: int) -> np.ndarray:
+    """The 2^r corners of the unit box in r dimensions, shape (2^r, r): row c holds the bits of c."""
+    out = ((np.arange(2 ** r)[:, None] >> np.arange(r)[None, :]) & 1).astype(float)
+    out.flags.writeable = False
+    return out
 
 
 class RangeBounds:
@@ -130,37 +143,31 @@ class RangeBounds:
             ci = tr.corner_modes
             mu = tr.mu.real[ci]
             j = b - 1.0 - a
-            with np.errstate(over="ignore", invalid="ignore"):
-                mj = np.where(np.isinf(j)[:, None], np.where(mu[None, :] < 1.0, 0.0, 1.0),
-                              np.power(mu[None, :], np.where(np.isinf(j), 0.0, j)[:, None]))
+            tail = np.isinf(j)
+            mj = np.power(mu, np.where(tail, 0.0, j)[:, None])
+            mj[tail] = mu >= 1.0  # μ^∞: 0 below 1
             shift = ((1.0 - mj) * np.power(mu[None, :], a[:, None]))[:, :, None] \
                 * (tr.c[ci, None] * tr.W.T[ci]).real[None]  # (n, r, nx)
-            sig = ((np.arange(2 ** ci.size)[:, None] >> np.arange(ci.size)[None, :]) & 1).astype(float)
-            sig = np.broadcast_to(sig, (n,) + sig.shape).copy()  # (n, corners, r): s_i / S_i
+            sig = np.repeat(_corners(ci.size)[None], n, axis=0)  # (n, corners, r): s_i / S_i
             if ci.size == 2:
                 sig[:, 1:] = _tangent_triangle(mu, j, mj, sig[:, 1:])
-            x = xa[:, None, :] - np.einsum("ncr,nrx->ncx", sig, shift)  # corner 0 is x_a itself
-            # each distinct corner state once: a one-cycle range has no shift (μ^0 = 1), so all its
-            # corners are x_a; a tangent triangle lists its apex twice
-            nc = sig.shape[1]
-            same = np.zeros((n, nc), bool)  # corner equal to the one before it
-            same[(b - a) <= 1.0, 1:] = True
-            if nc > 3:
-                same[:, 3] |= np.all(sig[:, 3] == sig[:, 2], axis=-1)
-            xs = x[~same]
+            nk = n * sig.shape[1]
+            x = (xa[:, None, :] - sig @ shift).reshape(nk, nx)  # corner 0 of each range is x_a
             if extra is not None:
-                xs = np.concatenate([xs, extra])
-            lo_r, hi_r = tr.one_cycle(xs, tr.u).phase_extrema(names)
+                x = np.concatenate([x, extra])
+            # each state once where it equals the one before it: a one-cycle range has no shift (μ^0 = 1),
+            # so all its corners are x_a; a tangent triangle lists its apex twice; ranges where the modes
+            # have died out to rounding, and the steady state after them, are x_ss itself
+            new = np.empty(len(x), bool)
+            new[:1] = True
+            np.any(x[1:] != x[:-1], axis=1, out=new[1:])
+            lo, hi = tr.one_cycle(x[new], tr.u).phase_extrema(names)
+            row = np.cumsum(new) - 1  # each state's row among the distinct ones
             if extra is not None:
-                q = len(extra)
-                lo_r, hi_r, lo_e, hi_e = lo_r[:-q], hi_r[:-q], lo_r[-q:], hi_r[-q:]
-            lo = np.empty((n, nc) + lo_r.shape[1:])
-            hi = np.empty((n, nc) + hi_r.shape[1:])
-            lo[~same], hi[~same] = lo_r, hi_r
-            for c in range(1, nc):
-                lo[same[:, c], c] = lo[same[:, c], c - 1]
-                hi[same[:, c], c] = hi[same[:, c], c - 1]
-            lo_a, hi_a, lo_b, hi_b = lo[:, 0], hi[:, 0], lo.min(axis=1), hi.max(axis=1)
+                lo_e, hi_e = lo[row[nk:]], hi[row[nk:]]
+            row = row[:nk].reshape(n, -1).T  # (corners, n): the corners first, so they reduce as whole blocks
+            lo, hi = lo[row], hi[row]  # (corners, n, P, m)
+            lo_a, hi_a, lo_b, hi_b = lo[0], hi[0], lo.min(axis=0), hi.max(axis=0)
         else:
             xs = xa if extra is None else np.concatenate([xa, extra])
             lo_a, hi_a = tr.one_cycle(xs, tr.u).phase_extrema(names)
@@ -193,6 +200,12 @@ def split_ranges(a: np.ndarray, b: np.ndarray, extra=None) -> tuple[np.ndarray, 
 
 def initial_ranges(settling_cycles: float) -> tuple[np.ndarray, np.ndarray]:
     """Ranges [0, 1), [1, 2), [2, 4), …, [2^m, ∞) with 2^m beyond 64 e-folds of the slowest mode."""
-    m = int(min(53, max(1, math.ceil(math.log2(64.0 * settling_cycles + 1.0)))))
+    return _doubling_ranges(int(min(53, max(1, math.ceil(math.log2(64.0 * settling_cycles + 1.0))))))
+
+
+@functools.lru_cache(maxsize=None)
+def _doubling_ranges(m: int) -> tuple[np.ndarray, np.ndarray]:
+    """Starts and ends of the ranges [0, 1), [1, 2), [2, 4), …, [2^m, ∞) (read-only: shared)."""
     e = np.concatenate([[0.0], 2.0 ** np.arange(m + 1), [math.inf]])
+    e.flags.writeable = False
     return e[:-1], e[1:]

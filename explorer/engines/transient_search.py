@@ -29,10 +29,9 @@ MAX_STARTUP_CYCLES = 2 ** 53
 #: (conservative: never inside the true extremes) and :func:`first_reach` defers the later ranges,
 #: so the work per round stays bounded.
 _MAX_OPEN = 512
-#: Cycles whose phase-boundary values the first pass of :func:`first_reach` scans at once.
-_FIRST_PASS = 256
-#: Most cycles whose exact in-cycle extrema that first pass evaluates; a later candidate goes to the search.
-_FIRST_EXACT = 64
+#: Cycles the first pass of :func:`first_reach` scans (their phase-boundary values at once, then the exact
+#: in-cycle extrema up to the first candidate); a later crossing goes to the search.
+_FIRST_PASS = 64
 
 
 def search_extremes(tr: StartupTransient, names, rtol: float, peak: bool):
@@ -119,30 +118,28 @@ def _first_pass(tr: StartupTransient, name: str, thr: float, sgn: float):
     vectorised step (:meth:`states`) and the probe at every phase boundary with them;
     those values are among the candidates of the exact phase extrema, so the first cycle
     in which one reaches the threshold bounds the answer from above. The exact in-cycle
-    extrema of that cycle and every earlier one (at most :data:`_FIRST_EXACT`) then give
-    the first cycle that reaches it, as the search would. None (the search decides) when
-    no boundary value reaches it in the scan, the candidate is later than that, or rounding
-    lets the exact extrema disagree with the boundary values.
+    extrema of that cycle and every earlier one then give the first cycle that reaches it,
+    as the search would. None (the search decides) when no boundary value reaches it in the
+    scan, or rounding lets the exact extrema disagree with the boundary values.
     """
     if tr.settling_cycles <= 0.0 and not tr.modal:
         return None
-    k = np.arange(_FIRST_PASS, dtype=float)
-    z = tr.one_cycle(tr.states(k), tr.u).z0  # (n, P, n_z)
+    sol = tr.one_cycle(tr.states(np.arange(_FIRST_PASS, dtype=float)), tr.u)
+    z = sol.z0  # (n, P, n_z)
     K = tr.net.probe_rows([name])[:, 0, :]  # (P, n_z)
     y0 = (z * K).sum(axis=-1)  # (n, P)
     y1 = (z * (K[:, None, :] @ tr.E)[:, 0, :]).sum(axis=-1)  # K·E_p·z
     cand = np.flatnonzero((np.maximum(sgn * y0, sgn * y1) >= thr).any(axis=1))
-    if cand.size == 0 or cand[0] >= _FIRST_EXACT:
+    if cand.size == 0:
         return None
-    zc = z[:cand[0] + 1]
-    lo, hi = PeriodicSolution(net=tr.net, durations=np.broadcast_to(tr.durations, zc.shape[:2]), z0=zc,
-                              E=tr.E, S=tr.S).phase_extrema([name])
+    m = cand[0] + 1
+    lo, hi = PeriodicSolution(net=tr.net, durations=sol.durations[:m], z0=z[:m], E=tr.E, S=tr.S).phase_extrema([name])
     top = hi[..., 0] if sgn > 0 else -lo[..., 0]  # (n, P)
     hit = np.flatnonzero((top >= thr).any(axis=1))
     if not hit.size:
         return None
     h = int(hit[0])
-    return h, (lo[h], hi[h], zc[h])
+    return h, (lo[h], hi[h], z[h])
 
 
 def _guess(tr: StartupTransient, a: np.ndarray, top: np.ndarray, name: str, thr: float, sgn: float) -> np.ndarray:
