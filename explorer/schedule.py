@@ -53,6 +53,7 @@ import numpy as np
 
 from .design import Bridge, Design, Driver
 from .errors import DesignError
+from .memo import Memory
 from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_standstill, light_load,
                        periods_per_fundamental, topology_of)
 
@@ -327,10 +328,19 @@ def period_schedule(design: Design, bridge: Bridge | None = None) -> Schedule:
     1.0
     """
     b = bridge or design.bridge
+    return _PERIODS.get((b, design.driver), lambda: _period_schedule(b, design.driver))
+
+
+#: Analysis periods by (bridge, driver), the only fields they depend on: every option of a design asks
+#: for the same one (:mod:`explorer.memo`; emptied with the other memories).
+_PERIODS = Memory("period schedules", maxsize=32)
+
+
+def _period_schedule(b: Bridge, driver: Driver) -> Schedule:
     n = _n_per_fundamental(b) if topology_of(b).fundamental else 1
     k = np.arange(n)
     t_hs, t_ls, la, lb = hs_duty_per_period(b, k, np.ones(n))
-    return _assemble(b, design.driver, t_hs, t_ls, la, lb, periodic=True)
+    return _assemble(b, driver, t_hs, t_ls, la, lb, periodic=True)
 
 
 def startup_schedule(design: Design, bridge: Bridge | None = None, n_cycles: int | None = None) -> Schedule:
