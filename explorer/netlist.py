@@ -292,17 +292,20 @@ def _edge_widths(s: Schedule, k: np.ndarray, edge: float) -> np.ndarray:
 
 
 def _charge_pulses(name: str, a: str, b: str, s: Schedule, k: np.ndarray, q: float, edge: float,
-                   t_stop: float, after_edge: bool = False) -> list[str]:
-    """Current sources drawing charge ``q`` from ``a`` to ``b`` over the edge starting at each interval in ``k``
-    (``after_edge``: over the same width just after it, with the switch node at its new level).
+                   t_stop: float, at: str = "edge") -> list[str]:
+    """Current sources drawing charge ``q`` from ``a`` to ``b`` at each interval start in ``k``.
 
-    One source per distinct edge width keeps each pulse's charge exact.
+    ``at``: ``"edge"`` over the edge width from the interval start; ``"after"`` over the same
+    width just after it, with the switch node at its new level; ``"before"`` over the width before
+    a falling edge (which :func:`_steps` ends at the interval start), while the switch node is
+    still at its old level. One source per distinct edge width keeps each pulse's charge exact.
     """
     w = _edge_widths(s, k, edge)
+    shift = {"edge": 0.0, "after": 1.0, "before": -2.0}[at]
     out = []
     for j, wj in enumerate(np.unique(w)):
         kk = k[w == wj]
-        t0 = s.t_start[kk] + (wj if after_edge else 0.0)
+        t0 = s.t_start[kk] + shift * wj
         out.append(f"{name}{j} {a} {b} {_pwl(_pulses(t0, np.full(kk.size, wj), q / wj, t_stop))}")
     return out
 
@@ -329,8 +332,8 @@ def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
     off = np.flatnonzero(~plan.delivered & prev & live)
     q_off = charge_per_turn_off(design)
     if off.size and q_off > 0:
-        lines.append("* level-shift charge Q_LS drawn over the SW edge at each HS turn-off (reset pulse)")
-        lines += _charge_pulses("ILS", "vb", "vs", s, off, q_off, edge, plan.t_stop)
+        lines.append("* level-shift charge Q_LS at each HS turn-off (reset pulse), drawn before the SW edge")
+        lines += _charge_pulses("ILS", "vb", "vs", s, off, q_off, edge, plan.t_stop, at="before")
     lines.append(f"IQ vb vs DC {_n(design.driver.i_q)}")
     if design.gate.r_gs is not None:
         lines += ["* gate pull-down R_GS, connected while the HS is on",
@@ -399,7 +402,7 @@ def bootstrap_lines(design: Design, option: BootstrapOption, plan: NetlistPlan, 
             # recovery during the rise sees less of the bus)
             lines.append("* diode recovery charge Q_rr wherever the diode becomes reverse-biased (after the edge)")
             lines += _charge_pulses("IRR", "vb", "a", s, k, option.q_rr, design.bridge.t_edge, plan.t_stop,
-                                    after_edge=True)
+                                    at="after")
     lines += [f"* C_boot: {_n(option.c)} F nominal, {_n(circ.c)} F effective at the '{corner}' corner",
               f"CBOOT vb cb {_n(circ.c)} IC=0",
               f"RESR cb vs {_n(max(option.esr, R_MIN))}"]

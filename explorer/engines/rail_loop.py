@@ -81,6 +81,12 @@ class Loop:
     diode : {"linear", "junction"}
     v_clamp : ndarray, float or None [V]
         Clamp across the capacitor (None: none); see the module notes.
+    q_lead : ndarray, float or None [C]
+        The part of ``q_step`` drawn first, before the rest of the step (None: none): the
+        level-shift reset charge at an HS turn-off, drawn while the switch node is still high,
+        before the diode's junction capacitance hands its charge back as the node falls. The rail
+        dips to ``v_pre − q_lead/C`` before the step's remainder; only the extremes see it (the
+        charge over the step is ``q_step`` either way).
     """
 
     dt: np.ndarray
@@ -95,6 +101,7 @@ class Loop:
     n_vt: np.ndarray = 0.025
     diode: str = "linear"
     v_clamp: np.ndarray | None = None
+    q_lead: np.ndarray | None = None
 
     @property
     def able(self) -> np.ndarray:
@@ -104,13 +111,15 @@ class Loop:
         return np.asarray(self.v_src) > 0.0
 
 
-#: The array fields of a :class:`Loop` (``v_clamp`` joins them where it is set).
+#: The array fields of a :class:`Loop` (``v_clamp`` and ``q_lead`` join them where they are set).
 LOOP_ARRAYS = ("dt", "v_src", "c", "r", "i_load", "g_load", "q_step", "v_f", "i_s", "n_vt")
 
 
 def loop_fields(loop: Loop) -> tuple:
-    """The names of the loop's array fields: :data:`LOOP_ARRAYS`, and ``v_clamp`` where it is set."""
-    return LOOP_ARRAYS if loop.v_clamp is None else LOOP_ARRAYS + ("v_clamp",)
+    """The names of the loop's array fields: :data:`LOOP_ARRAYS`, and ``v_clamp`` and ``q_lead`` where set."""
+    if loop.v_clamp is None and loop.q_lead is None:
+        return LOOP_ARRAYS
+    return LOOP_ARRAYS + tuple(k for k in ("v_clamp", "q_lead") if getattr(loop, k) is not None)
 
 
 def full_as(x, shape) -> np.ndarray:
@@ -150,4 +159,5 @@ def take_loop(loop: Loop, idx) -> Loop:
 
 def unclamped(loop: Loop) -> Loop:
     """The same loop without its clamp."""
-    return loop if loop.v_clamp is None else Loop(**{k: getattr(loop, k) for k in LOOP_ARRAYS}, diode=loop.diode)
+    return loop if loop.v_clamp is None else Loop(**{k: getattr(loop, k) for k in LOOP_ARRAYS}, diode=loop.diode,
+                                                  q_lead=loop.q_lead)

@@ -58,7 +58,8 @@ class OrbitSolution:
         Voltage at each interval end.
     v_min, v_max : ndarray [V]
         Extremes over the trajectory (the rail is monotone inside each interval,
-        so the extremes lie on these boundary values).
+        so the extremes lie on these boundary values and, where the loop has a
+        ``q_lead``, on the dips ``v_dip``).
     passes : int
         Newton passes used (1 = the affine maps were exact).
     converged : bool
@@ -71,6 +72,7 @@ class OrbitSolution:
     v_max: np.ndarray
     passes: int
     converged: bool
+    v_dip: np.ndarray | None = None  # v_pre − q_lead/C where the loop has a leading charge (else None)
 
 
 def _initial_guess(loop: Loop) -> np.ndarray:
@@ -189,7 +191,7 @@ def _surrogate(loop: Loop) -> Loop:
     v_f = loop.n_vt * np.log1p(i_t / loop.i_s) - r_d * i_t
     return broadcast_loop(Loop(dt=loop.dt, v_src=loop.v_src, c=loop.c, r=loop.r + r_d, i_load=loop.i_load,
                                 g_load=loop.g_load, q_step=loop.q_step, v_f=v_f, i_s=loop.i_s,
-                                n_vt=loop.n_vt, diode="linear", v_clamp=loop.v_clamp))
+                                n_vt=loop.n_vt, diode="linear", v_clamp=loop.v_clamp, q_lead=loop.q_lead))
 
 
 def _solve_block(loop: Loop, v_init, tol, v_guess=None):
@@ -265,6 +267,7 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
         converged &= ok
     if loop.v_clamp is not None:  # a step that would lift the rail above the clamp ends at it
         v0 = np.minimum(v0, flat.v_clamp)
+    dip = None if flat.q_lead is None else u - flat.q_lead / flat.c  # the leading part of a step first
     if n <= 32 and rows > 256:  # column loop: much faster than a reduction over a short last axis
         v_min = v1[:, -1].copy()
         v_max = v1[:, -1].copy()
@@ -275,13 +278,17 @@ def solve_orbit(loop: Loop, v_init=None, *, tol: float = 1e-13, v_guess=None) ->
     else:
         v_min = np.minimum(np.minimum(v0.min(axis=-1), u.min(axis=-1)), v1[:, -1])
         v_max = np.maximum(np.maximum(v0.max(axis=-1), u.max(axis=-1)), v1[:, -1])
+    if dip is not None:
+        v_min = np.minimum(v_min, dip.min(axis=-1))
+        dip = dip.reshape(shape)
     return OrbitSolution(v_pre=u.reshape(shape), v_start=v0.reshape(shape), v_end=v1.reshape(shape),
                          v_min=v_min.reshape(shape[:-1]), v_max=v_max.reshape(shape[:-1]),
-                         passes=passes, converged=bool(converged))
+                         passes=passes, converged=bool(converged), v_dip=dip)
 
 
 def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
-                diode: str = "linear", i_s=1e-14, n_vt=0.025, v_guess=None, v_clamp=None) -> OrbitSolution:
+                diode: str = "linear", i_s=1e-14, n_vt=0.025, v_guess=None, v_clamp=None,
+                q_lead=None) -> OrbitSolution:
     """Periodic steady state of the bootstrap rail for a batch of schedules.
 
     All arrays broadcast against ``dt`` shaped ``(..., n)`` (``n`` intervals of
@@ -317,6 +324,8 @@ def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
         is the same within the tolerance.
     v_clamp : array_like [V], optional
         Clamp across the capacitor (:class:`~explorer.engines.rail_loop.Loop`).
+    q_lead : array_like [C], optional
+        The part of each step drawn first (:class:`~explorer.engines.rail_loop.Loop`).
 
     Returns
     -------
@@ -340,7 +349,8 @@ def steady_rail(dt, v_src, *, c, r, v_f=0.0, i_load=0.0, g_load=0.0, q_step=0.0,
     True
     """
     loop = broadcast_loop(Loop(dt=dt, v_src=v_src, c=c, r=r, i_load=i_load, g_load=g_load,
-                                q_step=q_step, v_f=v_f, i_s=i_s, n_vt=n_vt, diode=diode, v_clamp=v_clamp))
+                                q_step=q_step, v_f=v_f, i_s=i_s, n_vt=n_vt, diode=diode, v_clamp=v_clamp,
+                                q_lead=q_lead))
     if v_guess is not None:
         v_guess = np.broadcast_to(np.asarray(v_guess, dtype=float), loop.dt.shape)
     return solve_orbit(loop, v_guess=v_guess)

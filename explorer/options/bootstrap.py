@@ -330,11 +330,15 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
     turn_on = m.live & hs_on & ~m.prev_h
     turn_off = m.live & ~hs_on & m.prev_h
     q = (circ.q_on * turn_on + circ.q_off * turn_off + circ.q_rr * m.onset + circ.c_j * (lev - prev_l))
+    # the reset pulse is drawn on the turn-off command, while SW is still high; C_j hands its charge back
+    # only as SW falls, so the rail first dips by Q_off/C (the step's net charge is the same either way)
+    q_lead = circ.q_off * turn_off if circ.q_off > 0.0 and circ.c_j > 0.0 else None
     i_load = circ.i_q + circ.i_leak * m.rev
     g_load = circ.g_gs * hs_on
     v_src = circ.v_dd - v_sw
     return Loop(dt=dt, v_src=v_src, c=circ.c, r=circ.r_tot, i_load=i_load, g_load=g_load,
-                q_step=q, v_f=circ.v_f, i_s=circ.i_s, n_vt=circ.n_vt, diode=circ.diode, v_clamp=circ.v_clamp)
+                q_step=q, v_f=circ.v_f, i_s=circ.i_s, n_vt=circ.n_vt, diode=circ.diode, v_clamp=circ.v_clamp,
+                q_lead=q_lead)
 
 
 def _schedule_arrays(s: Schedule):
@@ -539,8 +543,10 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         orb = propagate(loop, v, tol=STARTUP_TOL)
         segments += 1
         # the UVLO rule, sampled at interval boundaries: an enabled driver drops out when the rail is
-        # below UVLO-off at either end of an interval; a disabled one restarts once it ends at UVLO-on
-        nxt = np.where(pred, ~((orb.v_start < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)),
+        # below UVLO-off at either end of an interval (or in the dip of a turn-off's leading charge); a
+        # disabled one restarts once it ends at UVLO-on
+        low = orb.v_start if orb.v_dip is None else np.minimum(orb.v_start, orb.v_dip)
+        nxt = np.where(pred, ~((low < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)),
                        orb.v_end >= drv.uvlo_on)
         bad = (nxt[:-1] != pred[1:]).nonzero()[0]
         stop = int(bad[0]) + 1 if bad.size else q_end - p
@@ -678,7 +684,8 @@ def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: b
     orb = _rotated_orbit(loop, steady) if steady is not None else None
     if orb is None:
         orb = solve_orbit(loop)
-    vals = np.concatenate((orb.v_start, orb.v_end))
+    low = orb.v_start if orb.v_dip is None else np.minimum(orb.v_start, orb.v_dip)
+    vals = np.concatenate((low, orb.v_end))
     if not (orb.converged and np.isfinite(vals).all()):
         return None
     m = 2.0 * STARTUP_TOL * (1.0 + np.abs(vals))
@@ -706,7 +713,8 @@ def _rotated_orbit(loop: Loop, steady: SteadyState) -> OrbitSolution | None:
         if (a[:, idx] == b).all():
             o = steady.orbit
             return OrbitSolution(v_pre=o.v_pre[idx], v_start=o.v_start[idx], v_end=o.v_end[idx], v_min=o.v_min,
-                                 v_max=o.v_max, passes=o.passes, converged=o.converged)
+                                 v_max=o.v_max, passes=o.passes, converged=o.converged,
+                                 v_dip=None if o.v_dip is None else o.v_dip[idx])
     return None
 
 
@@ -870,7 +878,7 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
                           g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
                           n_vt=loop.n_vt, v_guess=None if g_flat is None else g_flat[a:a + _MAP_BLOCK],
-                          v_clamp=loop.v_clamp)
+                          v_clamp=loop.v_clamp, q_lead=loop.q_lead)
         out[a:a + _MAP_BLOCK] = np.where(_refresh_mask(loop, orb), orb.v_min, np.nan)
         if full:
             parts.append(orb)
@@ -1057,7 +1065,7 @@ def fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     worst = _worst_period(design, circ, np.array(peak_hs))
     lower = steady_rail(worst.dt, worst.v_src, c=worst.c, r=worst.r, v_f=worst.v_f, i_load=worst.i_load,
                         g_load=worst.g_load, q_step=worst.q_step, diode=worst.diode, i_s=worst.i_s,
-                        n_vt=worst.n_vt, v_clamp=worst.v_clamp).v_min
+                        n_vt=worst.n_vt, v_clamp=worst.v_clamp, q_lead=worst.q_lead).v_min
     lower = np.where(np.isfinite(lower), lower, -np.inf)
     size = min(a[0].size for a in arrs)
     t_hs, t_ls, la, lb = (np.array([a[j][-size:] for a in arrs]) for j in range(4))
@@ -1065,8 +1073,7 @@ def fundamental_bounds(design, circ, cases, burn: int = 256, core: int = 64):
     loop = _bc(schedule_loop(circ, dt, v, hs, periodic=False))
     loop = map_loop(loop, lambda a: a[:, 4:])
     orb = propagate(loop, np.full(len(arrs), u_top))
-    row_min = np.minimum(np.minimum(orb.v_pre.min(axis=-1), orb.v_start.min(axis=-1)), orb.v_end.min(axis=-1))
-    row_min = np.where(np.isfinite(row_min), row_min, np.inf)
+    row_min = np.where(np.isfinite(orb.v_min), orb.v_min, np.inf)  # every boundary value and dip
     upper = np.full(len(cases), np.inf)
     np.minimum.at(upper, np.array(owner), row_min)
     return lower, upper
@@ -1257,22 +1264,24 @@ def _steady_part(ss: SteadyState, warn: list) -> _SteadyPart:
         details["v_min_model"] = v_min
         v_min = 0.0
         v_max, v_mean = max(v_max, 0.0), max(v_mean, 0.0)
-    t_wave, v_wave = _waveform(sched.t_start, T, orb.v_pre, orb.v_start, orb.v_end[-1])
+    t_wave, v_wave = _waveform(sched.t_start, T, orb.v_pre, orb.v_start, orb.v_end[-1], orb.v_dip)
     return _SteadyPart(refreshed=True, rail=RailStats(v_min, v_max, v_mean), v_min=v_min, v_max=v_max, ints=ints,
                        t_wave=t_wave, v_wave=v_wave, details=details)
 
 
-def _waveform(t_start, t_end: float, v_pre, v_start, v_last: float):
-    """The rail as a polyline through the interval boundaries: each start twice (before and after its step),
-    then the end (times [s], rail [V])."""
+def _waveform(t_start, t_end: float, v_pre, v_start, v_last: float, v_dip=None):
+    """The rail as a polyline through the interval boundaries: each start twice (before and after its step;
+    three times with ``v_dip``, the dip of a step's leading charge, between them), then the end (times [s],
+    rail [V])."""
     n = len(t_start)
-    t = np.empty(2 * n + 1)
-    v = np.empty(2 * n + 1)
-    t[0:-1:2] = t_start
-    t[1:-1:2] = t_start
+    cols = (v_pre, v_start) if v_dip is None else (v_pre, v_dip, v_start)
+    m = len(cols)
+    t = np.empty(m * n + 1)
+    v = np.empty(m * n + 1)
+    for j, col in enumerate(cols):
+        t[j:-1:m] = t_start
+        v[j:-1:m] = col
     t[-1] = t_end
-    v[0:-1:2] = v_pre
-    v[1:-1:2] = v_start
     v[-1] = v_last
     return t, v
 
