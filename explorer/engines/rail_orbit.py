@@ -74,6 +74,11 @@ class OrbitSolution:
     converged: bool
     v_dip: np.ndarray | None = None  # v_pre − q_lead/C where the loop has a leading charge (else None)
 
+    @property
+    def v_low(self) -> np.ndarray:
+        """The lowest rail at each interval start: after its step, or in the dip of its leading charge [V]."""
+        return self.v_start if self.v_dip is None else np.minimum(self.v_start, self.v_dip)
+
 
 def _initial_guess(loop: Loop) -> np.ndarray:
     """A start inside the conducting regime (exact first pass for the straight-line diode)."""

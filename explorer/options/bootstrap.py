@@ -545,8 +545,7 @@ def startup(design: Design, option: BootstrapOption, corner: str = "nominal",
         # the UVLO rule, sampled at interval boundaries: an enabled driver drops out when the rail is
         # below UVLO-off at either end of an interval (or in the dip of a turn-off's leading charge); a
         # disabled one restarts once it ends at UVLO-on
-        low = orb.v_start if orb.v_dip is None else np.minimum(orb.v_start, orb.v_dip)
-        nxt = np.where(pred, ~((low < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)),
+        nxt = np.where(pred, ~((orb.v_low < drv.uvlo_off) | (orb.v_end < drv.uvlo_off)),
                        orb.v_end >= drv.uvlo_on)
         bad = (nxt[:-1] != pred[1:]).nonzero()[0]
         stop = int(bad[0]) + 1 if bad.size else q_end - p
@@ -684,8 +683,7 @@ def _tail_orbit(circ: BootstrapCircuit, s: Schedule, j1: int, L: int, enabled: b
     orb = _rotated_orbit(loop, steady) if steady is not None else None
     if orb is None:
         orb = solve_orbit(loop)
-    low = orb.v_start if orb.v_dip is None else np.minimum(orb.v_start, orb.v_dip)
-    vals = np.concatenate((low, orb.v_end))
+    vals = np.concatenate((orb.v_low, orb.v_end))
     if not (orb.converged and np.isfinite(vals).all()):
         return None
     m = 2.0 * STARTUP_TOL * (1.0 + np.abs(vals))
