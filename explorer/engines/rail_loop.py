@@ -40,11 +40,11 @@ K_B = 1.380649e-23
 Q_E = 1.602176634e-19
 
 
-def broadcast_as(x, shape):
-    """``x`` broadcast to ``shape`` (``x`` itself where it already is an array of that shape)."""
-    if isinstance(x, np.ndarray) and x.shape == shape:
+def broadcast_as(x, shape, dtype=None):
+    """``x`` broadcast to ``shape``, as ``dtype`` if given (``x`` itself where it already is such an array)."""
+    if isinstance(x, np.ndarray) and x.shape == shape and (dtype is None or x.dtype == dtype):
         return x
-    return np.broadcast_to(x, shape)
+    return np.broadcast_to(x if dtype is None else np.asarray(x, dtype=dtype), shape)
 
 
 def thermal_voltage(t_celsius: float) -> float:

@@ -61,7 +61,7 @@ from ..design import BootstrapOption, Design, JunctionDiode, LinearDiode
 from ..engines.rail_integrals import crossing_time, interval_integrals
 from ..engines.rail_junction import junction_current
 from ..engines.rail_linear import off_time_to
-from ..engines.rail_loop import Loop, full_as, loop_fields, map_loop, take_loop, thermal_voltage
+from ..engines.rail_loop import Loop, broadcast_as, full_as, loop_fields, map_loop, take_loop, thermal_voltage
 from ..engines.rail_orbit import OrbitSolution, propagate, solve_orbit, steady_rail
 from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
@@ -193,8 +193,8 @@ def bootstrap_circuit(design: Design, option: BootstrapOption, corner: str = "no
 def ffill_levels(dt, v_sw, hs_on, periodic: bool, v_prev0: float, hs_prev0: bool):
     """Level and HS state of the previous interval of non-zero length (zero-length ones are skipped)."""
     n = dt.shape[-1]
-    v_sw = _as_shape(v_sw, dt.shape, float)
-    hs_on = _as_shape(hs_on, dt.shape, bool)
+    v_sw = broadcast_as(v_sw, dt.shape, float)
+    hs_on = broadcast_as(hs_on, dt.shape, bool)
     zero = dt <= 0
     if zero.any():
         # zero-length intervals inherit the state of the nearest earlier live interval (cyclically when
@@ -224,13 +224,6 @@ def _take_last(a: np.ndarray, idx: np.ndarray) -> np.ndarray:
     n = a.shape[-1]
     a2 = a.reshape(-1, n)
     return a2[np.arange(a2.shape[0])[:, None], idx.reshape(-1, n)].reshape(idx.shape)
-
-
-def _as_shape(x, shape, dtype) -> np.ndarray:
-    """``x`` as an array of ``dtype`` broadcast to ``shape`` (``x`` itself where it already is one)."""
-    if type(x) is np.ndarray and x.shape == shape and x.dtype == dtype:
-        return x
-    return np.broadcast_to(np.asarray(x, dtype=dtype), shape)
 
 
 def reverse_biased(lev, prev_l, live, v_dd, v_hold=0.0):
@@ -323,8 +316,8 @@ def schedule_loop(circ: BootstrapCircuit, dt, v_sw, hs_on, *, periodic: bool,
         always, i_leak while the diode is reverse-biased, 1/R_GS while the HS is on.
     """
     dt = np.asarray(dt, dtype=float)
-    v_sw = _as_shape(v_sw, dt.shape, float)
-    hs_on = _as_shape(hs_on, dt.shape, bool)
+    v_sw = broadcast_as(v_sw, dt.shape, float)
+    hs_on = broadcast_as(hs_on, dt.shape, bool)
     m = masks or loop_masks(circ, dt, v_sw, hs_on, periodic=periodic, v_prev0=v_prev0, hs_prev0=hs_prev0)
     lev, prev_l = m.lev, m.prev_l
     turn_on = m.live & hs_on & ~m.prev_h
