@@ -18,15 +18,21 @@ _CHUNK = 64
 
 
 def _hs_scan(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
-    """Inclusive Hillis–Steele scan of affine maps along the last axis (a copy)."""
-    a = a.copy()
-    b = b.copy()
-    n = a.shape[-1]
+    """Inclusive Hillis–Steele scan of affine maps along the FIRST axis, in place.
+
+    Overwrites and returns ``a`` and ``b`` (C-contiguous, so every shifted
+    slice ``a[s:]`` is one contiguous block and each step is three flat
+    ufunc calls). The in-place ufuncs read their overlapping input as it was
+    before the step (numpy copies it when the operands overlap), so this is
+    the textbook scan, bit for bit.
+    """
+    n = a.shape[0]
     s = 1
     while s < n:
         # element k becomes (map k) ∘ (prefix ending at k − s)
-        b[..., s:] = a[..., s:] * b[..., :-s] + b[..., s:]
-        a[..., s:] = a[..., s:] * a[..., :-s]
+        as_ = a[s:]
+        b[s:] += as_ * b[:-s]
+        as_ *= a[:-s]
         s *= 2
     return a, b
 
@@ -49,21 +55,28 @@ def affine_scan(a: np.ndarray, b: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     b = np.asarray(b, dtype=float)
     n = a.shape[-1]
     if n <= _CHUNK:
-        return _hs_scan(a, b)
+        A, B = _hs_scan(a.T.copy(), b.T.copy())  # all axes reversed: n first
+        return A.T, B.T
     m = -(-n // _CHUNK)
-    pad = m * _CHUNK - n
-    if pad:
-        widths = [(0, 0)] * (a.ndim - 1) + [(0, pad)]
-        a = np.pad(a, widths, constant_values=1.0)
-        b = np.pad(b, widths, constant_values=0.0)
-    shp = a.shape[:-1] + (m, _CHUNK)
-    ca, cb = _hs_scan(a.reshape(shp), b.reshape(shp))
-    ta, tb = affine_scan(ca[..., -1], cb[..., -1])  # prefix of chunk totals
+    lead = a.shape[:-1]
+    # padded rows: identity maps (a = 1, b = 0) after the last one
+    pa_ = np.ones(lead + (m * _CHUNK,))
+    pb_ = np.zeros(lead + (m * _CHUNK,))
+    pa_[..., :n] = a
+    pb_[..., :n] = b
+    # chunks laid out with all axes reversed, (position in chunk, chunk, ...):
+    # the scan runs along axis 0
+    ca = pa_.reshape(lead + (m, _CHUNK)).T.copy()
+    cb = pb_.reshape(lead + (m, _CHUNK)).T.copy()
+    _hs_scan(ca, cb)
+    ta, tb = affine_scan(ca[-1].T, cb[-1].T)  # prefix of chunk totals, shape (..., m)
     # exclusive prefix for chunk j is the inclusive prefix of chunk j − 1
-    pa = np.concatenate((np.ones(ta.shape[:-1] + (1,)), ta[..., :-1]), axis=-1)[..., None]
-    pb = np.concatenate((np.zeros(tb.shape[:-1] + (1,)), tb[..., :-1]), axis=-1)[..., None]
-    A = ca * pa
-    B = ca * pb + cb
-    A = A.reshape(a.shape)[..., :n]
-    B = B.reshape(b.shape)[..., :n]
+    pa = np.ones(lead + (m,))
+    pb = np.zeros(lead + (m,))
+    pa[..., 1:] = ta[..., :-1]
+    pb[..., 1:] = tb[..., :-1]
+    cb += ca * pb.T
+    ca *= pa.T
+    A = ca.T.reshape(lead + (-1,))[..., :n]
+    B = cb.T.reshape(lead + (-1,))[..., :n]
     return A, B
