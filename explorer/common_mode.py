@@ -29,7 +29,7 @@ import numpy as np
 
 from dataclasses import dataclass
 
-from .schedule import Schedule
+from .schedule import Schedule, previous
 
 __all__ = ["edge_dv_dt", "cm_current", "edge_charge", "cm_power", "cmti_required", "cmti_ratio",
            "rising_edge_swings", "bus_power_per_edges", "EdgePower", "edge_swings", "capacitive_edge_power",
@@ -159,11 +159,7 @@ def rising_edge_swings(schedule: Schedule) -> np.ndarray:
     the first one of a periodic schedule, 0 V before a start-up schedule).
     """
     v = schedule.v_sw
-    if schedule.periodic:
-        prev = np.roll(v, 1)
-    else:
-        prev = np.concatenate(([0.0], v[:-1]))
-    return (v - prev)[schedule.sw_rise]
+    return (v - previous(v, None if schedule.periodic else 0.0))[schedule.sw_rise]
 
 
 def bus_power_per_edges(c, v_bus, swings, period):
@@ -200,8 +196,7 @@ def edge_swings(schedule: Schedule) -> tuple[np.ndarray, np.ndarray]:
     :attr:`~explorer.schedule.Schedule.edge_hard` (all hard where the schedule does not say).
     """
     v = schedule.v_sw
-    prev = np.roll(v, 1) if schedule.periodic else np.concatenate(([schedule.v_rest], v[:-1]))
-    dv = v - prev
+    dv = v - previous(v, None if schedule.periodic else schedule.v_rest)
     edge = dv != 0.0
     hard = np.ones(v.shape, dtype=bool) if schedule.edge_hard is None else schedule.edge_hard
     return dv[edge], hard[edge]

@@ -70,7 +70,7 @@ from .design import BootstrapOption, ChargePumpOption, Design, IsolatedOption, J
 from .engines.rail_loop import thermal_voltage
 from .errors import DesignError
 from .loads import charge_per_turn_off, charge_per_turn_on
-from .schedule import Schedule, period_schedule, startup_schedule
+from .schedule import Schedule, period_schedule, previous, startup_schedule
 from .spice import spice_number as _n
 from .topology import topology_of
 
@@ -249,7 +249,7 @@ def _steps(t0: np.ndarray, dt: np.ndarray, levels: np.ndarray, edge: float, star
     centred on t0[k]. A ramp never takes more than half of the interval on
     either side of it.
     """
-    prev_dt = np.concatenate(([np.inf], dt[:-1]))
+    prev_dt = previous(dt, np.inf)
     pts = [(0.0, start)]
     prev = start
     for tk, dk, dp, lv in zip(t0, dt, prev_dt, levels):
@@ -287,7 +287,7 @@ def _pulses(times: np.ndarray, widths: np.ndarray, height: float, t_stop: float)
 
 def _edge_widths(s: Schedule, k: np.ndarray, edge: float) -> np.ndarray:
     """Width of the edge at the start of intervals ``k``: t_edge, at most half of either neighbour [s]."""
-    prev = np.concatenate(([np.inf], s.dt[:-1]))
+    prev = previous(s.dt, np.inf)
     return np.minimum(edge, 0.5 * np.minimum(s.dt[k], prev[k]))
 
 
@@ -323,7 +323,7 @@ def _bridge_lines(design: Design, plan: NetlistPlan) -> list[str]:
     lines = ["* --- bridge leg: switch node and high-side gate load (from the design's schedule)",
              f"VSW vs 0 {_pwl(_steps(t0, dt, v_sw, edge, v_low, plan.t_stop, 0.5 * b.v_bus))}",
              f"VHS hs 0 {_pwl(_steps(t0, dt, plan.delivered.astype(float), edge, 0.0, plan.t_stop, 0.5))}"]
-    prev = np.concatenate(([False], plan.delivered[:-1]))
+    prev = previous(plan.delivered, False)
     on = np.flatnonzero(plan.delivered & ~prev & live)
     q = charge_per_turn_on(design)
     if on.size and q > 0:

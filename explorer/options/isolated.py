@@ -64,7 +64,7 @@ from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, load_charge, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import Schedule, period_schedule
+from ..schedule import Schedule, period_schedule, previous
 from ..topology import analysis_frequency, frequency_limit_key
 from .details import IsolatedDetails
 from .base import SupplyModel
@@ -224,7 +224,7 @@ def _rail_boundaries(dt, hs_on, hs_turn_on, *, v_src, r_out: float, c_out, q_pul
     jump = np.where(np.asarray(hs_turn_on, dtype=bool), q_pulse / c_out, 0.0)
     if q_off:  # the level shifter's reset pulse at each HS turn-off (the schedule is periodic)
         on = np.asarray(hs_on, dtype=bool)
-        jump = jump + np.where(np.roll(on, 1) & ~on, q_off / c_out, 0.0)
+        jump = jump + np.where(previous(on) & ~on, q_off / c_out, 0.0)
     g = hs_on / r_gs if r_gs is not None else np.zeros(dt.shape)
     # written without 1/r_out so that a vanishing r_out tends smoothly to the ideal source
     tau = c_out * r_out / (1.0 + g * r_out)
