@@ -875,7 +875,7 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
             parts.append(orb)
     if full:
         cat = {k: (getattr(parts[0], k) if len(parts) == 1 else np.concatenate([getattr(o, k) for o in parts]))
-               for k in ("v_pre", "v_start", "v_end", "v_min", "v_max")}
+               for k in ("v_pre", "v_start", "v_end", "v_min", "v_max", "v_dip") if getattr(parts[0], k) is not None}
         n = cat["v_pre"].shape[-1]
         return OrbitSolution(**{k: (v.reshape(shape + (n,)) if v.ndim == 2 else v.reshape(shape))
                                 for k, v in cat.items()},
