@@ -1,8 +1,9 @@
 """Regenerate the stored explorer-result JSON of the golden designs.
 
-Run from the repository root: ``.venv/bin/python tests/reference/golden/make_golden.py``.
+Run from the repository root: ``.venv/bin/python tests/reference/golden/make_golden.py [DIR]``.
 Only a change that moves figures on purpose regenerates these files, and its commit message says
-which fields moved and why. A pure restructuring must leave them byte-identical.
+which fields moved and why. With ``DIR`` the copies go there instead (the base of a restructuring on
+this machine, compared to the last bit by ``EXPLORER_GOLDEN=DIR pytest tests/test_golden.py``).
 
 The designs are scenarios of our own invention: the built-in demo and variants of it on the other
 topologies (derived with ``replace_fields``), chosen to cover every schedule kind.
@@ -12,6 +13,7 @@ from __future__ import annotations
 
 import json
 import pathlib
+import sys
 import warnings
 
 import explorer
@@ -44,6 +46,8 @@ def result_json(design) -> str:
 
 
 if __name__ == "__main__":
+    out = pathlib.Path(sys.argv[1]) if len(sys.argv) > 1 else HERE
+    out.mkdir(parents=True, exist_ok=True)
     for name, d in designs().items():
-        (HERE / f"{name}.json").write_text(result_json(d) + "\n")
-        print("wrote", name)
+        (out / f"{name}.json").write_text(result_json(d) + "\n")
+        print("wrote", out / f"{name}.json")
