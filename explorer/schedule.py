@@ -59,7 +59,7 @@ from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_sta
 
 __all__ = ["Schedule", "edge_kinds", "ls_dropped", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
            "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "longest_run",
-           "previous"]
+           "previous", "slot_layout", "slot_edges"]
 
 
 def longest_run(dt, mask, periodic: bool = True) -> float:
@@ -221,15 +221,80 @@ def previous(a: np.ndarray, first=None) -> np.ndarray:
     return out
 
 
+def slot_layout(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, period):
+    """Slot times and SW levels of switching periods, zero-length slots kept: ``(dt, v, full_on, dropped, ls_off)``.
+
+    The one place of the slot rules (module notes): ``[HS][dead][LS][dead]`` from the per-period
+    slot times; light load (:func:`explorer.topology.light_load`) replaces the second dead time by
+    the rest at V_out over ``skip_cycles`` more periods; an LS slot that vanishes puts the HS on for
+    the whole period (``full_on``); an HS pulse shorter than ``t_on_min`` is not given (``dropped``:
+    the period in the LS slot); an LS pulse shorter than ``t_on_min_ls`` is not given either
+    (``ls_off``: SW stays at the first dead-time level). ``dt`` and ``v`` have shape ``(..., 4)``, the
+    masks ``(...)``; every member of a batch keeps its four slots, so arrays of designs line up.
+
+    Parameters
+    ----------
+    t_hs, t_ls, lvl_a, lvl_b : arrays broadcasting together [s], [s], [V], [V]
+    period : float or array broadcasting with them [s]
+        The switching period T.
+    """
+    td = bridge.dead_time
+    shape = np.broadcast(t_hs, t_ls, lvl_a, lvl_b, period).shape
+    dt, v = np.empty(shape + (4,)), np.empty(shape + (4,))
+    dt[..., 0] = t_hs
+    dt[..., 1] = td
+    dt[..., 2] = t_ls
+    dt[..., 3] = td
+    v[..., 0] = bridge.v_bus
+    v[..., 1] = lvl_a
+    v[..., 2] = bridge.v_sw_low
+    v[..., 3] = lvl_b
+    dropped = (dt[..., 0] <= 0.0) | (dt[..., 0] < driver.t_on_min)
+    if light_load(bridge):
+        dt[..., 2] = bridge.ls_pulse
+        dt[..., 3] = np.maximum(period * (1 + bridge.skip_cycles) - dt[..., 0] - dt[..., 1] - dt[..., 2], 0.0)
+        v[..., 3] = bridge.v_out
+        full_on = np.zeros(shape, dtype=bool)
+    else:
+        full_on = dt[..., 2] <= 0.0
+    dropped &= ~full_on
+    ls_off = ls_dropped(dt[..., 2], driver.t_on_min_ls) & ~full_on & ~dropped
+    v[..., 2] = np.where(ls_off, v[..., 1], v[..., 2])
+    for whole, slot in ((full_on, 0), (dropped, 2)):  # the period in one slot, the others empty
+        if whole.any():
+            dt[whole] = 0.0
+            dt[..., slot] = np.where(whole, period, dt[..., slot])
+    return dt, v, full_on, dropped, ls_off
+
+
+def slot_edges(dt, hs) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
+    """HS state, HS turn-ons and HS turn-offs of periodic intervals that may include zero-length ones.
+
+    A zero-length interval takes the state of the last interval of nonzero length before it
+    (cyclically), so only real transitions count: a dropped HS pulse gives none, a whole-period
+    HS on-time gives none, and a zero dead time moves the turn-off to the LS slot's start, the same
+    instant. Shapes ``(..., n)`` like ``dt``; the schedule's own arrays (zero-length intervals
+    dropped) give back ``hs``, ``hs & ~previous(hs)`` and ``~hs & previous(hs)``.
+    """
+    dt = np.asarray(dt, dtype=float)
+    hs = np.broadcast_to(np.asarray(hs, dtype=bool), dt.shape)
+    n = dt.shape[-1]
+    last = np.maximum.accumulate(np.where(dt > 0.0, np.arange(n), -1), axis=-1)
+    last = np.where(last < 0, last[..., -1:], last)  # before the first real interval: the period's last one
+    state = np.take_along_axis(hs, np.maximum(last, 0), axis=-1)
+    prev = previous(state)
+    return state, state & ~prev, ~state & prev
+
+
 def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic: bool,
               pre: float = 0.0, hold=None, hold_words: str = "") -> Schedule:
-    """Build the interval arrays from per-period slot times (vectorised)."""
+    """Build the interval arrays from per-period slot times (vectorised, :func:`slot_layout`)."""
     T = analysis_period(bridge)
     skipping = light_load(bridge)
-    td = bridge.dead_time
     K = t_hs.size
-    full_on = t_ls <= 0.0
-    dropped = (t_hs <= 0.0) | (t_hs < driver.t_on_min)
+    if skipping and bridge.ls_pulse > t_ls.max(initial=0.0):
+        raise DesignError("bridge.ls_pulse", f"must be shorter than the low-side slot "
+                          f"{t_ls.max(initial=0.0):.4g} s", bridge.ls_pulse)
     # flat interval arrays, a low-side pre-charge pulse first where there is one; the periods are a
     # (K, 4) view of the rest, one row per period
     p = 1 if pre > 0.0 else 0
@@ -238,28 +303,7 @@ def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic
     hs_f, on_f = np.zeros(n, dtype=bool), np.zeros(n, dtype=bool)
     cyc_f = np.empty(n, dtype=int)
     dt, v, vh, hs, cyc, on_slot = (x[p:].reshape(K, 4) for x in (dt_f, v_f, vh_f, hs_f, cyc_f, on_f))
-    dt[:, 0] = t_hs
-    dt[:, 1] = td
-    dt[:, 2] = t_ls
-    dt[:, 3] = td
-    v[:, 0] = bridge.v_bus
-    v[:, 1] = lvl_a
-    v[:, 2] = bridge.v_sw_low
-    v[:, 3] = lvl_b
-    if skipping:
-        if bridge.ls_pulse > t_ls.max(initial=0.0):
-            raise DesignError("bridge.ls_pulse", f"must be shorter than the low-side slot "
-                              f"{t_ls.max(initial=0.0):.4g} s", bridge.ls_pulse)
-        span = T * (1 + bridge.skip_cycles)
-        dt[:, 2] = bridge.ls_pulse
-        dt[:, 3] = span - dt[:, 0] - dt[:, 1] - dt[:, 2]
-        v[:, 3] = bridge.v_out
-        full_on = np.zeros(K, dtype=bool)
-    ls_off = ls_dropped(dt[:, 2], driver.t_on_min_ls) & ~full_on & ~dropped
-    v[:, 2] = np.where(ls_off, lvl_a, v[:, 2])
-    # whole-period HS on (LS slot vanished) or HS pulse dropped (too short)
-    dt[full_on] = (T, 0.0, 0.0, 0.0)
-    dt[dropped & ~full_on] = (0.0, 0.0, T, 0.0)
+    dt[:], v[:], _, _, ls_off = slot_layout(bridge, driver, t_hs, t_ls, lvl_a, lvl_b, T)
     hs[:, 0] = True
     cyc[:] = np.arange(K)[:, None]
     duty = dt[:, 0] / (((dt[:, 0] + dt[:, 1]) + dt[:, 2]) + dt[:, 3])  # the period summed in order

@@ -219,3 +219,49 @@ def test_standstill_bounds_a_slow_fundamental_from_the_safe_side():
         a = evaluate_option(slow, slow.options[0]).v_rail.min
         b = evaluate_option(still, still.options[0]).v_rail.min
         assert b <= a + 1e-12
+
+
+@pytest.mark.parametrize("bridge, driver", [
+    ({}, {}),
+    ({"v_out": 0.1}, {"t_on_min": 100e-9}),            # the HS pulse shorter than t_on_min: not given
+    ({"v_out": 47.9}, {}),                               # the LS slot gone: HS on for the whole period
+    ({"dead_time": 0.0}, {}),
+    ({"mode": "light_load", "ls_pulse": 200e-9, "skip_cycles": 2}, {}),
+    ({"topology": "half_bridge", "v_out": None}, {"t_on_min_ls": 2e-6}),  # LS pulses not given either
+])
+def test_slot_layout_with_zero_slots_gives_the_schedule(bridge, driver):
+    # the four-slot layout of one period with its zero-length slots kept (what the vectorised maps use)
+    # is the schedule's own period once those slots are dropped: the same intervals, levels, HS state,
+    # turn-ons and turn-offs (the schedule's rules are the module notes' [EM] slot times)
+    from explorer.design import replace_fields
+    from explorer.schedule import hs_duty_per_period, slot_edges, slot_layout
+    d = design(topology="sync_buck", v_out=12)
+    d = replace_fields(d, {**{f"bridge.{k}": v for k, v in bridge.items()},
+                           **{f"driver.{k}": v for k, v in driver.items()}})
+    s = period_schedule(d)
+    b = d.bridge
+    t_hs, t_ls, la, lb = hs_duty_per_period(b, np.zeros(1, dtype=int), np.ones(1))
+    dt, v, _, _, _ = slot_layout(b, d.driver, t_hs, t_ls, la, lb, 1.0 / b.f_sw)
+    dt, v = dt[0], v[0]
+    hs = np.array([True, False, False, False])
+    on, turn_on, turn_off = slot_edges(dt, hs)
+    keep = dt > 0
+    np.testing.assert_array_equal(dt[keep], s.dt)
+    np.testing.assert_array_equal(v[keep], s.v_sw)
+    np.testing.assert_array_equal(on[keep], s.hs_on)
+    # a transition that falls on a zero-length slot happens at the next slot's start, the same instant
+    t0 = np.concatenate([[0.0], np.cumsum(dt)[:-1]])
+    for mask, ref in ((turn_on, s.hs_turn_on), (turn_off, s.hs_turn_off)):
+        np.testing.assert_allclose(np.sort(t0[mask]), np.sort(s.t_start[ref] - s.t_start[0]), atol=1e-18)
+        assert mask.sum() == ref.sum()
+
+
+def test_slot_edges_fills_zero_length_slots_from_the_last_real_one():
+    # cyclically: a zero-length first slot takes the period's last real state
+    from explorer.schedule import slot_edges
+    dt = np.array([[0.0, 1.0, 0.0, 2.0], [3.0, 0.0, 0.0, 0.0], [1.0, 0.0, 1.0, 1.0]])
+    hs = np.array([True, False, False, False])
+    on, up, down = slot_edges(dt, hs)
+    np.testing.assert_array_equal(on, [[False] * 4, [True] * 4, [True, True, False, False]])
+    np.testing.assert_array_equal(up, [[False] * 4, [False] * 4, [True, False, False, False]])
+    np.testing.assert_array_equal(down, [[False] * 4, [False] * 4, [False, False, True, False]])

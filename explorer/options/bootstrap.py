@@ -68,7 +68,7 @@ from ..loads import charge_per_turn_off, charge_per_turn_on, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
 from ..schedule import (QUASI_STATIC_PERIODS, Schedule, longest_run, ls_dropped, hs_duty_per_period, is_standstill,
-                        nominal_duty, period_schedule, periods_per_fundamental, previous,
+                        nominal_duty, period_schedule, periods_per_fundamental, previous, slot_layout,
                         startup_schedule)
 from ..topology import analysis_frequency, light_load, peak_span, topology_of
 from .details import BootstrapDetails
@@ -751,46 +751,18 @@ def _diode_current(v, loop: Loop, circ: BootstrapCircuit) -> np.ndarray:
 def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period):
     """Interval arrays ``(..., 4·K)`` of K switching periods from per-period slot times.
 
-    Follows the slot layout of :mod:`explorer.schedule` ([HS][dead][LS][dead],
-    an LS slot that vanishes makes the HS on for the whole period, an HS pulse
-    shorter than ``t_on_min`` is dropped, light load replaces the second dead
-    time by the rest at V_out) but keeps zero-length intervals so that every
-    member of a batch has the same interval count.
+    The slot layout of :mod:`explorer.schedule` (:func:`~explorer.schedule.slot_layout`:
+    [HS][dead][LS][dead], an LS slot that vanishes makes the HS on for the whole period, an HS
+    pulse shorter than ``t_on_min`` is dropped, light load replaces the second dead time by the
+    rest at V_out), keeping zero-length intervals so that every member of a batch has the same
+    interval count.
 
     Parameters
     ----------
     t_hs, t_ls, lvl_a, lvl_b : arrays ``(..., K)`` [s], [s], [V], [V]
     period : array broadcasting to ``(..., K)`` [s]
     """
-    b = design.bridge
-    shape = np.broadcast(t_hs, t_ls, lvl_a, lvl_b, period).shape
-    td = b.dead_time
-    dt = np.empty(shape + (4,))
-    dt[..., 0] = t_hs
-    dt[..., 1] = td
-    dt[..., 2] = t_ls
-    dt[..., 3] = td
-    v = np.empty(shape + (4,))
-    v[..., 0] = b.v_bus
-    v[..., 1] = lvl_a
-    v[..., 2] = b.v_sw_low
-    v[..., 3] = lvl_b
-    if light_load(b):
-        span = period * (1 + b.skip_cycles)
-        dt[..., 2] = b.ls_pulse
-        dt[..., 3] = np.maximum(span - dt[..., 0] - td - b.ls_pulse, 0.0)
-        v[..., 3] = b.v_out
-        full_on = np.zeros(shape, dtype=bool)
-    else:
-        full_on = dt[..., 2] <= 0.0
-    t_hs = dt[..., 0]
-    dropped = ((t_hs <= 0.0) | (t_hs < design.driver.t_on_min)) & ~full_on
-    ls_off = ls_dropped(dt[..., 2], design.driver.t_on_min_ls) & ~full_on & ~dropped
-    v[..., 2] = np.where(ls_off, v[..., 1], v[..., 2])
-    for whole, slot in ((full_on, 0), (dropped, 2)):  # the period in one slot, the others empty
-        if whole.any():
-            dt[whole] = 0.0
-            dt[..., slot] = np.where(whole, period, dt[..., slot])
+    dt, v, _, _, _ = slot_layout(design.bridge, design.driver, t_hs, t_ls, lvl_a, lvl_b, period)
     np.maximum(dt, 0.0, out=dt)
     hs = np.zeros(dt.shape, dtype=bool)
     hs[..., 0] = True
