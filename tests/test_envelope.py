@@ -168,6 +168,67 @@ def test_margin_map_vectorised_equals_evaluate():
             assert m.margin[i, j] == pytest.approx(r.v_rail.min - d.driver.uvlo_off, rel=1e-12)
 
 
+#: Invented variants of the demo (an invented scenario) that move the map's slot layout: light load,
+#: the other legs, no R_GS and no level-shifter charge, no dead time.
+MAP_VARIANTS = {
+    "demo": {},
+    "light_load": {"bridge.mode": "light_load", "bridge.ls_pulse": 200e-9, "bridge.skip_cycles": 3},
+    "boost": {"bridge.topology": "sync_boost", "bridge.v_in": 36.0, "bridge.v_out": None},
+    "half_bridge": {"bridge.topology": "half_bridge", "bridge.v_out": None},
+    "no_r_gs_no_q_ls": {"gate.r_gs": None, "driver.q_ls": 0.0},
+    "no_dead_time": {"bridge.dead_time": 0.0},
+}
+
+
+@pytest.mark.filterwarnings("ignore::explorer.errors.ModelValidityWarning")
+@pytest.mark.parametrize("variant", sorted(MAP_VARIANTS))
+def test_pump_and_isolated_margin_maps_equal_evaluate(variant):
+    # the vectorised maps of the pumps and the isolated module are the point evaluation for every grid
+    # point, to rounding: the HS pulse dropped (duty 0.01 at 200 kHz is 50 ns < t_on_min), the HS on for
+    # the whole period (duty 1), the R_GS share in and out. evaluate_option's rail minimum is itself
+    # checked against ngspice (tests/test_netlist.py: test_pumps_against_ngspice,
+    # test_isolated_against_ngspice); this checks that the map is that computation at every point.
+    from explorer.design import replace_fields
+    from explorer.options import supply_model
+    from explorer.sweep import duty_field
+    d = replace_fields(load_design(DEMO), MAP_VARIANTS[variant])
+    f = np.array([30e3, 200e3, 1.5e6])
+    u = np.array([0.0, 0.01, 0.3, 0.8, 0.93, 1.0])
+    compared = 0
+    for k, o in enumerate(d.options):
+        if o.kind == "bootstrap":
+            continue
+        m = margin_map(d, o.label, f, u)
+        assert m.vectorised and m.rail_min.shape == (3, 6)
+        for i in range(f.size):
+            for j in range(u.size):
+                path, value = duty_field(d, u[j], f[i])
+                try:
+                    dd = replace_fields(d, {"bridge.f_sw": f[i], path: value})
+                except DesignError:  # a boost at duty 1 is no design; the map still has a value there
+                    continue
+                r = supply_model(o.kind).evaluate(dd, dd.options[k])
+                assert m.rail_min[i, j] == pytest.approx(r.v_rail.min, rel=1e-12, abs=1e-12), (o.label, f[i], u[j])
+                compared += 1
+    assert compared >= 4 * 10  # the points that are designs (a buck at duty 0 or 1 is none)
+
+
+def test_pump_map_answers_a_large_grid_at_once():
+    # the map of a pump over 200 x 200 points is one batched computation per block, and its rows and
+    # columns are the same computation as a single point (common practice, no source: a batch must not
+    # depend on its neighbours)
+    from explorer.options.charge_pump import rail_min_map
+    d = load_design(DEMO)
+    f = np.geomspace(20e3, 2e6, 200)
+    u = np.linspace(0.0, 1.0, 200)
+    grid = rail_min_map(d, d.options[1], f[:, None], u[None, :])
+    assert grid.shape == (200, 200) and np.isfinite(grid).all()
+    for i, j in ((0, 0), (57, 133), (199, 199), (120, 1)):
+        assert grid[i, j] == pytest.approx(float(rail_min_map(d, d.options[1], f[i], u[j])), rel=1e-13)
+    # more load (higher f_sw: more gate charge per second) never raises the rail at a fixed duty
+    assert (np.diff(grid[:, 100]) <= 1e-12).all()
+
+
 # ----------------------------------------------------------------------------- corners and Monte Carlo
 
 def test_clopper_pearson_reference_values():

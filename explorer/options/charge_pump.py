@@ -88,7 +88,7 @@ from ..loads import charge_per_turn_off, charge_per_turn_on, load_power, require
 from ..memo import memoised
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import longest_run, period_schedule
+from ..schedule import longest_run, period_schedule, slot_edges, slot_layout
 from ..topology import analysis_frequency, frequency_limit_key
 from .details import ChargePumpDetails
 from .base import SupplyModel
@@ -96,7 +96,7 @@ from .base import SupplyModel
 __all__ = ["PumpCircuit", "CIRCUITS", "pump_network", "pump_durations", "phase_duty", "r_ssl", "r_fsl",
            "r_out_exact", "r_out_sqrt", "r_out_limits", "r_out_engine", "rail_from_r_out",
            "pulse_train_extremes", "pulse_schedule_extremes", "pump_validity", "pull_down_sag", "longest_on_time", "evaluate_option",
-           "rail_min_batch"]
+           "rail_min_batch", "rail_min_map"]
 
 PHI1, DEAD1, PHI2, DEAD2 = 0, 1, 2, 3
 
@@ -442,12 +442,14 @@ def pulse_schedule_extremes(t_k, q_k, c_out, r_th, t_a):
 
     Parameters
     ----------
-    t_k : array (m,) [s]
-        Pulse instants within the period, ascending, in [0, t_a).
+    t_k : array (m,) or (..., m) [s]
+        Pulse instants within the period, ascending, in [0, t_a] (leading dimensions: one train per
+        member of a batch). A pulse of zero charge changes nothing (it only adds a point on the
+        monotone relaxation between two others), so trains of a batch may be padded with them.
     q_k : array (..., m) [C]
         Charge of each pulse (leading dimensions: samples).
     c_out, r_th : float or array (...) [F], [Ω]
-    t_a : float [s]
+    t_a : float or array (...) [s]
         Period of the train.
 
     Returns
@@ -464,9 +466,10 @@ def pulse_schedule_extremes(t_k, q_k, c_out, r_th, t_a):
     if t.size == 0:
         z = np.zeros(np.broadcast_shapes(q.shape[:-1], c.shape[:-1]))
         return (0.0, 0.0) if z.ndim == 0 else (z, z)
+    t_a = np.asarray(t_a, dtype=float)[..., None]  # (..., 1): one period per train of a batch
     q_tot = q.sum(axis=-1, keepdims=True)
     a = t_a / tau
-    gap = np.diff(t, prepend=t[-1] - t_a)  # the gap before each pulse, the first one's across the period
+    gap = np.diff(t, prepend=t[..., -1:] - t_a)  # the gap before each pulse, the first one's across the period
     e = np.exp(-gap / tau)
     A, B = affine_scan(*np.broadcast_arrays(e, q))
     w_last = B[..., -1:] / -np.expm1(-a)  # the fixed point after the last pulse (A[..., -1] = e^{-a})
@@ -774,6 +777,21 @@ class _Load:
         return np.where(np.array(self.on_pulse, dtype=bool), np.asarray(q_on, dtype=float)[..., None], self.q_off)
 
 
+def _average_load(design: Design, i_q, q_on, q_off, n_on, n_off, t_on, t_a):
+    """The load's averaged terms over the analysis period: (i0 [A], g_load [S]).
+
+    i0 = I_Q + (n_on·Q_on + n_off·Q_off)/t_a, the pulses' charge as a mean current; g_load =
+    (t_on/t_a)/R_GS, R_GS loading the rail only while the HS is on (0 without R_GS or HS on-time).
+    Plain numbers, or arrays over a grid of designs (:func:`rail_min_map`).
+    """
+    i0 = i_q + (n_on * q_on + n_off * q_off) / t_a
+    r_gs = design.gate.r_gs
+    if np.ndim(t_on) == 0:
+        return i0, ((t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0)
+    g = np.zeros(np.shape(t_on)) if r_gs is None else np.where(t_on > 0, (t_on / t_a) / r_gs, 0.0)
+    return i0, g
+
+
 def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
     """Average load and pulse charge; ``k_q``, ``k_i`` scale Q_G and I_Q per sample (as apply_factors)."""
     t_a = sched.period
@@ -785,9 +803,7 @@ def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
     t_on = float(sched.dt[sched.hs_on].sum())
     n_off = int(np.count_nonzero(turn_off))
     q_off = charge_per_turn_off(design)  # the level shifter's reset pulse at each turn-off
-    i0 = i_q + (n_on * q_pulse + n_off * q_off) / t_a
-    r_gs = design.gate.r_gs
-    g_load = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
+    i0, g_load = _average_load(design, i_q, q_pulse, q_off, n_on, n_off, t_on, t_a)
     # the pulses where the schedule places them: set pulse (Q_G + Q_LS) at each turn-on, reset pulse at each
     # turn-off (left out when Q_LS = 0)
     off = turn_off if q_off > 0 else np.zeros_like(on)
@@ -1317,6 +1333,119 @@ def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndar
     return np.asarray(_rail_bounds(sol, pump, load, r_out)["v_min"], dtype=float).reshape(n)
 
 
+#: Design points per engine call in :func:`rail_min_map`.
+_MAP_BLOCK = 8192
+
+
+def rail_min_map(design: Design, option: ChargePumpOption, f_sw, duty, *, corner: str = "nominal") -> np.ndarray:
+    """Steady-state rail minimum over a grid of switching frequency × HS duty [V].
+
+    Each point is one switching period with the HS on for ``duty``·T, laid out by the schedule's slot
+    rules (:func:`explorer.schedule.slot_layout`, as the bootstrap's map: dead times, an HS pulse
+    shorter than ``t_on_min`` not given, a whole-period HS on-time, light load), held for ever (the
+    standstill case of a three-phase leg). What a point's :func:`evaluate_option` computes for that
+    period, for all points at once: the load's mean current and R_GS share
+    (:func:`_average_load`), the pump's periodic steady state (:func:`_orbit_minima`: one network per
+    distinct R_GS share, every point's load current in one batch), and the exact pulse-train dip of
+    the turn-on and turn-off pulses at their instants (:func:`pulse_schedule_extremes`, one train per
+    point). R_out does not depend on the bridge and is solved once.
+
+    Parameters
+    ----------
+    f_sw : array_like [Hz]
+    duty : array_like [-]
+        HS on-time share of the period, 0…1; broadcasts with ``f_sw``.
+
+    Returns
+    -------
+    ndarray [V], shape of ``broadcast(f_sw, duty)``
+
+    Examples
+    --------
+    >>> from explorer import demo_design
+    >>> d = demo_design()
+    >>> rail_min_map(d, d.options[1], [100e3, 200e3], [[0.5], [0.9]]).shape
+    (2, 2)
+    """
+    if not isinstance(option, ChargePumpOption):
+        raise DesignError("option", "expected a charge_pump option", type(option).__name__)
+    b, drv = design.bridge, design.driver
+    pump = resolve_pump(design, option, corner)
+    r_out, _ = r_out_engine(pump.f_cp, pump.c_fly, pump.r_on, ratio=pump.circ.ratio,
+                            dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
+    shape = np.broadcast(f_sw, duty).shape
+    T = 1.0 / np.broadcast_to(np.asarray(f_sw, dtype=float), shape).reshape(-1)
+    t_hs = np.clip(np.broadcast_to(np.asarray(duty, dtype=float), shape).reshape(-1), 0.0, 1.0) * T
+    dt = np.maximum(slot_layout(b, drv, t_hs, T - t_hs - 2 * b.dead_time, 0.0, 0.0, T)[0], 0.0)
+    hs = np.zeros(dt.shape, dtype=bool)
+    hs[:, 0] = True
+    on, turn_on, turn_off = slot_edges(dt, hs)
+    t_a = dt.sum(axis=-1)
+    q_on, q_off = charge_per_turn_on(design), charge_per_turn_off(design)
+    i0, g = _average_load(design, drv.i_q, q_on, q_off, turn_on.sum(axis=-1), turn_off.sum(axis=-1),
+                          np.where(on, dt, 0.0).sum(axis=-1), t_a)
+    loaded = g > 0
+    r_eq = 1.0 / np.where(loaded, g, 1.0)  # the R_GS share as a resistor where there is one
+    lo = _orbit_minima(pump, r_eq, loaded, i0)
+    r_th = np.where(loaded, r_out * r_eq / (r_out + r_eq), r_out)  # R_out ∥ R_eq, as _rail_bounds
+    t_k = np.concatenate([np.zeros((t_a.size, 1)), np.cumsum(dt[:, :-1], axis=-1)], axis=-1)
+    q_k = np.where(turn_on, q_on, np.where(turn_off, q_off, 0.0))  # zero-charge pulses change nothing
+    y_min = np.empty(t_a.size)
+    for a in range(0, t_a.size, _MAP_BLOCK):
+        j = slice(a, a + _MAP_BLOCK)
+        y_min[j] = pulse_schedule_extremes(t_k[j], q_k[j], pump.c_out, r_th[j], t_a[j])[0]
+    return (lo + y_min).reshape(shape)
+
+
+def _orbit_minima(pump: _Pump, r_eq: np.ndarray, loaded: np.ndarray, i0: np.ndarray) -> np.ndarray:
+    """Minimum of v(out) over the pump's periodic orbit at each point [V]: load current ``i0`` [A], plus a
+    resistor ``r_eq`` [Ω] where ``loaded``.
+
+    The network depends on the point only through ``r_eq``, so there is one network per distinct value
+    (a grid over f_sw × duty has about one per duty) and the points that share it are one batch of
+    inputs (``u`` of shape (networks, points, 2), short groups padded with repeats); the points without
+    a resistor share one network without it.
+    """
+    circ = pump.circ
+
+    def net(r_load):
+        return pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
+                            c_out=pump.c_out, esr_out=pump.esr_out, r_load=r_load)
+
+    def minima(n, u):
+        return periodic_steady_state(n, pump.durations, u).extrema(["v(out)"])[0][..., 0]
+
+    v_in = float(pump.v_in)
+    lo = np.empty(i0.size)
+    free = np.flatnonzero(~loaded)
+    if free.size:
+        n0 = net(None)
+        for a in range(0, free.size, _MAP_BLOCK):
+            k = free[a:a + _MAP_BLOCK]
+            lo[k] = minima(n0, np.stack([np.full(k.size, v_in), i0[k]], axis=-1))
+    idx = np.flatnonzero(loaded)
+    if idx.size:
+        values, group = np.unique(r_eq[idx], return_inverse=True)
+        order = np.argsort(group, kind="stable")
+        idx, group = idx[order], group[order]
+        counts = np.bincount(group, minlength=values.size)
+        starts = np.concatenate([[0], np.cumsum(counts)])
+        pos = np.arange(idx.size) - starts[group]
+        g0 = 0
+        while g0 < values.size:  # groups of networks with at most _MAP_BLOCK padded points each
+            g1 = g0 + 1
+            while g1 < values.size and (g1 + 1 - g0) * counts[g0:g1 + 1].max() <= _MAP_BLOCK:
+                g1 += 1
+            sel = slice(starts[g0], starts[g1])
+            width = int(counts[g0:g1].max())
+            cur = np.repeat(i0[idx[starts[g0:g1]]][:, None], width, axis=1)  # padding: the group's first point
+            cur[group[sel] - g0, pos[sel]] = i0[idx[sel]]
+            u = np.stack([np.full(cur.shape, v_in), cur], axis=-1)
+            lo[idx[sel]] = minima(net(values[g0:g1, None]), u)[group[sel] - g0, pos[sel]]
+            g0 = g1
+    return lo
+
+
 # --------------------------------------------------------------------------- the family's model
 
 class ChargePumpModel(SupplyModel):
@@ -1332,6 +1461,7 @@ class ChargePumpModel(SupplyModel):
 
     evaluate = staticmethod(evaluate_option)
     rail_min_batch = staticmethod(rail_min_batch)
+    rail_min_map = staticmethod(rail_min_map)
 
     def apply_factors(self, design, option, factors):
         """Each capacitor at its own factor (``k_c`` for C_fly, ``k_out`` for C_out); own input rail × ``v_dd``."""

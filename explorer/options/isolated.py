@@ -64,14 +64,14 @@ from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, load_charge, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import Schedule, period_schedule, previous
+from ..schedule import Schedule, period_schedule, previous, slot_edges, slot_layout
 from ..topology import analysis_frequency, frequency_limit_key
 from .details import IsolatedDetails
 from .base import SupplyModel
 
 __all__ = ["ISO_HEADROOM", "INSULATION_STATEMENT", "loss_coefficient", "module_input_power",
            "module_efficiency", "optimum_load", "RailSolution", "output_rail", "startup_voltage",
-           "time_to_level", "ramp_inrush", "evaluate_option", "rail_min_batch"]
+           "time_to_level", "ramp_inrush", "evaluate_option", "rail_min_batch", "rail_min_map"]
 
 #: Isolation working voltage wanted above the peak voltage across the barrier
 #: before no warning is given [-] (common practice, no source: it leaves room for
@@ -484,15 +484,27 @@ class _OutputRail:
     v_max: float
 
 
+def _option_path(design: Design, option: IsolatedOption) -> str:
+    """The design-file path of the option (``options[i]``), for error messages."""
+    idx = next((i for i, o in enumerate(design.options) if o is option or o == option), None)
+    return f"options[{idx}]" if idx is not None else "option"
+
+
+def _c_out_eff(option: IsolatedOption, v_src: float, corner: str, path: str) -> float:
+    """Effective C_out at the module's output voltage and the capacitance corner [F]."""
+    cap = option.c_out
+    diel = parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric")
+    return float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=diel, v_applied=v_src,
+                             v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
+
+
 def _steady_rail(design: Design, option: IsolatedOption, sched: Schedule, path: str, corner: str,
                  warn: list) -> _OutputRail:
     """Steady state: effective C_out and the rail over the analysis period (a collapse is warned)."""
     drv = design.driver
     cap = option.c_out
-    diel = parse_dielectric(cap.dielectric, f"{path}.c_out.dielectric")
     v_src = module_output(design, option)
-    c_eff = float(capacitance(cap.c, c_tol=cap.c_tol, dielectric=diel, v_applied=v_src,
-                              v_rating=cap.v_rating, dc_bias=cap.dc_bias, corner=corner))
+    c_eff = _c_out_eff(option, v_src, corner, path)
     q_on = charge_per_turn_on(design)
     rail = output_rail(sched.dt, sched.hs_on, sched.hs_turn_on, v_src=v_src, r_out=option.r_out,
                        c_out=c_eff, q_pulse=q_on, i_q=drv.i_q, r_gs=design.gate.r_gs,
@@ -685,8 +697,7 @@ def evaluate_option(design: Design, option: IsolatedOption, *, corner: str = "no
     if not isinstance(option, IsolatedOption):
         raise DesignError("option", "the isolated model needs an option of kind 'isolated'",
                           getattr(option, "kind", option))
-    idx = next((i for i, o in enumerate(design.options) if o is option or o == option), None)
-    path = f"options[{idx}]" if idx is not None else "option"
+    path = _option_path(design, option)
     warn: list[str] = []
     sched = period_schedule(design)
     out = _steady_rail(design, option, sched, path, corner, warn)
@@ -747,6 +758,55 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
     return out
 
 
+#: Design points per block in :func:`rail_min_map`.
+_MAP_BLOCK = 8192
+
+
+def rail_min_map(design: Design, option: IsolatedOption, f_sw, duty, *, corner: str = "nominal") -> np.ndarray:
+    """Steady-state rail minimum over a grid of switching frequency × HS duty [V].
+
+    Each point is one switching period with the HS on for ``duty``·T, laid out by the schedule's slot
+    rules (:func:`explorer.schedule.slot_layout`, as the other models' maps), held for ever (the
+    standstill case of a three-phase leg): the periodic orbit of :func:`output_rail` for every point
+    at once (:func:`output_rail_min` over intervals of one period per point). A collapsing rail reads
+    0 V, as in :func:`evaluate_option`.
+
+    Parameters
+    ----------
+    f_sw : array_like [Hz]
+    duty : array_like [-]
+        HS on-time share of the period, 0…1; broadcasts with ``f_sw``.
+
+    Examples
+    --------
+    >>> from explorer import demo_design
+    >>> d = demo_design()
+    >>> rail_min_map(d, d.options[4], [100e3, 200e3], [[0.5], [0.9]]).shape
+    (2, 2)
+    """
+    if not isinstance(option, IsolatedOption):
+        raise DesignError("option", "the isolated model needs an option of kind 'isolated'",
+                          getattr(option, "kind", option))
+    b, drv = design.bridge, design.driver
+    v_src = module_output(design, option)
+    c_eff = _c_out_eff(option, v_src, corner, _option_path(design, option))
+    shape = np.broadcast(f_sw, duty).shape
+    f_flat = np.broadcast_to(np.asarray(f_sw, dtype=float), shape).reshape(-1)
+    h_flat = np.clip(np.broadcast_to(np.asarray(duty, dtype=float), shape).reshape(-1), 0.0, 1.0)
+    out = np.empty(f_flat.size)
+    for a in range(0, f_flat.size, _MAP_BLOCK):
+        T = 1.0 / f_flat[a:a + _MAP_BLOCK]
+        t_hs = h_flat[a:a + _MAP_BLOCK] * T
+        dt = np.maximum(slot_layout(b, drv, t_hs, T - t_hs - 2 * b.dead_time, 0.0, 0.0, T)[0], 0.0)
+        hs = np.zeros(dt.shape, dtype=bool)
+        hs[:, 0] = True
+        on, turn_on, _ = slot_edges(dt, hs)
+        out[a:a + _MAP_BLOCK] = output_rail_min(dt, on, turn_on, v_src=v_src, r_out=option.r_out, c_out=c_eff,
+                                                q_pulse=charge_per_turn_on(design), i_q=drv.i_q,
+                                                r_gs=design.gate.r_gs, q_off=charge_per_turn_off(design))
+    return np.maximum(out, 0.0).reshape(shape)
+
+
 # --------------------------------------------------------------------------- the family's model
 
 class IsolatedModel(SupplyModel):
@@ -759,6 +819,7 @@ class IsolatedModel(SupplyModel):
 
     evaluate = staticmethod(evaluate_option)
     rail_min_batch = staticmethod(rail_min_batch)
+    rail_min_map = staticmethod(rail_min_map)
 
     def apply_factors(self, design, option, factors):
         """C_out × ``k_c`` (class applied); the module's own input rail × ``v_dd``."""
