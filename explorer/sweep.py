@@ -71,8 +71,10 @@ def duty_field(design: Design, duty: float, f_sw: float | None = None) -> tuple[
 
     A buck's HS is on D·T (v_out = D·η·v_bus); a boost's rectifier is on
     (1 − D)·T − 2·t_dead (v_in = (h + 2·t_dead·f_sw)·v_bus/η); a bridge leg's HS
-    is on d·T − t_dead (d = h + t_dead·f_sw); a three-phase leg's crest duty is
-    ½(1 + m) (m = 2·h − 1, the standstill angle). The rule is the topology table's
+    is on d·T − t_dead (d = h + t_dead·f_sw); a three-phase leg's period at the
+    standstill crest angle likewise, through the modulation index m that gives that
+    crest duty for its PWM scheme (:func:`explorer.topology._three_phase_setting`;
+    the clamped schemes hold that period at the rail for any m). The rule is the topology table's
     (:attr:`explorer.topology.Topology.duty_setting`); see :mod:`explorer.schedule`.
     """
     b = design.bridge

@@ -20,6 +20,7 @@ functions take a ``Bridge``.
 from __future__ import annotations
 
 from dataclasses import dataclass
+from types import SimpleNamespace
 from typing import Callable
 
 import numpy as np
@@ -269,6 +270,29 @@ def _three_phase_slots(b, k, ramp, T):
     return d * T - td, (1 - d) * T - td, lvl, lvl
 
 
+def _crest_reference(b, m: float) -> float:
+    """The reference u of phase a at the crest angle (:func:`_crest_angle`) for modulation index ``m``."""
+    like = SimpleNamespace(m=m, pwm=getattr(b, "pwm", "sine"), third_harmonic=b.third_harmonic)
+    return float(modulation(like, np.array([_crest_angle(b)]), 1.0)[0])
+
+
+def _three_phase_setting(b, h, f):
+    """The modulation index m that puts the HS on-time share of the standstill crest period at ``h``.
+
+    The crest period's HS is on d·T − t_dead with d = ½(1 + u), u the reference at the crest angle
+    (:func:`_three_phase_slots`), so d = h + t_dead·f, as for a full-bridge leg. u is affine in m at
+    the crest for the continuous schemes: m for sine PWM, m·√3/2 with third-harmonic injection and
+    for space-vector PWM (their crest at 60°; Holmes & Lipo 2003, ch. 6), 1.5·m − 1 for dpwm120_bottom;
+    so m = (2·d − 1 − u(0))/(u(1) − u(0)). The clamped schemes (dpwm60, dpwm120_top) hold the crest
+    at the rail for any m > 0: no m moves that period, and m = 2·d − 1 is kept as their setting.
+    """
+    u0, u1 = _crest_reference(b, 0.0), _crest_reference(b, 1.0)
+    target = 2.0 * (h + b.dead_time * f) - 1.0
+    if getattr(b, "pwm", "sine") in ("dpwm60", "dpwm120_top"):
+        return target
+    return (target - u0) / (u1 - u0)
+
+
 def _three_phase_check(b, path):
     if b.f_o and b.f_o * 2 > b.f_sw:
         raise DesignError(f"{path}.f_o", f"must be below half the switching frequency "
@@ -353,7 +377,7 @@ TOPOLOGY = {t.name: t for t in (
     Topology("full_bridge", ("duty",), lambda b: b.duty, _full_slots, "bridge.duty",
              lambda b, h, f: h + b.dead_time * f, _bridge_duty_limit),
     Topology("three_phase", ("m", "f_o"), _three_phase_duty, _three_phase_slots, "bridge.m",
-             lambda b, h, f: 2.0 * h - 1.0, None, fundamental=True, check=_three_phase_check),
+             _three_phase_setting, None, fundamental=True, check=_three_phase_check),
     Topology("line_leg", ("f_line",), _half_duty, _line_slots, "bridge.duty",
              lambda b, h, f: h + b.dead_time * b.f_line,
              lambda b, h, T, ok: {"passes": ok, "f_line": b.f_line}, line_frequency=True, soft_start=False,
@@ -396,8 +420,8 @@ def operating_share(bridge, f_sw: float | None = None) -> float:
 
     The inverse of :attr:`Topology.duty_setting` (linear in the share for every topology) at the
     current value of :attr:`Topology.duty_field`, so it is the coordinate of the design on the
-    sweep's ``"duty"`` axis (the margin map's duty axis; for three_phase the standstill crest,
-    ½(1 + m)).
+    sweep's ``"duty"`` axis (the margin map's duty axis; for three_phase the HS share of the
+    standstill crest period, :func:`_three_phase_setting`).
     """
     topo = TOPOLOGY[bridge.topology]
     f = bridge.f_sw if f_sw is None else f_sw

@@ -322,7 +322,10 @@ def test_margin_map_three_phase(comparisons):
     m = margin_map(d, "bootstrap 220n", np.array([10e3, 20e3, 40e3]), np.array([0.9, 0.99, 0.999, 1.0]))
     p = plots.margin_map_plot(m, d)
     np.testing.assert_array_equal(p.sources["cells"].data["margin"], m.margin.ravel())
-    assert list(p.sources["design"].data["duty"]) == [pytest.approx(0.5 * (1 + 0.9))]  # crest ½(1 + m)
+    # the design's mark is its HS on-time share at the crest: d·T − t_dead with d = ½(1 + m) (Mohan,
+    # Undeland & Robbins 2003, ch. 8, sine PWM), the same axis as the map's
+    b = d.bridge
+    assert list(p.sources["design"].data["duty"]) == [pytest.approx(0.5 * (1 + 0.9) - b.dead_time * b.f_sw)]
 
 
 def test_monte_carlo_sources_are_the_histogram(comparisons):

@@ -265,3 +265,27 @@ def test_slot_edges_fills_zero_length_slots_from_the_last_real_one():
     np.testing.assert_array_equal(on, [[False] * 4, [True] * 4, [True, True, False, False]])
     np.testing.assert_array_equal(up, [[False] * 4, [False] * 4, [True, False, False, False]])
     np.testing.assert_array_equal(down, [[False] * 4, [False] * 4, [False, False, True, False]])
+
+
+@pytest.mark.parametrize("pwm, third", [("sine", False), ("sine", True), ("svpwm", False), ("dpwm120_bottom", False)])
+@pytest.mark.parametrize("f_sw", [20e3, 1e6])
+def test_duty_alias_sets_the_three_phase_hs_share_at_standstill(pwm, third, f_sw):
+    # the sweep's "duty" axis means the HS on-time share of the period for every topology; for a
+    # three-phase leg at standstill that is the crest period, HS on d·T − t_dead with d = ½(1 + u) [MUR],
+    # u = m at the crest of sine PWM and m·√3/2 with a sixth third harmonic [HL] or space-vector PWM
+    # (Holmes & Lipo 2003, ch. 6), so the alias must count the dead time (t_dead·f = 4 % at 1 MHz) and
+    # the crest factor
+    from explorer.design import replace_fields
+    from explorer.sweep import duty_field
+    from explorer.topology import operating_share
+    d = replace_fields(design(topology="three_phase", m=0.5, f_o=0.0, f_sw=f_sw, v_out=None),
+                       {"bridge.pwm": pwm, "bridge.third_harmonic": third, "bridge.dead_time": 40e-9})
+    for h in (0.6, 0.75, 0.9):  # a crest duty above ½ (m ≥ 0)
+        path, value = duty_field(d, h)
+        dh = replace_fields(d, {path: value})
+        s = period_schedule(dh)
+        assert float(s.dt[s.hs_on].sum() / s.period) == pytest.approx(h, rel=1e-12)
+        assert operating_share(dh.bridge) == pytest.approx(h, rel=1e-12)
+    if third or pwm == "svpwm":  # the crest factor √3/2 [HL]: m = 1 puts the crest duty at ½(1 + √3/2)
+        path, value = duty_field(d, 0.5 * (1 + np.sqrt(3) / 2) - 40e-9 * f_sw)
+        assert value == pytest.approx(1.0, rel=1e-12)
