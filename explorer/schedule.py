@@ -221,7 +221,7 @@ def previous(a: np.ndarray, first=None) -> np.ndarray:
     return out
 
 
-def slot_layout(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, period):
+def slot_layout(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, period, v_rest=None):
     """Slot times and SW levels of switching periods, zero-length slots kept: ``(dt, v, full_on, dropped, ls_off)``.
 
     The one place of the slot rules (module notes): ``[HS][dead][LS][dead]`` from the per-period
@@ -237,6 +237,9 @@ def slot_layout(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, period
     t_hs, t_ls, lvl_a, lvl_b : arrays broadcasting together [s], [s], [V], [V]
     period : float or array broadcasting with them [s]
         The switching period T.
+    v_rest : float or array broadcasting with them [V], optional
+        SW's rest level in light load (default ``bridge.v_out``; a grid over a buck's duty rests at
+        each point's own V_out).
     """
     td = bridge.dead_time
     shape = np.broadcast(t_hs, t_ls, lvl_a, lvl_b, period).shape
@@ -253,7 +256,7 @@ def slot_layout(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, period
     if light_load(bridge):
         dt[..., 2] = bridge.ls_pulse
         dt[..., 3] = np.maximum(period * (1 + bridge.skip_cycles) - dt[..., 0] - dt[..., 1] - dt[..., 2], 0.0)
-        v[..., 3] = bridge.v_out
+        v[..., 3] = bridge.v_out if v_rest is None else v_rest
         full_on = np.zeros(shape, dtype=bool)
     else:
         full_on = dt[..., 2] <= 0.0

@@ -748,7 +748,7 @@ def _diode_current(v, loop: Loop, circ: BootstrapCircuit) -> np.ndarray:
 
 # --------------------------------------------------------------------------- duty sweeps
 
-def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period):
+def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period, v_rest=None):
     """Interval arrays ``(..., 4·K)`` of K switching periods from per-period slot times.
 
     The slot layout of :mod:`explorer.schedule` (:func:`~explorer.schedule.slot_layout`:
@@ -761,8 +761,10 @@ def duty_slots(design: Design, t_hs, t_ls, lvl_a, lvl_b, period):
     ----------
     t_hs, t_ls, lvl_a, lvl_b : arrays ``(..., K)`` [s], [s], [V], [V]
     period : array broadcasting to ``(..., K)`` [s]
+    v_rest : array broadcasting to ``(..., K)`` [V], optional
+        Light load's rest level (default the design's V_out).
     """
-    dt, v, _, _, _ = slot_layout(design.bridge, design.driver, t_hs, t_ls, lvl_a, lvl_b, period)
+    dt, v, _, _, _ = slot_layout(design.bridge, design.driver, t_hs, t_ls, lvl_a, lvl_b, period, v_rest)
     np.maximum(dt, 0.0, out=dt)
     hs = np.zeros(dt.shape, dtype=bool)
     hs[..., 0] = True
@@ -833,10 +835,14 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
     out = np.empty(n_pts)
     parts = []
     g_flat = None if v_guess is None else np.reshape(np.asarray(v_guess, dtype=float), (n_pts, -1))
+    # a light-load buck rests at V_out, which is the duty variable: each point at its own
+    rest = light_load(design.bridge)
     for a in range(0, max(n_pts, 1), _MAP_BLOCK):  # blocks keep the temporaries in cache
         T = 1.0 / f_flat[a:a + _MAP_BLOCK, None]
-        t_hs = h_flat[a:a + _MAP_BLOCK, None] * T
-        dt, v, hs = duty_slots(design, t_hs, T - t_hs - 2 * td, la, lb, T)
+        h = h_flat[a:a + _MAP_BLOCK, None]
+        t_hs = h * T
+        v_rest = topology_of(design.bridge).duty_setting(design.bridge, h, 1.0 / T) if rest else None
+        dt, v, hs = duty_slots(design, t_hs, T - t_hs - 2 * td, la, lb, T, v_rest)
         loop = _bc(schedule_loop(circ, dt, v, hs, periodic=True))
         orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
                           g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
