@@ -552,7 +552,9 @@ class AnalysisPanel(W.VBox):
     0.05 to 0.98); the Monte Carlo draws :data:`MC_SAMPLES` samples over the design's spreads (seed 1).
     """
 
-    MAP_POINTS = 15
+    #: Points per axis of the margin map: every option kind has a vectorised map (41 × 41 points take
+    #: milliseconds; docs/performance.md).
+    MAP_POINTS = 41
     MC_SAMPLES = 2000
 
     def __init__(self, design):
