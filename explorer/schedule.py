@@ -59,7 +59,7 @@ from .topology import (QUASI_STATIC_PERIODS, analysis_period, hold_level, is_sta
 
 __all__ = ["Schedule", "edge_kinds", "ls_dropped", "period_schedule", "startup_schedule", "nominal_duty", "hs_duty_per_period",
            "schedule_validity", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "longest_run",
-           "previous", "slot_layout", "slot_edges"]
+           "previous", "slot_layout", "slot_edges", "map_periods"]
 
 
 def longest_run(dt, mask, periodic: bool = True) -> float:
@@ -287,6 +287,22 @@ def slot_edges(dt, hs) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     state = np.take_along_axis(hs, np.maximum(last, 0), axis=-1)
     prev = previous(state)
     return state, state & ~prev, ~state & prev
+
+
+def map_periods(bridge: Bridge, driver: Driver, f_sw, duty) -> tuple[np.ndarray, ...]:
+    """One switching period per point of a margin map: ``(dt, hs_on, turn_on, turn_off)``, each ``(n, 4)``.
+
+    ``f_sw`` [Hz] and ``duty`` (the HS on-time share, clipped to 0…1) are flat arrays of the points;
+    the period is ``[HS duty·T][dead][LS][dead]`` under the slot rules (:func:`slot_layout`, zero-length
+    slots kept) with the HS state and its real transitions (:func:`slot_edges`). SW levels are left
+    out (the models that need them lay out their own, with their levels).
+    """
+    T = 1.0 / np.asarray(f_sw, dtype=float)
+    t_hs = np.clip(np.asarray(duty, dtype=float), 0.0, 1.0) * T
+    dt = np.maximum(slot_layout(bridge, driver, t_hs, T - t_hs - 2 * bridge.dead_time, 0.0, 0.0, T)[0], 0.0)
+    hs = np.zeros(dt.shape, dtype=bool)
+    hs[..., 0] = True
+    return (dt, *slot_edges(dt, hs))
 
 
 def _assemble(bridge: Bridge, driver: Driver, t_hs, t_ls, lvl_a, lvl_b, periodic: bool,

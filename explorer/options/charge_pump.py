@@ -88,7 +88,7 @@ from ..loads import charge_per_turn_off, charge_per_turn_on, load_power, require
 from ..memo import memoised
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import longest_run, period_schedule, slot_edges, slot_layout
+from ..schedule import longest_run, map_periods, period_schedule
 from ..topology import analysis_frequency, frequency_limit_key
 from .details import ChargePumpDetails
 from .base import SupplyModel
@@ -1374,12 +1374,8 @@ def rail_min_map(design: Design, option: ChargePumpOption, f_sw, duty, *, corner
     r_out, _ = r_out_engine(pump.f_cp, pump.c_fly, pump.r_on, ratio=pump.circ.ratio,
                             dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
     shape = np.broadcast(f_sw, duty).shape
-    T = 1.0 / np.broadcast_to(np.asarray(f_sw, dtype=float), shape).reshape(-1)
-    t_hs = np.clip(np.broadcast_to(np.asarray(duty, dtype=float), shape).reshape(-1), 0.0, 1.0) * T
-    dt = np.maximum(slot_layout(b, drv, t_hs, T - t_hs - 2 * b.dead_time, 0.0, 0.0, T)[0], 0.0)
-    hs = np.zeros(dt.shape, dtype=bool)
-    hs[:, 0] = True
-    on, turn_on, turn_off = slot_edges(dt, hs)
+    dt, on, turn_on, turn_off = map_periods(b, drv, np.broadcast_to(np.asarray(f_sw, dtype=float), shape).ravel(),
+                                            np.broadcast_to(np.asarray(duty, dtype=float), shape).ravel())
     t_a = dt.sum(axis=-1)
     q_on, q_off = charge_per_turn_on(design), charge_per_turn_off(design)
     i0, g = _average_load(design, drv.i_q, q_on, q_off, turn_on.sum(axis=-1), turn_off.sum(axis=-1),

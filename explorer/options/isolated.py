@@ -64,7 +64,7 @@ from ..errors import DesignError, ModelValidityWarning
 from ..loads import charge_per_turn_off, charge_per_turn_on, load_charge, load_power, required_rail
 from ..results import (CapacitorStress, Check, DutyLimits, OptionResult, RailStats, Startup, cap_voltage_check,
                        rail_max_v_bs_check, rail_max_v_gs_check, rail_min_check, startup_uvlo_check, verdict_from)
-from ..schedule import Schedule, period_schedule, previous, slot_edges, slot_layout
+from ..schedule import Schedule, map_periods, period_schedule, previous
 from ..topology import analysis_frequency, frequency_limit_key
 from .details import IsolatedDetails
 from .base import SupplyModel
@@ -791,16 +791,11 @@ def rail_min_map(design: Design, option: IsolatedOption, f_sw, duty, *, corner: 
     v_src = module_output(design, option)
     c_eff = _c_out_eff(option, v_src, corner, _option_path(design, option))
     shape = np.broadcast(f_sw, duty).shape
-    f_flat = np.broadcast_to(np.asarray(f_sw, dtype=float), shape).reshape(-1)
-    h_flat = np.clip(np.broadcast_to(np.asarray(duty, dtype=float), shape).reshape(-1), 0.0, 1.0)
+    f_flat = np.broadcast_to(np.asarray(f_sw, dtype=float), shape).ravel()
+    h_flat = np.broadcast_to(np.asarray(duty, dtype=float), shape).ravel()
     out = np.empty(f_flat.size)
     for a in range(0, f_flat.size, _MAP_BLOCK):
-        T = 1.0 / f_flat[a:a + _MAP_BLOCK]
-        t_hs = h_flat[a:a + _MAP_BLOCK] * T
-        dt = np.maximum(slot_layout(b, drv, t_hs, T - t_hs - 2 * b.dead_time, 0.0, 0.0, T)[0], 0.0)
-        hs = np.zeros(dt.shape, dtype=bool)
-        hs[:, 0] = True
-        on, turn_on, _ = slot_edges(dt, hs)
+        dt, on, turn_on, _ = map_periods(b, drv, f_flat[a:a + _MAP_BLOCK], h_flat[a:a + _MAP_BLOCK])
         out[a:a + _MAP_BLOCK] = output_rail_min(dt, on, turn_on, v_src=v_src, r_out=option.r_out, c_out=c_eff,
                                                 q_pulse=charge_per_turn_on(design), i_q=drv.i_q,
                                                 r_gs=design.gate.r_gs, q_off=charge_per_turn_off(design))
