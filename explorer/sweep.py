@@ -449,10 +449,11 @@ def margin_map(design, label: str, f_sw, duty) -> MarginMap:
     """Steady-state rail margin (rail minimum − uvlo_off) over f_sw × HS duty.
 
     ``duty`` is the HS on-time share of the switching period. Uses the option
-    model's vectorised ``rail_min_map`` when it has one (the bootstrap does: one
-    batched periodic solve for the whole grid), else the general :func:`sweep`
-    with the ``"duty"`` alias. Each point is one switching period held for ever
-    (for three_phase: the standstill case).
+    model's vectorised ``rail_min_map`` when it has one (the bootstrap, the charge
+    pumps and the isolated module do: the whole grid in batched solves, equal to
+    ``evaluate`` at each point), else the general :func:`sweep` with the ``"duty"``
+    alias. Each point is one switching period held for ever (for three_phase: the
+    standstill case).
     """
     d = load_design(design)
     opt = d.option(label)
