@@ -35,7 +35,7 @@ from .design import Design, check_value, load_design, replace_fields, spec_at, s
 from .errors import DesignError
 from .loads import required_rail
 from .options import supply_model
-from .topology import topology_of
+from .topology import analysis_frequency, topology_of
 from .units import format_eng
 
 __all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "temperature_fields", "margin_map", "MarginMap"]
@@ -69,6 +69,9 @@ FIGURES: dict[str, Callable] = {
 def duty_field(design: Design, duty: float, f_sw: float | None = None) -> tuple[str, float]:
     """The design field and value that make the HS on-time share of the period equal ``duty``.
 
+    ``f_sw`` is the leg's own switching frequency (default the design's: f_sw, or f_line for a leg
+    that switches at line frequency, :func:`explorer.topology.analysis_frequency`).
+
     A buck's HS is on D·T (v_out = D·η·v_bus); a boost's rectifier is on
     (1 − D)·T − 2·t_dead (v_in = (h + 2·t_dead·f_sw)·v_bus/η); a bridge leg's HS
     is on d·T − t_dead (d = h + t_dead·f_sw); a three-phase leg's period at the
@@ -79,7 +82,7 @@ def duty_field(design: Design, duty: float, f_sw: float | None = None) -> tuple[
     """
     b = design.bridge
     topo = topology_of(b)
-    return topo.duty_field, topo.duty_setting(b, duty, b.f_sw if f_sw is None else f_sw)
+    return topo.duty_field, topo.duty_setting(b, duty, analysis_frequency(b) if f_sw is None else f_sw)
 
 
 @dataclass(frozen=True)
@@ -140,9 +143,10 @@ def _point(design: Design, assignments) -> Design:
     for path, value in assignments:
         if path == "temperature":
             changes.update(temperature_fields(design, float(value)))
+    leg_f = "bridge.f_line" if topology_of(design.bridge).line_frequency else "bridge.f_sw"
     for path, value in assignments:
-        if path == "duty":
-            f = changes.get("bridge.f_sw", design.bridge.f_sw)
+        if path == "duty":  # at the point's own leg frequency
+            f = changes.get(leg_f, analysis_frequency(design.bridge))
             path, value = duty_field(design, float(value), f)
             changes[path] = float(value)
     return replace_fields(design, changes)
@@ -448,7 +452,8 @@ class MarginMap:
 def margin_map(design, label: str, f_sw, duty) -> MarginMap:
     """Steady-state rail margin (rail minimum − uvlo_off) over f_sw × HS duty.
 
-    ``duty`` is the HS on-time share of the switching period. Uses the option
+    ``f_sw`` is the leg's own switching frequency (for ``line_leg`` the line frequency, at which that
+    leg switches) and ``duty`` the HS on-time share of its period. Uses the option
     model's vectorised ``rail_min_map`` when it has one (the bootstrap, the charge
     pumps and the isolated module do: the whole grid in batched solves, equal to
     ``evaluate`` at each point), else the general :func:`sweep` with the ``"duty"``

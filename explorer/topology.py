@@ -58,9 +58,10 @@ class Topology:
         before HS turn-on (b).
     duty_field : str
         The design field the sweep alias ``"duty"`` sets.
-    duty_setting : callable(bridge, h, f_sw) -> float
+    duty_setting : callable(bridge, h, f) -> float
         Value of :attr:`duty_field` that makes the HS on-time share of the period equal ``h`` [-] at
-        switching frequency ``f_sw`` [Hz].
+        the leg's own switching frequency ``f`` [Hz] (:func:`analysis_frequency`: f_sw, or f_line for a
+        leg that switches at line frequency).
     duty_limit : callable(bridge, h_max, T, passes) -> dict, or None
         The highest feasible HS share ``h_max`` [-] (None: none feasible) in the topology's own terms,
         the keys of ``DutyLimits.topology`` (``passes``: the operating point holds). None: the terms
@@ -379,7 +380,7 @@ TOPOLOGY = {t.name: t for t in (
     Topology("three_phase", ("m", "f_o"), _three_phase_duty, _three_phase_slots, "bridge.m",
              _three_phase_setting, None, fundamental=True, check=_three_phase_check),
     Topology("line_leg", ("f_line",), _half_duty, _line_slots, "bridge.duty",
-             lambda b, h, f: h + b.dead_time * b.f_line,
+             lambda b, h, f: h + b.dead_time * f,
              lambda b, h, T, ok: {"passes": ok, "f_line": b.f_line}, line_frequency=True, soft_start=False,
              check=_line_check, hold=_hold_line),
 )}
@@ -424,7 +425,7 @@ def operating_share(bridge, f_sw: float | None = None) -> float:
     standstill crest period, :func:`_three_phase_setting`).
     """
     topo = TOPOLOGY[bridge.topology]
-    f = bridge.f_sw if f_sw is None else f_sw
+    f = analysis_frequency(bridge) if f_sw is None else f_sw
     s0, s1 = topo.duty_setting(bridge, 0.0, f), topo.duty_setting(bridge, 1.0, f)
     x = getattr(bridge, topo.duty_field.split(".", 1)[1])
     if x is None:  # a half bridge or line leg without a duty: its nominal command

@@ -180,6 +180,8 @@ MAP_VARIANTS = {
     "no_dead_time": {"bridge.dead_time": 0.0},
     "three_phase_standstill": {"bridge.topology": "three_phase", "bridge.m": 0.9, "bridge.f_o": 0.0,
                                "bridge.v_out": None},
+    # a leg that switches at line frequency: the map's frequency axis is its f_line
+    "line_leg": {"bridge.topology": "line_leg", "bridge.f_line": 50.0, "bridge.f_sw": 1e7, "bridge.v_out": None},
 }
 
 
@@ -195,7 +197,9 @@ def test_every_margin_map_equals_evaluate(variant):
     from explorer.design import replace_fields
     from explorer.options import supply_model
     from explorer.sweep import duty_field
+    from explorer.topology import topology_of
     d = replace_fields(load_design(DEMO), MAP_VARIANTS[variant])
+    f_path = "bridge.f_line" if topology_of(d.bridge).line_frequency else "bridge.f_sw"
     f = np.array([30e3, 200e3, 1.5e6])
     u = np.array([0.0, 0.01, 0.3, 0.8, 0.93, 1.0])
     compared = 0
@@ -206,7 +210,7 @@ def test_every_margin_map_equals_evaluate(variant):
             for j in range(u.size):
                 path, value = duty_field(d, u[j], f[i])
                 try:
-                    dd = replace_fields(d, {"bridge.f_sw": f[i], path: value})
+                    dd = replace_fields(d, {f_path: f[i], path: value})
                 except DesignError:  # a boost at duty 1 is no design; the map still has a value there
                     continue
                 r = supply_model(o.kind).evaluate(dd, dd.options[k])

@@ -195,7 +195,8 @@ def test_duty_sources_are_the_duty_limits(comparisons, name):
     b = c.design.bridge
     topo = explorer.topology.topology_of(b)
     k = 100.0 if topo.duty_field == "bridge.duty" else 1.0
-    assert (top.start, top.end) == (topo.duty_setting(b, 0.0, b.f_sw) * k, topo.duty_setting(b, 1.0, b.f_sw) * k)
+    f = explorer.topology.analysis_frequency(b)  # the leg's own frequency (f_line for the line leg)
+    assert (top.start, top.end) == (topo.duty_setting(b, 0.0, f) * k, topo.duty_setting(b, 1.0, f) * k)
 
 
 def test_duty_second_axis_in_the_topology_terms(comparisons):
@@ -326,6 +327,22 @@ def test_margin_map_three_phase(comparisons):
     # Undeland & Robbins 2003, ch. 8, sine PWM), the same axis as the map's
     b = d.bridge
     assert list(p.sources["design"].data["duty"]) == [pytest.approx(0.5 * (1 + 0.9) - b.dead_time * b.f_sw)]
+
+
+def test_margin_map_of_a_line_leg_is_over_its_line_frequency(comparisons):
+    # a leg that switches at line frequency has its period at f_line: its map, its design mark and its
+    # axis are in f_line, and the map equals the point evaluation at that f_line (tests/test_envelope.py)
+    from explorer.sweep import margin_map
+    d = comparisons["line_leg"].design
+    f = d.bridge.f_line * np.geomspace(0.1, 10.0, 5)
+    m = margin_map(d, "pump 1:1", f, np.linspace(0.1, 0.9, 5))
+    assert m.vectorised
+    p = plots.margin_map_plot(m, d)
+    assert list(p.sources["design"].data["f_sw"]) == [d.bridge.f_line]
+    assert p.figure.xaxis[0].axis_label.startswith("leg frequency f_line")
+    demo = comparisons["demo"].design
+    p = plots.margin_map_plot(margin_map(demo, "pump 1:1", [1e5, 2e5], [0.5]), demo)
+    assert p.figure.xaxis[0].axis_label.startswith("switching frequency f_sw")
 
 
 def test_monte_carlo_sources_are_the_histogram(comparisons):

@@ -29,7 +29,7 @@ import numpy as np
 
 from ..design import Design, load_design, save_design, specs
 from ..errors import DesignError
-from ..topology import TOPOLOGY
+from ..topology import TOPOLOGY, analysis_frequency
 from ..units import format_eng, format_exact, parse_eng
 from ..views.table import CAUTION, side_by_side_html
 from .form import SECTIONS, SLIDER_FIELDS, TOPOLOGY_FIELDS, DesignForm, Field, option_fields, section_fields
@@ -548,7 +548,7 @@ class AnalysisPanel(W.VBox):
     """A margin map or a Monte Carlo of one option, on request, computed off the widget callback.
 
     ``design`` is a callable giving the design to analyse (the explorer's last valid one). The margin
-    map spans a decade each side of the design's f_sw (:data:`MAP_POINTS` × :data:`MAP_POINTS`, HS share
+    map spans a decade each side of the leg's own frequency (f_sw; f_line for a line leg) (:data:`MAP_POINTS` × :data:`MAP_POINTS`, HS share
     0.05 to 0.98); the Monte Carlo draws :data:`MC_SAMPLES` samples over the design's spreads (seed 1).
     """
 
@@ -620,7 +620,7 @@ class AnalysisPanel(W.VBox):
 
     def _margin_map(self, design, label):
         from ..sweep import margin_map
-        f = design.bridge.f_sw * np.geomspace(0.1, 10.0, self.MAP_POINTS)
+        f = analysis_frequency(design.bridge) * np.geomspace(0.1, 10.0, self.MAP_POINTS)  # the leg's own
         f = f[f <= specs(type(design.bridge))["f_sw"].hi]
         u = np.linspace(0.05, 0.98, self.MAP_POINTS)
         result = margin_map(design, label, f, u)

@@ -42,7 +42,7 @@ from bokeh.plotting import figure as _figure
 from bokeh.resources import INLINE
 
 from ..loads import required_rail
-from ..topology import operating_share, topology_of
+from ..topology import analysis_frequency, operating_share, topology_of
 from .table import topology_text
 
 __all__ = ["Plot", "PALETTE", "option_colors", "thin", "zero_contour", "startup_plot", "steady_plot",
@@ -384,7 +384,7 @@ def duty_plot(comparison) -> Plot:
         p.y_range.factors = list(reversed(labs))
         xa.set([1.0])
         quantity, unit, k = _DUTY_AXIS[topo.duty_field]
-        f = b.f_sw
+        f = analysis_frequency(b)
         s0, s1 = topo.duty_setting(b, 0.0, f) * k, topo.duty_setting(b, 1.0, f) * k
         p.extra_x_ranges["topology"].start, p.extra_x_ranges["topology"].end = s0, s1
         pre, scale = _prefix([s0, s1], unit)
@@ -602,10 +602,12 @@ def margin_map_plot(margin_map_result, design=None) -> Plot:
                 level.append(name)
         _set(src["contour"], {"xs": xs, "ys": ys, "level": level,
                               "dash": ["solid" if lv.endswith("(trip)") else "dashed" for lv in level]})
-        if d is not None:
-            h = operating_share(d.bridge)
-            _set(src["design"], {"f_sw": [d.bridge.f_sw], "duty": [h],
-                                 "text": [f"design {_eng(d.bridge.f_sw, 'Hz')}, {100 * h:.3g} %"]})
+        if d is not None:  # at the leg's own frequency: f_line for a leg that switches at line frequency
+            h, f_leg = operating_share(d.bridge), analysis_frequency(d.bridge)
+            _set(src["design"], {"f_sw": [f_leg], "duty": [h],
+                                 "text": [f"design {_eng(f_leg, 'Hz')}, {100 * h:.3g} %"]})
+            xa.quantity = ("leg frequency f_line" if topology_of(d.bridge).line_frequency
+                           else "switching frequency f_sw")
         else:
             _set(src["design"], {"f_sw": [], "duty": [], "text": []})
         fin = m.margin[np.isfinite(m.margin)]
