@@ -297,7 +297,11 @@ def map_periods(bridge: Bridge, driver: Driver, f_sw, duty) -> tuple[np.ndarray,
     slots kept) with the HS state and its real transitions (:func:`slot_edges`). SW levels are left
     out (the models that need them lay out their own, with their levels).
     """
-    T = 1.0 / np.asarray(f_sw, dtype=float)
+    f = np.asarray(f_sw, dtype=float)
+    bad = f[~(np.isfinite(f) & (f > 0.0))]
+    if bad.size:
+        raise DesignError("f_sw", "expected frequencies > 0 Hz", float(bad[0]))
+    T = 1.0 / f
     t_hs = np.clip(np.asarray(duty, dtype=float), 0.0, 1.0) * T
     dt = np.maximum(slot_layout(bridge, driver, t_hs, T - t_hs - 2 * bridge.dead_time, 0.0, 0.0, T)[0], 0.0)
     hs = np.zeros(dt.shape, dtype=bool)

@@ -394,3 +394,14 @@ def test_cli_flag_named_as_typed(args, line, tmp_path, capsys):
     assert main([a.format(f=f) for a in args]) == 2
     out = capsys.readouterr()
     assert out.err.splitlines() == [line] and out.out == ""
+
+
+@pytest.mark.parametrize("f", [0.0, -1e5, float("nan"), float("inf")])
+def test_pump_and_isolated_maps_refuse_a_frequency_that_is_not_positive(f):
+    # the models' own map functions (margin_map checks its axes before it calls them)
+    from explorer.options.charge_pump import rail_min_map as pump_map
+    from explorer.options.isolated import rail_min_map as iso_map
+    d = load_design(DEMO)
+    for fn, o in ((pump_map, d.options[1]), (iso_map, d.options[4])):
+        with pytest.raises(DesignError, match=r"f_sw: expected frequencies > 0 Hz"):
+            fn(d, o, [200e3, f], [0.5])
