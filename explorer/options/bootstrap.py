@@ -423,14 +423,14 @@ def _presumption_holds(circ: BootstrapCircuit, m: LoopMasks, orb) -> bool:
     the charge step, or its end) is ≥ 0. Where it is not, the rail has fallen below v_hold, so the
     design fails its rail check anyway; :func:`steady_state` then solves again under the rule for
     any non-negative rail (v_hold = 0: reverse-biased only where V_SW ≥ V_DD, true for every rail
-    ≥ 0), which keeps the loss split's leakage and recovery terms consistent and ≥ 0.
+    ≥ 0), which keeps the loss split's leakage and recovery terms consistent and ≥ 0. Over a batch of
+    orbits (a margin map) the answer is one per orbit.
     """
     if circ.v_hold <= 0.0 or (circ.i_leak <= 0.0 and circ.q_rr <= 0.0):
-        return True
-    if not (np.isfinite(orb.v_start).all() and np.isfinite(orb.v_end).all()):
-        return False
+        return np.True_
+    finite = np.isfinite(orb.v_start).all(axis=-1) & np.isfinite(orb.v_end).all(axis=-1)
     low = np.minimum(orb.v_start, orb.v_end)
-    return not (m.rev & m.live & (m.lev + low < circ.v_dd)).any()
+    return finite & ~(m.rev & m.live & (m.lev + low < circ.v_dd)).any(axis=-1)
 
 
 def _bc(loop: Loop) -> Loop:
@@ -843,11 +843,16 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
         t_hs = h * T
         v_rest = topology_of(design.bridge).duty_setting(design.bridge, h, 1.0 / T) if rest else None
         dt, v, hs = duty_slots(design, t_hs, T - t_hs - 2 * td, la, lb, T, v_rest)
-        loop = _bc(schedule_loop(circ, dt, v, hs, periodic=True))
-        orb = steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
-                          g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s,
-                          n_vt=loop.n_vt, v_guess=None if g_flat is None else g_flat[a:a + _MAP_BLOCK],
-                          v_clamp=loop.v_clamp, q_lead=loop.q_lead)
+        guess = None if g_flat is None else g_flat[a:a + _MAP_BLOCK]
+        masks = loop_masks(circ, dt, v, hs, periodic=True)
+        loop = _bc(schedule_loop(circ, dt, v, hs, periodic=True, masks=masks))
+        orb = _map_orbit(loop, guess)
+        redo = ~np.broadcast_to(_presumption_holds(circ, masks, orb), dt.shape[:-1])
+        if redo.any():  # as steady_state: where the rail falls below the v_hold presumed, the rule for any rail
+            c0 = dataclasses.replace(circ, v_hold=0.0)
+            m0 = loop_masks(c0, dt[redo], v[redo], hs[redo], periodic=True)
+            l0 = _bc(schedule_loop(c0, dt[redo], v[redo], hs[redo], periodic=True, masks=m0))
+            orb = _merge_orbits(orb, _map_orbit(l0, None if guess is None else guess[redo]), redo)
         out[a:a + _MAP_BLOCK] = np.where(_refresh_mask(loop, orb), orb.v_min, np.nan)
         if full:
             parts.append(orb)
@@ -859,6 +864,25 @@ def rail_min_map(design: Design, option: BootstrapOption, f_sw, duty, *, corner:
                                 for k, v in cat.items()},
                              passes=max(o.passes for o in parts), converged=all(o.converged for o in parts))
     return _reported_min(out).reshape(shape)
+
+
+def _map_orbit(loop: Loop, v_guess) -> OrbitSolution:
+    """The steady orbits of a batch of one-period loops (:func:`rail_min_map`)."""
+    return steady_rail(loop.dt, loop.v_src, c=loop.c, r=loop.r, v_f=loop.v_f, i_load=loop.i_load,
+                       g_load=loop.g_load, q_step=loop.q_step, diode=loop.diode, i_s=loop.i_s, n_vt=loop.n_vt,
+                       v_guess=v_guess, v_clamp=loop.v_clamp, q_lead=loop.q_lead)
+
+
+def _merge_orbits(orb: OrbitSolution, part: OrbitSolution, rows: np.ndarray) -> OrbitSolution:
+    """``orb`` with the orbits of ``rows`` (a mask over its leading axis) taken from ``part``."""
+    fields = {}
+    for k in ("v_pre", "v_start", "v_end", "v_min", "v_max", "v_dip"):
+        x = getattr(orb, k)
+        if x is not None:
+            x = np.array(x, copy=True)
+            x[rows] = getattr(part, k)
+        fields[k] = x
+    return OrbitSolution(**fields, passes=max(orb.passes, part.passes), converged=orb.converged and part.converged)
 
 
 def _reported_min(v_min):
