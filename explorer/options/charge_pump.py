@@ -816,6 +816,23 @@ def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
                  t_pulse=tuple(float(x) for x in t0[idx]), on_pulse=tuple(bool(x) for x in on[idx]))
 
 
+#: R_GS share resistors above this many times R_on are left out of the pump's network (:func:`_load_resistor`).
+R_LOAD_OPEN = 1e12
+
+
+def _load_resistor(pump: _Pump, r_eq):
+    """The R_GS share as the network's load resistor, or None where it is above :data:`R_LOAD_OPEN`·R_on.
+
+    Such a resistor (an HS on-time share of, say, 1e-15 of the period) carries less than 1e-12 of the
+    current a switch carries at the same voltage, so it moves no figure beyond rounding, and in the
+    nodal analysis it would make the phase systems singular to working precision (a condition number
+    above 1e13). The other uses of the share (R_th, the load's power) keep it; they are well conditioned.
+    """
+    if r_eq is None:
+        return None
+    return None if np.max(r_eq) > R_LOAD_OPEN * float(np.min(pump.r_on)) else r_eq
+
+
 def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
     """Engine R_out and the periodic steady state under the average load (batched over array values).
 
@@ -825,7 +842,7 @@ def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
     r_out, m_engine = r_out_engine(pump.f_cp, pump.c_fly, pump.r_on, ratio=circ.ratio,
                                    dead_time_cp=option.dead_time_cp, esr_fly=pump.esr_fly)
     net = pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
-                       c_out=pump.c_out, esr_out=pump.esr_out, r_load=load.r_eq)
+                       c_out=pump.c_out, esr_out=pump.esr_out, r_load=_load_resistor(pump, load.r_eq))
     if type(pump.v_in) is float and type(load.i0) is float:
         u = np.array([pump.v_in, load.i0])
     else:
@@ -1382,7 +1399,7 @@ def rail_min_map(design: Design, option: ChargePumpOption, f_sw, duty, *, corner
                           np.where(on, dt, 0.0).sum(axis=-1), t_a)
     loaded = g > 0
     r_eq = 1.0 / np.where(loaded, g, 1.0)  # the R_GS share as a resistor where there is one
-    lo = _orbit_minima(pump, r_eq, loaded, i0)
+    lo = _orbit_minima(pump, r_eq, loaded & (r_eq <= R_LOAD_OPEN * pump.r_on), i0)  # as _load_resistor
     r_th = np.where(loaded, r_out * r_eq / (r_out + r_eq), r_out)  # R_out ∥ R_eq, as _rail_bounds
     t_k = np.concatenate([np.zeros((t_a.size, 1)), np.cumsum(dt[:, :-1], axis=-1)], axis=-1)
     q_k = np.where(turn_on, q_on, np.where(turn_off, q_off, 0.0))  # zero-charge pulses change nothing
