@@ -426,7 +426,7 @@ def _presumption_holds(circ: BootstrapCircuit, m: LoopMasks, orb) -> bool:
     ≥ 0), which keeps the loss split's leakage and recovery terms consistent and ≥ 0. Over a batch of
     orbits (a margin map) the answer is one per orbit.
     """
-    if circ.v_hold <= 0.0 or (circ.i_leak <= 0.0 and circ.q_rr <= 0.0):
+    if circ.v_hold <= 0.0 or (np.all(circ.i_leak <= 0.0) and np.all(circ.q_rr <= 0.0)):
         return np.True_
     finite = np.isfinite(orb.v_start).all(axis=-1) & np.isfinite(orb.v_end).all(axis=-1)
     low = np.minimum(orb.v_start, orb.v_end)
@@ -883,6 +883,13 @@ def _merge_orbits(orb: OrbitSolution, part: OrbitSolution, rows: np.ndarray) -> 
             x[rows] = getattr(part, k)
         fields[k] = x
     return OrbitSolution(**fields, passes=max(orb.passes, part.passes), converged=orb.converged and part.converged)
+
+
+def _orbit_rows(orb: OrbitSolution, rows: np.ndarray) -> OrbitSolution:
+    """The orbits of ``rows`` (a mask over the leading axis) of a batch."""
+    return OrbitSolution(**{k: (None if getattr(orb, k) is None else getattr(orb, k)[rows])
+                            for k in ("v_pre", "v_start", "v_end", "v_min", "v_max", "v_dip")},
+                         passes=orb.passes, converged=orb.converged)
 
 
 def _reported_min(v_min):
@@ -1718,8 +1725,16 @@ def rail_min_batch(design: Design, option: BootstrapOption, factors) -> np.ndarr
     circ = dataclasses.replace(base, c=c_eff, v_f=v_f, i_s=i_s, v_dd=v_dd, i_q=i_q, i_leak=leak, q_on=q_on,
                                v_bias=v_bias)
     s = period_schedule(design)
-    loop = schedule_loop(circ, s.dt[None, :], s.v_sw[None, :], s.hs_on[None, :], periodic=True)
+    dt, v, hs = s.dt[None, :], s.v_sw[None, :], s.hs_on[None, :]
+    masks = loop_masks(circ, dt, v, hs, periodic=True)
+    loop = schedule_loop(circ, dt, v, hs, periodic=True, masks=masks)
     orb = solve_orbit(_bc(loop))
+    redo = ~np.broadcast_to(_presumption_holds(circ, masks, orb), (n,))
+    if redo.any():  # as steady_state: the samples whose rail falls below the v_hold presumed, under the rule
+        c0 = dataclasses.replace(circ, v_hold=0.0)  # for any rail (the samples' circuits are one batch: all again)
+        m0 = loop_masks(c0, dt, v, hs, periodic=True)
+        orb = _merge_orbits(orb, _orbit_rows(solve_orbit(_bc(schedule_loop(c0, dt, v, hs, periodic=True, masks=m0))),
+                                             redo), redo)
     v_min = np.where(_refresh_mask(loop, orb), np.asarray(orb.v_min, dtype=float), np.nan).reshape(n)
     return np.where(v_min < 0.0, 0.0, v_min)
 
