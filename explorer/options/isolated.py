@@ -735,7 +735,8 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
     perturbed by :func:`explorer.tolerance.apply_factors` (capacitance ×
     ``k_c`` with the DC-bias factor, gate charge × ``q_g``, quiescent × ``i_q``,
     and, for a module without output regulation, its output × ``v_dd`` with its
-    input rail); a regulated module's output does not follow its input.
+    input rail); a regulated module's output does not follow its input. A collapsing rail reads 0 V,
+    as in :func:`evaluate_option`.
     """
     cap = option.c_out
     sched = period_schedule(design)
@@ -755,7 +756,7 @@ def rail_min_batch(design: Design, option: IsolatedOption, factors) -> np.ndarra
                                  c_out=np.asarray(c_eff, dtype=float)[j], q_pulse=q_on[j],
                                  i_q=design.driver.i_q * i_q[j], r_gs=design.gate.r_gs,
                                  q_off=charge_per_turn_off(design))
-    return out
+    return np.maximum(out, 0.0)  # a collapsing rail reads 0 V, as in evaluate_option
 
 
 #: Design points per block in :func:`rail_min_map`.
