@@ -944,14 +944,51 @@ def duty_limit(design, circ, thresholds, h_lo=0.0, h_hi=1.0):
         m = np.where(np.isfinite(m), m, -np.inf)
         okg = m >= th[idx, None]
         j = np.where(okg.all(axis=-1), 32, np.argmax(~okg, axis=-1))
+        brackets = {}  # threshold index -> [duty that holds, its rail, duty that does not, its rail]
         for r, i in enumerate(open_):
             jj = int(j[r])
             if jj == 0 or jj == 32 or not np.isfinite(m[r, jj]):
                 out[i] = float(g[r, max(jj - 1, 0)])
                 continue
-            m0, m1 = m[r, jj - 1], m[r, jj]
-            frac = (m0 - th[i]) / (m0 - m1) if m0 != m1 else 0.0
-            out[i] = float(g[r, jj - 1] + frac * (g[r, jj] - g[r, jj - 1]))
+            brackets[i] = [float(g[r, jj - 1]), float(m[r, jj - 1]), float(g[r, jj]), float(m[r, jj])]
+        out = _checked_interpolation(design, circ, f, th, brackets, out, levels)
+    return out
+
+
+#: Most corrections of the interpolated duty limit (:func:`_checked_interpolation`).
+_LIMIT_STEPS = 8
+
+
+def _checked_interpolation(design, circ, f, th, brackets: dict, out: list, levels) -> list:
+    """The duty limit inside each final bracket: linear interpolation of the rail minimum, checked.
+
+    The interpolation presumes a smooth minimum. Where it is not (a curve bent within the bracket, or
+    a rail that holds only without HS pulses and jumps at the first one) the interpolated duty may not
+    hold, so each one is evaluated: a duty that holds is the limit; one that does not becomes the
+    bracket's failing end and the interpolation is repeated (regula falsi with the Illinois step,
+    Dowell & Jarratt, BIT 11, 1971, doi:10.1007/BF01934364), up to :data:`_LIMIT_STEPS` times, after
+    which the last duty known to hold is the limit. A limit is never optimistic.
+    """
+    keep = {i: 1.0 for i in brackets}  # Illinois weight of the end kept twice in a row
+    for _ in range(_LIMIT_STEPS):
+        if not brackets:
+            break
+        keys = list(brackets)
+        h_try = []
+        for i in keys:
+            a, ma, b, mb = brackets[i]
+            fa, fb = (ma - th[i]) * keep[i], mb - th[i]
+            h_try.append(a + (b - a) * (fa / (fa - fb)) if (np.isfinite(fb) and fa != fb) else 0.5 * (a + b))
+        m_try = np.atleast_1d(rail_min_map(design, None, f, np.array(h_try), circ=circ, levels=levels))
+        for i, h, v in zip(keys, h_try, m_try):
+            if np.isfinite(v) and v >= th[i]:
+                out[i] = float(h)
+                del brackets[i]
+            else:
+                brackets[i][2:] = [float(h), float(v) if np.isfinite(v) else -np.inf]
+                keep[i] *= 0.5
+    for i, (a, _, _, _) in brackets.items():
+        out[i] = a
     return out
 
 
@@ -1346,9 +1383,9 @@ def _duty_part(design: Design, circ: BootstrapCircuit, steady: _SteadyPart, sche
     refreshed, v_min, v_max = steady.refreshed, steady.v_min, steady.v_max
     h_need, h_uvlo = duty_limit(design, circ, [need, drv.uvlo_off])
     h_min = min(1.0, drv.t_on_min / _period(design))
-    # below the driver's shortest pulse the HS never turns on, so a rail that holds only there holds no
-    # duty the leg can run: no limit (not a range from h_min down to a lower h_need)
-    h_need, h_uvlo = (None if h is not None and h < h_min else h for h in (h_need, h_uvlo))
+    # below the driver's shortest pulse the HS never turns on, so a rail that holds only there (or only
+    # at duty 0) holds no duty the leg can run: no limit (not a range from h_min down to a lower h_need)
+    h_need, h_uvlo = (None if h is not None and (h < h_min or h <= 0.0) else h for h in (h_need, h_uvlo))
     # hold-up at 100 % duty from the steady-state maximum (the full charge target if never refreshed)
     v_top = v_max if refreshed else max(circ.v_dd - circ.v_sw_low - float(circ.drop(0.0)), 0.0)
     if circ.v_clamp is not None:
