@@ -786,10 +786,14 @@ def _average_load(design: Design, i_q, q_on, q_off, n_on, n_off, t_on, t_a):
     """
     i0 = i_q + (n_on * q_on + n_off * q_off) / t_a
     r_gs = design.gate.r_gs
+    # a share so small that its resistor 1/g overflows (an HS on-time of 1e-309 of the period) is none
     if np.ndim(t_on) == 0:
-        return i0, ((t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0)
-    g = np.zeros(np.shape(t_on)) if r_gs is None else np.where(t_on > 0, (t_on / t_a) / r_gs, 0.0)
-    return i0, g
+        g = (t_on / t_a) / r_gs if (r_gs is not None and t_on > 0) else 0.0
+        return i0, (g if g > 0 and math.isfinite(1.0 / g) else 0.0)
+    if r_gs is None:
+        return i0, np.zeros(np.shape(t_on))
+    g = np.where(t_on > 0, (t_on / t_a) / r_gs, 0.0)
+    return i0, np.where(g > 1.0 / np.finfo(float).max, g, 0.0)
 
 
 def _rail_load(design: Design, sched, *, k_q=None, k_i=None) -> _Load:
