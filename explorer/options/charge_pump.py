@@ -1029,7 +1029,7 @@ def _switch_block(design: Design, option: ChargePumpOption, v_in: float) -> tupl
 def _duty_limits(design: Design, pump: _Pump, load: _Load, ss: _PumpSteady, rail: dict) -> tuple[DutyLimits, dict]:
     """Duty and load limits: any HS duty while the rail holds; the highest f_sw and Q_G (and those limits)."""
     req = required_rail(design)
-    lim = _load_limits(design, pump, ss.r_out, rail["v_pump_min"], ss.v_mean, load, req)
+    lim = _load_limits(design, pump, ss.r_out, rail["v_pump_min"], ss.v_mean, load, req, net=ss.net)
     feasible_duty = rail["v_min"] >= req
     duty = DutyLimits(min=0.0 if feasible_duty else None, max=1.0 if feasible_duty else None, hold_up=None,
                       t_ls_min=None,
@@ -1273,18 +1273,21 @@ def _startup_transient(ratio: str, c_fly: float, r_on: float, esr_fly: float, c_
 
 
 def _load_limits(design: Design, pump: _Pump, r_out: float, v_pump_min: float, v_mean: float, load: _Load,
-                 req: float) -> dict:
+                 req: float, net: Network | None = None) -> dict:
     """Highest leg frequency and highest Q_G at which the rail minimum stays at the requirement.
 
     The frequency is f_sw, or f_line on a leg that switches at line frequency (the analysis
     frequency, scaled). Each is None where any value holds (no HS turn-on, or unbounded) and 0 where
     none does (the static load alone, or Q_G = 0, already takes the rail below the requirement).
 
-    Averaged model (:func:`rail_from_r_out`) with the pump ripple below the mean
-    scaled with the load current (it is proportional to it in the linear
-    network) and the exact pulse-train dip of the schedule's pulses
-    (:func:`pulse_schedule_extremes`). The schedule's shape (duty, pulse instants as shares of the
-    period) is kept as f_sw scales.
+    Found first on the averaged model (:func:`rail_from_r_out`) with the pump ripple below the mean
+    scaled with the load current (it is proportional to it in the linear network) and the exact
+    pulse-train dip of the schedule's pulses (:func:`pulse_schedule_extremes`). The schedule's shape
+    (duty, pulse instants as shares of the period) is kept as f_sw scales. That model can be
+    optimistic (on random designs Q_G,max came out up to 10 % above the Q_G at which the evaluation's
+    rail meets the requirement), so with the pump's network (``net``) each limit is then checked on
+    the rail the evaluation itself computes (:func:`_exact_rail_min`) and, where it does not hold,
+    lowered onto it (:func:`_holding_limits`): a limit is never optimistic.
     """
     n_on, t_a, g_load = load.n_on, load.t_a, load.g_load
     i_tot = load.i0 + v_mean * g_load
@@ -1322,10 +1325,83 @@ def _load_limits(design: Design, pump: _Pump, r_out: float, v_pump_min: float, v
         return ({"f_sw_max": None, "q_g_max": None} if v_min(load.q_pulse, 0.0) >= req
                 else {"f_sw_max": 0.0, "q_g_max": 0.0})
     s = solve(lambda sc: v_min(load.q_pulse, sc) - req)
-    f_sw_max = None if s is None else s * analysis_frequency(design.bridge)
     qm = solve(lambda x: v_min(design.driver.q_ls + x * design.gate.q_g, 1.0) - req)
+    if net is not None:
+        q_ls, q_g = design.driver.q_ls, design.gate.q_g
+
+        def exact(points):  # the evaluation's rail at scale x (kind "f") or charge multiplier x ("q")
+            scale = np.array([x if k == "f" else 1.0 for k, x in points])
+            q = np.array([float(load.q_pulse) if k == "f" else q_ls + x * q_g for k, x in points])
+            return _exact_rail_min(pump, load, net, r_th, q, scale, i_q, q_off_all)
+
+        s, qm = _holding_limits(exact, {"f": s, "q": qm}, req)
+    f_sw_max = None if s is None else s * analysis_frequency(design.bridge)
     q_g_max = None if qm is None else qm * design.gate.q_g
     return {"f_sw_max": f_sw_max, "q_g_max": q_g_max}
+
+
+def _exact_rail_min(pump: _Pump, load: _Load, net: Network, r_th: float, q_on, scale, i_q: float,
+                    q_off_all: float) -> np.ndarray:
+    """The rail minimum :func:`evaluate_option` computes, for charges ``q_on`` per turn-on and the bridge
+    frequency scaled by ``scale`` (> 0; arrays of one shape, the schedule's shape kept) [V].
+
+    The pump's periodic orbit under the load current at that charge and frequency, on the design's
+    own network (the R_GS share does not change), plus the pulse-train dip of the pulses at their
+    scaled instants (:func:`_rail_bounds`): all points in one batched solve.
+    """
+    q_on = np.asarray(q_on, dtype=float)
+    scale = np.asarray(scale, dtype=float)
+    ia = i_q + (load.n_on * q_on + q_off_all) * scale / load.t_a
+    u = np.stack([np.full(ia.shape, float(pump.v_in)), ia], axis=-1)
+    lo = periodic_steady_state(net, pump.durations, u).extrema(["v(out)"])[0][..., 0]
+    if not load.t_pulse:
+        return lo
+    t_k = np.asarray(load.t_pulse, dtype=float) / scale[..., None]
+    y_min, _ = pulse_schedule_extremes(t_k, load.pulse_charges(q_on), pump.c_out, r_th, load.t_a / scale)
+    return lo + y_min
+
+
+#: Points per grid of :func:`_holding_limits`.
+_LIMIT_GRID = 32
+
+
+def _holding_limits(exact, limits: dict, req: float) -> tuple:
+    """Each limit moved onto the largest value at which the exact rail holds ``req``.
+
+    ``limits`` maps a kind to its value x from the averaged model (None: unbounded, 0: none; both kept);
+    ``exact(points)`` gives the rail at a list of (kind, value) points in one batched solve. The exact
+    rail is first evaluated at x and at x·(1 + 1/32). Where x fails, a grid from 0 to x and then a
+    grid inside its last holding cell follow; where x holds and the other fails, a grid between the
+    two; where both hold (the averaged model pessimistic by over 3 %) the larger is kept. Each grid has
+    :data:`_LIMIT_GRID` points, all kinds in one solve per stage, at most three solves; the limit is
+    the last point that holds (within 1/1024 of x below the crossing), 0 where none does.
+    """
+    out = dict(limits)
+    todo = [k for k, x in limits.items() if x is not None and x > 0]
+    cells, stages = {}, {}
+    if todo:
+        up = 1.0 + 1.0 / _LIMIT_GRID
+        rails = exact([(k, x) for k in todo for x in (limits[k], limits[k] * up)]).reshape(len(todo), 2)
+        for k, (at, above) in zip(todo, rails):
+            if not at >= req:  # optimistic: down from x
+                cells[k], stages[k] = (0.0, limits[k]), 2
+            elif not above >= req:  # the crossing lies between x and x·(1 + 1/32)
+                cells[k], stages[k] = (limits[k], limits[k] * up), 1
+            else:
+                out[k] = limits[k] * up
+    steps = np.arange(1, _LIMIT_GRID + 1) / _LIMIT_GRID
+    for stage in range(2):
+        todo = [k for k in cells if stages[k] > stage]
+        if not todo:
+            break
+        grids = {k: cells[k][0] + (cells[k][1] - cells[k][0]) * steps for k in todo}
+        rails = exact([(k, x) for k in todo for x in grids[k]]).reshape(len(todo), _LIMIT_GRID)
+        for k, v in zip(todo, rails):
+            g, holds = grids[k], v >= req
+            n = _LIMIT_GRID if holds.all() else int(np.argmin(holds))
+            out[k] = cells[k][0] if n == 0 else float(g[n - 1])
+            cells[k] = (out[k], float(g[min(n, _LIMIT_GRID - 1)]) if n < _LIMIT_GRID else cells[k][1])
+    return tuple(out.values())
 
 
 def rail_min_batch(design: Design, option: ChargePumpOption, factors) -> np.ndarray:
