@@ -1352,8 +1352,7 @@ def _exact_rail_min(pump: _Pump, load: _Load, net: Network, r_th: float, q_on, s
     q_on = np.asarray(q_on, dtype=float)
     scale = np.asarray(scale, dtype=float)
     ia = i_q + (load.n_on * q_on + q_off_all) * scale / load.t_a
-    u = np.stack([np.full(ia.shape, float(pump.v_in)), ia], axis=-1)
-    lo = periodic_steady_state(net, pump.durations, u).extrema(["v(out)"])[0][..., 0]
+    lo = _orbit_min(pump, net, np.stack([np.full(ia.shape, float(pump.v_in)), ia], axis=-1))
     if not load.t_pulse:
         return lo
     t_k = np.asarray(load.t_pulse, dtype=float) / scale[..., None]
@@ -1490,6 +1489,11 @@ def rail_min_map(design: Design, option: ChargePumpOption, f_sw, duty, *, corner
     return (lo + y_min).reshape(shape)
 
 
+def _orbit_min(pump: _Pump, net: Network, u: np.ndarray) -> np.ndarray:
+    """Exact minimum of v(out) over the pump's periodic orbit for a batch of inputs ``u`` (..., 2) [V]."""
+    return periodic_steady_state(net, pump.durations, u).extrema(["v(out)"])[0][..., 0]
+
+
 def _orbit_minima(pump: _Pump, r_eq: np.ndarray, loaded: np.ndarray, i0: np.ndarray) -> np.ndarray:
     """Minimum of v(out) over the pump's periodic orbit at each point [V]: load current ``i0`` [A], plus a
     resistor ``r_eq`` [Ω] where ``loaded``.
@@ -1505,9 +1509,6 @@ def _orbit_minima(pump: _Pump, r_eq: np.ndarray, loaded: np.ndarray, i0: np.ndar
         return pump_network(circ.ratio, c_fly=pump.c_fly, r_on=pump.r_on, esr_fly=pump.esr_fly, output="load",
                             c_out=pump.c_out, esr_out=pump.esr_out, r_load=r_load)
 
-    def minima(n, u):
-        return periodic_steady_state(n, pump.durations, u).extrema(["v(out)"])[0][..., 0]
-
     v_in = float(pump.v_in)
     lo = np.empty(i0.size)
     free = np.flatnonzero(~loaded)
@@ -1515,7 +1516,7 @@ def _orbit_minima(pump: _Pump, r_eq: np.ndarray, loaded: np.ndarray, i0: np.ndar
         n0 = net(None)
         for a in range(0, free.size, _MAP_BLOCK):
             k = free[a:a + _MAP_BLOCK]
-            lo[k] = minima(n0, np.stack([np.full(k.size, v_in), i0[k]], axis=-1))
+            lo[k] = _orbit_min(pump, n0, np.stack([np.full(k.size, v_in), i0[k]], axis=-1))
     idx = np.flatnonzero(loaded)
     if idx.size:
         values, group = np.unique(r_eq[idx], return_inverse=True)
@@ -1534,7 +1535,7 @@ def _orbit_minima(pump: _Pump, r_eq: np.ndarray, loaded: np.ndarray, i0: np.ndar
             cur = np.repeat(i0[idx[starts[g0:g1]]][:, None], width, axis=1)  # padding: the group's first point
             cur[group[sel] - g0, pos[sel]] = i0[idx[sel]]
             u = np.stack([np.full(cur.shape, v_in), cur], axis=-1)
-            lo[idx[sel]] = minima(net(values[g0:g1, None]), u)[group[sel] - g0, pos[sel]]
+            lo[idx[sel]] = _orbit_min(pump, net(values[g0:g1, None]), u)[group[sel] - g0, pos[sel]]
             g0 = g1
     return lo
 
