@@ -1328,11 +1328,12 @@ def _load_limits(design: Design, pump: _Pump, r_out: float, v_pump_min: float, v
     qm = solve(lambda x: v_min(design.driver.q_ls + x * design.gate.q_g, 1.0) - req)
     if net is not None:
         q_ls, q_g = design.driver.q_ls, design.gate.q_g
+        basis = periodic_steady_state(net, pump.durations, np.eye(2))  # the orbits of v_in = 1 and i_load = 1
 
         def exact(points):  # the evaluation's rail at scale x (kind "f") or charge multiplier x ("q")
             scale = np.array([x if k == "f" else 1.0 for k, x in points])
             q = np.array([float(load.q_pulse) if k == "f" else q_ls + x * q_g for k, x in points])
-            return _exact_rail_min(pump, load, net, r_th, q, scale, i_q, q_off_all)
+            return _exact_rail_min(pump, load, basis, r_th, q, scale, i_q, q_off_all)
 
         s, qm = _holding_limits(exact, {"f": s, "q": qm}, req)
     f_sw_max = None if s is None else s * analysis_frequency(design.bridge)
@@ -1340,19 +1341,25 @@ def _load_limits(design: Design, pump: _Pump, r_out: float, v_pump_min: float, v
     return {"f_sw_max": f_sw_max, "q_g_max": q_g_max}
 
 
-def _exact_rail_min(pump: _Pump, load: _Load, net: Network, r_th: float, q_on, scale, i_q: float,
+def _exact_rail_min(pump: _Pump, load: _Load, basis: PeriodicSolution, r_th: float, q_on, scale, i_q: float,
                     q_off_all: float) -> np.ndarray:
     """The rail minimum :func:`evaluate_option` computes, for charges ``q_on`` per turn-on and the bridge
     frequency scaled by ``scale`` (> 0; arrays of one shape, the schedule's shape kept) [V].
 
     The pump's periodic orbit under the load current at that charge and frequency, on the design's
     own network (the R_GS share does not change), plus the pulse-train dip of the pulses at their
-    scaled instants (:func:`_rail_bounds`): all points in one batched solve.
+    scaled instants (:func:`_rail_bounds`). The network is linear, so each orbit is the sum of the
+    ``basis`` orbits (v_in = 1, i_load = 1: a batch of two) weighted by its inputs (superposition);
+    only the exact extrema are computed per point.
     """
     q_on = np.asarray(q_on, dtype=float)
     scale = np.asarray(scale, dtype=float)
     ia = i_q + (load.n_on * q_on + q_off_all) * scale / load.t_a
-    lo = _orbit_min(pump, net, np.stack([np.full(ia.shape, float(pump.v_in)), ia], axis=-1))
+    u = np.stack([np.full(ia.shape, float(pump.v_in)), ia], axis=-1)
+    z0 = np.einsum("nk,kpz->npz", u.reshape(-1, 2), basis.z0).reshape(ia.shape + basis.z0.shape[1:])
+    sol = PeriodicSolution(net=basis.net, durations=np.broadcast_to(basis.durations[0], z0.shape[:-1]), z0=z0,
+                           E=basis.E, S=basis.S)
+    lo = sol.extrema(["v(out)"])[0][..., 0]
     if not load.t_pulse:
         return lo
     t_k = np.asarray(load.t_pulse, dtype=float) / scale[..., None]
