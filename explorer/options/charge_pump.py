@@ -834,7 +834,18 @@ def _load_resistor(pump: _Pump, r_eq):
     """
     if r_eq is None:
         return None
-    return None if np.max(r_eq) > R_LOAD_OPEN * float(np.min(pump.r_on)) else r_eq
+    return r_eq if np.all(_in_network(pump, r_eq)) else None
+
+
+def _in_network(pump: _Pump, r_eq):
+    """Whether an R_GS share resistor is part of the pump's network (at most :data:`R_LOAD_OPEN`·R_on)."""
+    return np.asarray(r_eq) <= R_LOAD_OPEN * float(np.min(pump.r_on))
+
+
+def _r_th(r_out, r_eq):
+    """The averaged source seen by the pulse train: R_out, in parallel with the R_GS share's R_eq where
+    there is one (None: none) [Ω]."""
+    return r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
 
 
 def _steady(pump: _Pump, option: ChargePumpOption, load: _Load):
@@ -868,7 +879,7 @@ def _rail_bounds(sol, pump: _Pump, load: _Load, r_out, pump_extrema=None) -> dic
     """
     lo, hi = (a[..., 0] for a in sol.extrema(["v(out)"])) if pump_extrema is None else pump_extrema
     if load.t_pulse:
-        r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
+        r_th = _r_th(r_out, load.r_eq)
         y_min, y_max = pulse_schedule_extremes(load.t_pulse, load.pulse_charges(), pump.c_out, r_th, load.t_a)
     else:
         y_min = y_max = 0.0
@@ -1075,7 +1086,7 @@ def _validity(design: Design, option: ChargePumpOption, pump: _Pump, load: _Load
     rate = float(np.max(-lam, initial=0.0))
     tau_loop = 1.0 / rate if rate > 0.0 else math.inf
     r_out, r_eq = ss.r_out, load.r_eq
-    r_th = r_out if r_eq is None else r_out * r_eq / (r_out + r_eq)
+    r_th = _r_th(r_out, r_eq)
     sag = pull_down_sag(design, sched, v_mean=ss.v_mean, r_th=r_th, c_out=pump.c_out)
     msgs = pump_validity(design, option, tau_loop=tau_loop, r_th=r_th, c_out=pump.c_out, v_mean=ss.v_mean,
                          ripple=ripple, schedule=sched, sag=sag)
@@ -1292,7 +1303,7 @@ def _load_limits(design: Design, pump: _Pump, r_out: float, v_pump_min: float, v
     n_on, t_a, g_load = load.n_on, load.t_a, load.g_load
     i_tot = load.i0 + v_mean * g_load
     ripple_per_amp = (v_mean - v_pump_min) / i_tot if i_tot > 0 else 0.0
-    r_th = r_out if load.r_eq is None else r_out * load.r_eq / (r_out + load.r_eq)
+    r_th = _r_th(r_out, load.r_eq)
     i_q = design.driver.i_q
     q_off_all = load.n_off * load.q_off
     v_in, ratio, c_out, t_pulse = pump.v_in, pump.circ.ratio, pump.c_out, load.t_pulse
@@ -1485,8 +1496,8 @@ def rail_min_map(design: Design, option: ChargePumpOption, f_sw, duty, *, corner
                           np.where(on, dt, 0.0).sum(axis=-1), t_a)
     loaded = g > 0
     r_eq = 1.0 / np.where(loaded, g, 1.0)  # the R_GS share as a resistor where there is one
-    lo = _orbit_minima(pump, r_eq, loaded & (r_eq <= R_LOAD_OPEN * pump.r_on), i0)  # as _load_resistor
-    r_th = np.where(loaded, r_out * r_eq / (r_out + r_eq), r_out)  # R_out ∥ R_eq, as _rail_bounds
+    lo = _orbit_minima(pump, r_eq, loaded & _in_network(pump, r_eq), i0)
+    r_th = np.where(loaded, _r_th(r_out, r_eq), r_out)
     t_k = np.concatenate([np.zeros((t_a.size, 1)), np.cumsum(dt[:, :-1], axis=-1)], axis=-1)
     q_k = np.where(turn_on, q_on, np.where(turn_off, q_off, 0.0))  # zero-charge pulses change nothing
     y_min = np.empty(t_a.size)
