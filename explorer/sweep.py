@@ -35,7 +35,7 @@ from .design import Design, check_value, load_design, replace_fields, spec_at, s
 from .errors import DesignError
 from .loads import required_rail
 from .options import supply_model
-from .topology import analysis_frequency, topology_of
+from .topology import analysis_frequency, frequency_field, topology_of
 from .units import format_eng
 
 __all__ = ["FIGURES", "Sweep", "sweep", "duty_field", "temperature_fields", "margin_map", "MarginMap"]
@@ -143,7 +143,7 @@ def _point(design: Design, assignments) -> Design:
     for path, value in assignments:
         if path == "temperature":
             changes.update(temperature_fields(design, float(value)))
-    leg_f = "bridge.f_line" if topology_of(design.bridge).line_frequency else "bridge.f_sw"
+    leg_f = frequency_field(design.bridge)
     for path, value in assignments:
         if path == "duty":  # at the point's own leg frequency
             f = changes.get(leg_f, analysis_frequency(design.bridge))

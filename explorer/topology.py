@@ -29,7 +29,7 @@ from .errors import DesignError
 
 __all__ = ["Topology", "TOPOLOGY", "topology_of", "hold_level", "analysis_frequency", "analysis_period", "light_load",
            "frequency_limit_key", "QUASI_STATIC_PERIODS", "periods_per_fundamental", "is_standstill", "modulation", "peak_span",
-           "operating_share"]
+           "operating_share", "frequency_field"]
 
 
 #: Above this many switching periods per fundamental a three-phase leg is analysed as standstill.
@@ -394,6 +394,12 @@ def topology_of(bridge) -> Topology:
 def analysis_frequency(bridge) -> float:
     """The leg's own switching frequency [Hz]: f_sw, or f_line for a leg that switches at line frequency."""
     return bridge.f_line if TOPOLOGY[bridge.topology].line_frequency else bridge.f_sw
+
+
+def frequency_field(bridge) -> str:
+    """The design-file path of the leg's own switching frequency (:func:`analysis_frequency`):
+    ``"bridge.f_line"`` for a leg that switches at line frequency, ``"bridge.f_sw"`` otherwise."""
+    return "bridge.f_line" if TOPOLOGY[bridge.topology].line_frequency else "bridge.f_sw"
 
 
 def analysis_period(bridge) -> float:

@@ -197,9 +197,9 @@ def test_every_margin_map_equals_evaluate(variant):
     from explorer.design import replace_fields
     from explorer.options import supply_model
     from explorer.sweep import duty_field
-    from explorer.topology import topology_of
+    from explorer.topology import frequency_field
     d = replace_fields(load_design(DEMO), MAP_VARIANTS[variant])
-    f_path = "bridge.f_line" if topology_of(d.bridge).line_frequency else "bridge.f_sw"
+    f_path = frequency_field(d.bridge)
     f = np.array([30e3, 200e3, 1.5e6])
     u = np.array([0.0, 0.01, 0.3, 0.8, 0.93, 1.0])
     compared = 0

@@ -567,7 +567,7 @@ def test_margin_maps_equal_evaluate_on_random_designs(d, h1, h2):
     from explorer.design import replace_fields
     from explorer.options import supply_model
     from explorer.sweep import duty_field
-    from explorer.topology import analysis_frequency, topology_of
+    from explorer.topology import analysis_frequency, frequency_field
     try:
         design = explorer.load_design(d)
         if design.bridge.topology == "three_phase" and design.bridge.f_o:  # the map is the standstill case
@@ -576,7 +576,7 @@ def test_margin_maps_equal_evaluate_on_random_designs(d, h1, h2):
         return
     f = analysis_frequency(design.bridge) * np.array([0.5, 1.0, 2.0])
     u = np.array(sorted((h1, h2)))
-    f_path = "bridge.f_line" if topology_of(design.bridge).line_frequency else "bridge.f_sw"
+    f_path = frequency_field(design.bridge)
     with warnings.catch_warnings():
         warnings.simplefilter("ignore", ExplorerWarning)
         for k, o in enumerate(design.options):
